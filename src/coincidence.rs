@@ -1,0 +1,137 @@
+//! Coincidence cases of generic indices: which indices of one space denote the same orbital.
+//! A result that holds for every case is assembled from the cases with Kronecker deltas.
+
+use crate::orbital::{Orb, SpaceId, SpinOrbital};
+use std::collections::BTreeMap;
+
+/// One pattern of equalities: every used index mapped to the representative (smallest) index
+/// of its block, and per closed space the representatives that must be written out.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Case {
+    representative: BTreeMap<u32, u32>,
+    extracted: BTreeMap<SpaceId, Vec<Orb>>,
+}
+
+impl Case {
+    pub fn orb(&self, orb: Orb) -> Orb {
+        match orb {
+            Orb::Index(k) => Orb::Index(*self.representative.get(&k).unwrap_or(&k)),
+            other => other,
+        }
+    }
+
+    pub fn spin_orbital(&self, so: SpinOrbital) -> SpinOrbital {
+        SpinOrbital::new(self.orb(so.orb), so.spin)
+    }
+
+    /// The members of a closed space that this case writes out explicitly.
+    pub fn extracted(&self, space: SpaceId) -> &[Orb] {
+        self.extracted.get(&space).map_or(&[], |v| v.as_slice())
+    }
+
+    /// The deltas that select this case among coarser ones: δ(rep, x) for every x of a block.
+    pub fn deltas(&self) -> Vec<(Orb, Orb)> {
+        self.representative
+            .iter()
+            .filter(|(k, r)| k != r)
+            .map(|(k, r)| (Orb::Index(*r), Orb::Index(*k)))
+            .collect()
+    }
+
+    /// True when every block of `self` lies inside a block of `coarser`.
+    pub fn refines(&self, coarser: &Case) -> bool {
+        self.representative.keys().all(|k| {
+            let mine = self.representative[k];
+            coarser.representative.get(&mine) == coarser.representative.get(k)
+        })
+    }
+
+    pub fn block_count(&self) -> usize {
+        self.representative.iter().filter(|(k, r)| k == r).count()
+    }
+}
+
+/// All set partitions of `items`, each as item → smallest item of its block.
+fn partitions(items: &[u32]) -> Vec<Vec<(u32, u32)>> {
+    let Some((&last, rest)) = items.split_last() else {
+        return vec![vec![]];
+    };
+    let mut out = vec![];
+    for partial in partitions(rest) {
+        let mut blocks: Vec<u32> = partial.iter().map(|&(_, r)| r).collect();
+        blocks.sort();
+        blocks.dedup();
+        for rep in blocks {
+            let mut p = partial.clone();
+            p.push((last, rep));
+            out.push(p);
+        }
+        let mut alone = partial;
+        alone.push((last, last));
+        out.push(alone);
+    }
+    out
+}
+
+/// Every coincidence case for the generic indices used (grouped by their spaces; indices of
+/// different spaces never coincide), finest first. `closed` lists the spaces that stand
+/// closed in some determinant: their used indices are written out explicitly.
+/// With `distinct`, only the case in which all indices differ.
+pub fn cases(used: &BTreeMap<SpaceId, Vec<u32>>, closed: &[SpaceId], distinct: bool) -> Vec<Case> {
+    let per_space: Vec<Vec<Vec<(u32, u32)>>> = used
+        .values()
+        .map(|indices| {
+            if distinct {
+                vec![indices.iter().map(|&k| (k, k)).collect()]
+            } else {
+                partitions(indices)
+            }
+        })
+        .collect();
+    let mut out: Vec<Case> = vec![Case {
+        representative: BTreeMap::new(),
+        extracted: BTreeMap::new(),
+    }];
+    for (space_choices, (&space, _)) in per_space.iter().zip(used) {
+        let mut next = vec![];
+        for case in &out {
+            for choice in space_choices {
+                let mut c = case.clone();
+                c.representative.extend(choice.iter().copied());
+                if closed.contains(&space) {
+                    let mut reps: Vec<Orb> = choice.iter().map(|&(_, r)| Orb::Index(r)).collect();
+                    reps.sort();
+                    reps.dedup();
+                    c.extracted.insert(space, reps);
+                }
+                next.push(c);
+            }
+        }
+        out = next;
+    }
+    out.sort_by_key(|c| std::cmp::Reverse(c.block_count()));
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn partitions_are_counted_by_bell_numbers() {
+        assert_eq!(partitions(&[]).len(), 1);
+        assert_eq!(partitions(&[0, 1]).len(), 2);
+        assert_eq!(partitions(&[0, 1, 2]).len(), 5);
+        assert_eq!(partitions(&[0, 1, 2, 3]).len(), 15);
+    }
+
+    #[test]
+    fn finest_case_comes_first_and_refines_all() {
+        let used = BTreeMap::from([(0, vec![0, 1]), (1, vec![2, 3])]);
+        let all = cases(&used, &[0], false);
+        assert_eq!(all.len(), 4);
+        assert!(all[0].deltas().is_empty());
+        assert!(all.iter().all(|c| all[0].refines(c)));
+        assert_eq!(all[3].deltas().len(), 2);
+    }
+}

@@ -1,0 +1,322 @@
+//! The expander: a request becomes an exact expression in spatial integrals, derived case by
+//! case over index coincidences and assembled with Kronecker deltas.
+
+use crate::coincidence::{self, Case};
+use crate::determinant::{CaseDet, Vanishing};
+use crate::error::{Error, ErrorKind, Result};
+use crate::exact::Exact;
+use crate::expression::{Expr, RestrictedSum};
+use crate::orbital::{Orb, SpaceId};
+use crate::program::{Occupant, Program, Request, RequestKind, State};
+use crate::slater_condon;
+use std::collections::{BTreeMap, BTreeSet};
+
+/// How derivations are carried out.
+#[derive(Clone, Debug)]
+pub struct Options {
+    /// Assume different generic indices denote different orbitals (no deltas).
+    pub distinct: bool,
+    /// The largest number of determinants a state may expand to.
+    pub max_determinants: usize,
+}
+
+impl Default for Options {
+    fn default() -> Options {
+        Options {
+            distinct: false,
+            max_determinants: 200_000,
+        }
+    }
+}
+
+/// A derived request: the expression and, for energies and elements, the overlap that the
+/// constant energy multiplies.
+#[derive(Clone, Debug)]
+pub struct Derivation {
+    pub kind: RequestKind,
+    pub text: String,
+    pub bra: String,
+    pub ket: String,
+    /// energy: <X|H|X>/<X|X>; element: <X|H|Y>; overlap: <X|Y>. Electronic part only.
+    pub value: Expr,
+    /// <bra|ket>, the factor of the constant (nuclear repulsion) energy.
+    pub overlap: Expr,
+    /// Conditions under which the expression does not apply, in words.
+    pub notes: Vec<String>,
+    /// Generic indices that the result depends on, in declaration order.
+    pub free_indices: Vec<u32>,
+}
+
+/// A state in one case: normalized determinants with their coefficients.
+type CaseState = BTreeMap<CaseDet, Exact>;
+
+fn used_indices(
+    program: &Program,
+    states: &[&State],
+) -> (BTreeMap<SpaceId, Vec<u32>>, Vec<SpaceId>, BTreeSet<u32>) {
+    let mut used: BTreeMap<SpaceId, BTreeSet<u32>> = BTreeMap::new();
+    let mut closed = BTreeSet::new();
+    let mut all = BTreeSet::new();
+    let mut note = |orb: Orb, spaces: &mut BTreeMap<SpaceId, BTreeSet<u32>>| {
+        if let (Orb::Index(k), Some(s)) = (orb, program.space_of(orb)) {
+            spaces.entry(s).or_default().insert(k);
+            all.insert(k);
+        }
+    };
+    for state in states {
+        for (_, det) in &state.terms {
+            for occupant in &det.occupants {
+                match occupant {
+                    Occupant::Closed(s) => {
+                        closed.insert(*s);
+                    }
+                    Occupant::Electron(so) => note(so.orb, &mut used),
+                }
+            }
+            for e in &det.excitations {
+                for so in e.from.iter().chain(&e.to) {
+                    note(so.orb, &mut used);
+                }
+            }
+        }
+    }
+    (
+        used.into_iter()
+            .map(|(s, v)| (s, v.into_iter().collect()))
+            .collect(),
+        closed.into_iter().collect(),
+        all,
+    )
+}
+
+fn vanishing_error(program: &Program, request: &Request, why: Vanishing, label: &str) -> Error {
+    let kind = match why {
+        Vanishing::Pauli(so) => ErrorKind::Pauli {
+            spin_orbital: program.spin_orbital_name(so),
+        },
+        Vanishing::Empty(so) => ErrorKind::NotExciting {
+            spin_orbital: format!("{} is not occupied", program.spin_orbital_name(so)),
+            det: label.into(),
+        },
+    };
+    Error::at(kind, &request.span)
+}
+
+fn case_state(state: &State, case: &Case) -> std::result::Result<CaseState, Vanishing> {
+    let mut out = CaseState::new();
+    let mut first_vanishing = None;
+    for (coeff, det) in &state.terms {
+        match CaseDet::build(det, case) {
+            Ok((sign, d)) => *out.entry(d).or_default() += &(coeff * &Exact::integer(sign as i64)),
+            Err(why) => first_vanishing = first_vanishing.or(Some(why)),
+        }
+    }
+    out.retain(|_, c| !c.is_zero());
+    match (out.is_empty(), first_vanishing) {
+        (true, Some(why)) if state.terms.len() == 1 => Err(why),
+        _ => Ok(out),
+    }
+}
+
+fn names(program: &Program, spaces: &[SpaceId]) -> String {
+    spaces
+        .iter()
+        .map(|&s| program.spaces[s as usize].name.clone())
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// Checks, in the case where all indices differ, that bra and ket can be compared.
+fn check_comparable(
+    program: &Program,
+    request: &Request,
+    bra: &CaseState,
+    ket: &CaseState,
+) -> Result<()> {
+    let mut dets = bra.keys().chain(ket.keys());
+    let Some(first) = dets.next() else {
+        return Ok(());
+    };
+    for d in bra.keys().chain(ket.keys()) {
+        if d.closed != first.closed {
+            return Err(Error::at(
+                ErrorKind::ClosedSpaces {
+                    bra: names(program, &first.closed),
+                    ket: names(program, &d.closed),
+                },
+                &request.span,
+            ));
+        }
+        if d.electrons.len() != first.electrons.len() {
+            return Err(Error::at(
+                ErrorKind::ElectronCount {
+                    bra: first.electrons.len(),
+                    ket: d.electrons.len(),
+                },
+                &request.span,
+            ));
+        }
+    }
+    Ok(())
+}
+
+fn overlap(bra: &CaseState, ket: &CaseState) -> Exact {
+    let mut total = Exact::zero();
+    for (d, c) in bra {
+        if let Some(e) = ket.get(d) {
+            total += &(c * e);
+        }
+    }
+    total
+}
+
+fn hamiltonian(bra: &CaseState, ket: &CaseState, closed: &[RestrictedSum]) -> Expr {
+    let mut terms = vec![];
+    for (db, cb) in bra {
+        for (dk, ck) in ket {
+            let weight = cb * ck;
+            for mut raw in slater_condon::hamiltonian(db, dk, closed) {
+                raw.coeff = &raw.coeff * &weight;
+                terms.extend(raw.expand());
+            }
+        }
+    }
+    Expr::from_terms(terms)
+}
+
+fn case_text(program: &Program, case: &Case) -> String {
+    case.deltas()
+        .iter()
+        .map(|&(a, b)| format!("{} = {}", program.orb_name(a), program.orb_name(b)))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// Derives one request.
+pub fn derive(program: &Program, request: &Request, options: &Options) -> Result<Derivation> {
+    for (state, label) in [
+        (&request.bra, &request.bra_text),
+        (&request.ket, &request.ket_text),
+    ] {
+        if state.terms.len() > options.max_determinants {
+            return Err(Error::at(
+                ErrorKind::TooLarge {
+                    what: format!("`{label}` with {} determinants", state.terms.len()),
+                    limit: options.max_determinants,
+                },
+                &request.span,
+            ));
+        }
+    }
+    let (used, closed_spaces, all_indices) = used_indices(program, &[&request.bra, &request.ket]);
+    let cases = coincidence::cases(&used, &closed_spaces, options.distinct);
+    let mut notes = vec![];
+    let mut parts: Vec<(Case, Expr, Expr)> = vec![];
+    for (n, case) in cases.iter().enumerate() {
+        let finest = n == 0;
+        let build = |state: &State, label: &str| {
+            case_state(state, case).map_err(|why| vanishing_error(program, request, why, label))
+        };
+        let (bra, ket) = match (
+            build(&request.bra, &request.bra_text),
+            build(&request.ket, &request.ket_text),
+        ) {
+            (Ok(b), Ok(k)) => (b, k),
+            (Err(e), _) | (_, Err(e)) if finest => return Err(e),
+            _ => (CaseState::new(), CaseState::new()),
+        };
+        if finest {
+            check_comparable(program, request, &bra, &ket)?;
+            for (s, label) in [(&bra, &request.bra_text), (&ket, &request.ket_text)] {
+                if s.is_empty() {
+                    return Err(Error::at(
+                        ErrorKind::EmptyState {
+                            name: label.clone(),
+                        },
+                        &request.span,
+                    ));
+                }
+            }
+        }
+        let closed: Vec<RestrictedSum> = bra
+            .keys()
+            .chain(ket.keys())
+            .next()
+            .map(|d| {
+                d.closed
+                    .iter()
+                    .map(|&s| RestrictedSum {
+                        space: s,
+                        excluded: case.extracted(s).to_vec(),
+                    })
+                    .collect()
+            })
+            .unwrap_or_default();
+        let s = Expr::constant(overlap(&bra, &ket));
+        let value = match request.kind {
+            RequestKind::Overlap => Some(s.clone()),
+            RequestKind::Element => Some(hamiltonian(&bra, &ket, &closed)),
+            RequestKind::Energy => {
+                let norm = overlap(&bra, &bra);
+                match norm.inverse() {
+                    Some(inverse) => Some(hamiltonian(&bra, &bra, &closed).scaled(&inverse)),
+                    None if finest => {
+                        return Err(Error::at(
+                            ErrorKind::ZeroNorm {
+                                state: request.bra_text.clone(),
+                            },
+                            &request.span,
+                        ));
+                    }
+                    None => {
+                        notes.push(format!(
+                            "the state vanishes when {}; the expression does not apply there",
+                            case_text(program, case)
+                        ));
+                        None
+                    }
+                }
+            }
+        };
+        // Möbius inversion over the coincidence lattice: what this case adds to the finer ones
+        let mut finer_value = Expr::zero();
+        let mut finer_overlap = Expr::zero();
+        for (other, v, o) in &parts {
+            if other.refines(case) {
+                finer_value = finer_value.plus(&v.substitute(&|x| case.orb(x)));
+                finer_overlap = finer_overlap.plus(&o.substitute(&|x| case.orb(x)));
+            }
+        }
+        let own_value = value.map_or(Expr::zero(), |v| v.minus(&finer_value));
+        let own_overlap = s.minus(&finer_overlap);
+        parts.push((case.clone(), own_value, own_overlap));
+    }
+    let mut value = Expr::zero();
+    let mut overlap_expr = Expr::zero();
+    for (case, v, o) in &parts {
+        value = value.plus(&v.with_deltas(&case.deltas()));
+        overlap_expr = overlap_expr.plus(&o.with_deltas(&case.deltas()));
+    }
+    if request.kind == RequestKind::Energy {
+        overlap_expr = Expr::constant(Exact::one());
+    }
+    Ok(Derivation {
+        kind: request.kind,
+        text: request.text.clone(),
+        bra: request.bra_text.clone(),
+        ket: request.ket_text.clone(),
+        value,
+        overlap: overlap_expr,
+        notes,
+        free_indices: all_indices.into_iter().collect(),
+    })
+}
+
+/// Derives every request of a program in order.
+pub fn derive_all(program: &Program, options: &Options) -> Result<Vec<Derivation>> {
+    program
+        .requests
+        .iter()
+        .map(|r| derive(program, r, options))
+        .collect()
+}

@@ -1,0 +1,136 @@
+//! The JSON form of derivations: a stable, documented schema (README.md, "JSON output") with
+//! every term's exact coefficient, deltas, summed indices and integral.
+
+use super::Namer;
+use crate::derive::Derivation;
+use crate::exact::Exact;
+use crate::expression::{Expr, Factor, IntegralKind};
+use crate::program::{Program, RequestKind};
+use crate::verify::Report;
+use serde::Serialize;
+
+pub const SCHEMA_VERSION: u32 = 1;
+
+#[derive(Serialize)]
+struct Document<'a> {
+    schema: &'static str,
+    version: u32,
+    input: &'a str,
+    requests: Vec<RequestOut<'a>>,
+}
+
+#[derive(Serialize)]
+struct RequestOut<'a> {
+    request: &'a str,
+    kind: RequestKind,
+    bra: &'a str,
+    ket: &'a str,
+    terms: Vec<TermOut>,
+    overlap: Vec<TermOut>,
+    notes: &'a [String],
+    verification: Option<&'a Report>,
+}
+
+#[derive(Serialize)]
+struct Part {
+    rational: String,
+    radicand: u64,
+}
+
+#[derive(Serialize)]
+struct CoefficientOut {
+    exact: String,
+    parts: Vec<Part>,
+    value: f64,
+}
+
+#[derive(Serialize)]
+struct SumOut {
+    index: String,
+    space: String,
+}
+
+#[derive(Serialize)]
+struct IntegralOut {
+    kind: &'static str,
+    indices: Vec<String>,
+}
+
+#[derive(Serialize)]
+struct TermOut {
+    coefficient: CoefficientOut,
+    deltas: Vec<[String; 2]>,
+    sums: Vec<SumOut>,
+    integral: IntegralOut,
+}
+
+fn coefficient(c: &Exact) -> CoefficientOut {
+    CoefficientOut {
+        exact: c.to_string(),
+        parts: c
+            .parts()
+            .map(|(q, n)| Part {
+                rational: q.to_string(),
+                radicand: n,
+            })
+            .collect(),
+        value: c.to_f64(),
+    }
+}
+
+fn terms(expr: &Expr, namer: &Namer) -> Vec<TermOut> {
+    expr.terms
+        .iter()
+        .map(|t| {
+            let summed = namer.summed_names(&t.sums);
+            let o = |x| namer.orb(x, &summed);
+            let (kind, indices) = match (t.factor, t.factor.kind()) {
+                (Factor::One, _) => ("number", vec![]),
+                (Factor::H(p, q), _) => ("h", vec![o(p), o(q)]),
+                (Factor::Eri(p, _, r, _), IntegralKind::Coulomb) => ("coulomb", vec![o(p), o(r)]),
+                (Factor::Eri(p, q, _, _), IntegralKind::Exchange) => ("exchange", vec![o(p), o(q)]),
+                (Factor::Eri(p, q, r, s), _) => ("eri", vec![o(p), o(q), o(r), o(s)]),
+            };
+            TermOut {
+                coefficient: coefficient(&t.coeff),
+                deltas: t.deltas.iter().map(|&(a, b)| [o(a), o(b)]).collect(),
+                sums: t
+                    .sums
+                    .iter()
+                    .zip(&summed)
+                    .map(|(&s, n)| SumOut {
+                        index: n.clone(),
+                        space: namer.space(s).into(),
+                    })
+                    .collect(),
+                integral: IntegralOut { kind, indices },
+            }
+        })
+        .collect()
+}
+
+pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)]) -> String {
+    let requests = derivations
+        .iter()
+        .map(|(d, report)| {
+            let namer = Namer::new(program, &[&d.value, &d.overlap]);
+            RequestOut {
+                request: &d.text,
+                kind: d.kind,
+                bra: &d.bra,
+                ket: &d.ket,
+                terms: terms(&d.value, &namer),
+                overlap: terms(&d.overlap, &namer),
+                notes: &d.notes,
+                verification: report.as_ref(),
+            }
+        })
+        .collect();
+    let doc = Document {
+        schema: "spinfold-derivation",
+        version: SCHEMA_VERSION,
+        input: &program.source.name,
+        requests,
+    };
+    serde_json::to_string_pretty(&doc).expect("plain data serializes") + "\n"
+}

@@ -1,0 +1,103 @@
+//! What every emitter shares: the names of summation indices, and the layout of an expression
+//! as groups of terms that share their deltas and sums.
+
+pub mod json;
+pub mod latex;
+pub mod text;
+
+use crate::expression::{Expr, IntegralKind, Term};
+use crate::orbital::{Orb, SpaceId};
+use crate::program::Program;
+use std::collections::BTreeSet;
+
+/// Consecutive terms sharing deltas, sums and the one/two-electron class, written as one
+/// `δ … Σ … (t1 + t2 + …)`.
+pub struct Group<'a> {
+    pub deltas: &'a [(Orb, Orb)],
+    pub sums: &'a [SpaceId],
+    pub terms: Vec<&'a Term>,
+}
+
+pub fn groups(expr: &Expr) -> Vec<Group<'_>> {
+    let mut out: Vec<Group> = vec![];
+    let class = |t: &Term| matches!(t.kind(), IntegralKind::Number | IntegralKind::OneElectron);
+    for term in &expr.terms {
+        match out.last_mut() {
+            Some(g)
+                if g.deltas == term.deltas.as_slice()
+                    && g.sums == term.sums.as_slice()
+                    && class(g.terms[0]) == class(term) =>
+            {
+                g.terms.push(term)
+            }
+            _ => out.push(Group {
+                deltas: &term.deltas,
+                sums: &term.sums,
+                terms: vec![term],
+            }),
+        }
+    }
+    out
+}
+
+/// Names orbitals for one expression: named orbitals and generic indices by their own names,
+/// summation indices by the space's own index letters not free in the expression, then by
+/// k, l, m, n, … avoiding every name the input declares.
+pub struct Namer<'a> {
+    program: &'a Program,
+    taken: BTreeSet<String>,
+    free: BTreeSet<Orb>,
+}
+
+impl<'a> Namer<'a> {
+    pub fn new(program: &'a Program, expressions: &[&Expr]) -> Namer<'a> {
+        let free = expressions.iter().flat_map(|e| e.free_orbs()).collect();
+        Namer {
+            program,
+            taken: program.declared_names().map(String::from).collect(),
+            free,
+        }
+    }
+
+    /// Names for the summation indices of a term with these sums.
+    pub fn summed_names(&self, sums: &[SpaceId]) -> Vec<String> {
+        let mut used: Vec<String> = vec![];
+        for &space in sums {
+            let own = self.program.spaces[space as usize]
+                .indices
+                .iter()
+                .filter(|&&k| !self.free.contains(&Orb::Index(k)))
+                .map(|&k| self.program.indices[k as usize].name.clone());
+            let fallback = ["k", "l", "m", "n"]
+                .into_iter()
+                .map(String::from)
+                .chain((1..).flat_map(|n| ["k", "l", "m", "n"].map(|s| format!("{s}{n}"))))
+                .filter(|s| !self.taken.contains(s));
+            let name = own
+                .chain(fallback)
+                .find(|n| !used.contains(n))
+                .expect("an endless supply of letters");
+            used.push(name);
+        }
+        used
+    }
+
+    pub fn orb(&self, orb: Orb, summed: &[String]) -> String {
+        match orb {
+            Orb::Summed(d) => summed[d as usize].clone(),
+            other => self.program.orb_name(other),
+        }
+    }
+
+    pub fn space(&self, space: SpaceId) -> &str {
+        &self.program.spaces[space as usize].name
+    }
+}
+
+/// The one-line summary of what a derivation was checked against.
+pub fn verification_line(report: Option<&crate::verify::Report>) -> String {
+    match report {
+        Some(r) => r.summary(),
+        None => "not verified (--no-verify)".to_string(),
+    }
+}

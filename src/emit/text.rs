@@ -1,0 +1,226 @@
+//! The readable text form of derivations: Σ, δ, h_pq, J_pq, K_pq and (pq|rs), one group of
+//! terms per line, in Unicode or plain ASCII.
+
+use super::{Group, Namer, groups, verification_line};
+use crate::derive::Derivation;
+use crate::exact::{Exact, ExactDisplay};
+use crate::expression::{Expr, Factor, IntegralKind};
+use crate::program::{Program, RequestKind};
+use crate::verify::Report;
+
+struct Style {
+    ascii: bool,
+}
+
+impl Style {
+    fn sigma(&self) -> &'static str {
+        if self.ascii { "sum" } else { "Σ" }
+    }
+    fn member(&self) -> &'static str {
+        if self.ascii { " in " } else { "∈" }
+    }
+    fn delta(&self) -> &'static str {
+        if self.ascii { "delta" } else { "δ" }
+    }
+    fn minus(&self) -> &'static str {
+        if self.ascii { "-" } else { "−" }
+    }
+}
+
+/// `ab` when every name is one letter, `{pi,s}` otherwise.
+fn subscript(names: &[String]) -> String {
+    if names.iter().all(|n| n.chars().count() == 1) {
+        names.concat()
+    } else {
+        format!("{{{}}}", names.join(","))
+    }
+}
+
+fn factor_text(factor: &Factor, namer: &Namer, summed: &[String]) -> String {
+    let o = |x| namer.orb(x, summed);
+    match (*factor, factor.kind()) {
+        (Factor::One, _) => "1".into(),
+        (Factor::H(p, q), _) => format!("h_{}", subscript(&[o(p), o(q)])),
+        (Factor::Eri(p, _, r, _), IntegralKind::Coulomb) => {
+            format!("J_{}", subscript(&[o(p), o(r)]))
+        }
+        (Factor::Eri(p, q, _, _), IntegralKind::Exchange) => {
+            format!("K_{}", subscript(&[o(p), o(q)]))
+        }
+        (Factor::Eri(p, q, r, s), _) => {
+            let names = [o(p), o(q), o(r), o(s)];
+            if names.iter().all(|n| n.chars().count() == 1) {
+                format!("({}{}|{}{})", names[0], names[1], names[2], names[3])
+            } else {
+                format!("({} {}|{} {})", names[0], names[1], names[2], names[3])
+            }
+        }
+    }
+}
+
+/// `2 J_ab`, `K_ab`, `1/2 K_pr`; the sign is written by the caller.
+fn magnitude_times(coeff: &Exact, body: &str, style: &Style) -> String {
+    let magnitude = coeff.abs();
+    if magnitude == Exact::one() {
+        body.to_string()
+    } else if body == "1" {
+        ExactDisplay {
+            value: &magnitude,
+            ascii: style.ascii,
+        }
+        .to_string()
+    } else {
+        format!(
+            "{} {body}",
+            ExactDisplay {
+                value: &magnitude,
+                ascii: style.ascii
+            }
+        )
+    }
+}
+
+fn group_text(group: &Group, namer: &Namer, style: &Style) -> (bool, String) {
+    let summed = namer.summed_names(group.sums);
+    let o = |x| namer.orb(x, &summed);
+    let mut prefix = String::new();
+    for &(a, b) in group.deltas {
+        prefix.push_str(&format!("{}_{} ", style.delta(), subscript(&[o(a), o(b)])));
+    }
+    if !group.sums.is_empty() {
+        let mut bounds = vec![];
+        let mut k = 0;
+        while k < group.sums.len() {
+            let mut names = vec![summed[k].clone()];
+            while k + 1 < group.sums.len() && group.sums[k + 1] == group.sums[k] {
+                k += 1;
+                names.push(summed[k].clone());
+            }
+            bounds.push(format!(
+                "{}{}{}",
+                names.join(","),
+                style.member(),
+                namer.space(group.sums[k])
+            ));
+            k += 1;
+        }
+        prefix.push_str(&format!("{}_{{{}}} ", style.sigma(), bounds.join(",")));
+    }
+    let body = |t: &crate::expression::Term| factor_text(&t.factor, namer, &summed);
+    if group.terms.len() == 1 {
+        let t = group.terms[0];
+        let inner = body(t);
+        let text = if prefix.is_empty() {
+            magnitude_times(&t.coeff, &inner, style)
+        } else {
+            let magnitude = t.coeff.abs();
+            let lead = if magnitude == Exact::one() {
+                String::new()
+            } else {
+                format!(
+                    "{} ",
+                    ExactDisplay {
+                        value: &magnitude,
+                        ascii: style.ascii
+                    }
+                )
+            };
+            if inner == "1" {
+                format!("{lead}{}", prefix.trim_end())
+            } else {
+                format!("{lead}{prefix}{inner}")
+            }
+        };
+        return (t.coeff.is_negative(), text);
+    }
+    let inner = signed_list(
+        group.terms.iter().map(|t| {
+            (
+                t.coeff.is_negative(),
+                magnitude_times(&t.coeff, &body(t), style),
+            )
+        }),
+        style,
+    );
+    if prefix.is_empty() {
+        (false, inner)
+    } else {
+        (false, format!("{prefix}({inner})"))
+    }
+}
+
+fn signed_list(items: impl Iterator<Item = (bool, String)>, style: &Style) -> String {
+    let mut out = String::new();
+    for (k, (negative, text)) in items.enumerate() {
+        match (k, negative) {
+            (0, false) => {}
+            (0, true) => out.push_str(style.minus()),
+            (_, false) => out.push_str(" + "),
+            (_, true) => out.push_str(&format!(" {} ", style.minus())),
+        }
+        out.push_str(&text);
+    }
+    out
+}
+
+/// The expression as lines: the first starts with `= `, each further group starts with its sign.
+fn expression_lines(expr: &Expr, namer: &Namer, style: &Style) -> Vec<String> {
+    if expr.is_zero() {
+        return vec!["= 0".into()];
+    }
+    let mut lines: Vec<String> = vec![];
+    let mut current = String::new();
+    for (k, group) in groups(expr).iter().enumerate() {
+        let (negative, text) = group_text(group, namer, style);
+        let plain = group.deltas.is_empty() && group.sums.is_empty();
+        let sign = if negative { style.minus() } else { "+" };
+        if k == 0 {
+            current = if negative {
+                format!("= {}{text}", style.minus())
+            } else {
+                format!("= {text}")
+            };
+        } else if plain && lines.is_empty() && !current.contains(style.sigma()) {
+            current.push_str(&format!(" {sign} {text}"));
+        } else {
+            lines.push(std::mem::take(&mut current));
+            current = format!("{sign} {text}");
+        }
+    }
+    lines.push(current);
+    lines
+}
+
+/// What a request computes, in words and brackets.
+pub fn request_meaning(d: &Derivation) -> String {
+    match d.kind {
+        RequestKind::Energy => format!("<{0}|H|{0}> / <{0}|{0}>", d.bra),
+        RequestKind::Element => format!("<{}|H|{}>", d.bra, d.ket),
+        RequestKind::Overlap => format!("<{}|{}>", d.bra, d.ket),
+    }
+}
+
+/// The text report of every derivation, in request order.
+pub fn render(
+    program: &Program,
+    derivations: &[(Derivation, Option<Report>)],
+    ascii: bool,
+) -> String {
+    let style = Style { ascii };
+    let mut out = String::new();
+    for (k, (d, report)) in derivations.iter().enumerate() {
+        if k > 0 {
+            out.push('\n');
+        }
+        let namer = Namer::new(program, &[&d.value]);
+        out.push_str(&format!("{}    {}\n", d.text, request_meaning(d)));
+        for line in expression_lines(&d.value, &namer, &style) {
+            out.push_str(&format!("  {line}\n"));
+        }
+        for note in &d.notes {
+            out.push_str(&format!("  note: {note}\n"));
+        }
+        out.push_str(&format!("  {}\n", verification_line(report.as_ref())));
+    }
+    out
+}

@@ -1,0 +1,317 @@
+//! Every way an input can be wrong, as one enum of precise kinds, and their rendering as a
+//! sentence with the file, line, column and a caret under the offending text.
+
+use codespan_reporting::diagnostic::{Diagnostic, Label};
+use codespan_reporting::files::SimpleFile;
+use codespan_reporting::term::{self, Config};
+use std::fmt;
+use std::ops::Range;
+use std::sync::Arc;
+
+/// An input text with the name it is reported under.
+#[derive(Debug)]
+pub struct Source {
+    pub name: String,
+    pub text: String,
+}
+
+impl Source {
+    pub fn new(name: impl Into<String>, text: impl Into<String>) -> Arc<Source> {
+        Arc::new(Source {
+            name: name.into(),
+            text: text.into(),
+        })
+    }
+
+    /// 1-based line and column of a byte offset.
+    pub fn line_column(&self, offset: usize) -> (usize, usize) {
+        let before = &self.text[..offset.min(self.text.len())];
+        let line = before.matches('\n').count() + 1;
+        let column = before.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
+        (line, column)
+    }
+}
+
+/// A stretch of an input text.
+#[derive(Clone, Debug)]
+pub struct Span {
+    pub source: Arc<Source>,
+    pub range: Range<usize>,
+}
+
+impl Span {
+    pub fn text(&self) -> &str {
+        &self.source.text[self.range.clone()]
+    }
+}
+
+impl PartialEq for Span {
+    fn eq(&self, other: &Span) -> bool {
+        Arc::ptr_eq(&self.source, &other.source) && self.range == other.range
+    }
+}
+
+/// What went wrong. Each kind carries the names it is about; `Error` adds the place.
+#[derive(Clone, Debug, PartialEq)]
+pub enum ErrorKind {
+    Syntax {
+        expected: String,
+    },
+    Undefined {
+        name: String,
+    },
+    WrongKind {
+        name: String,
+        is: String,
+        wanted: String,
+    },
+    Redefined {
+        name: String,
+        first: Option<Span>,
+    },
+    Pauli {
+        spin_orbital: String,
+    },
+    SpaceNotDoubled {
+        space: String,
+    },
+    SpaceInExcitation {
+        space: String,
+    },
+    ExcitationLengths {
+        from: usize,
+        to: usize,
+    },
+    NotExciting {
+        spin_orbital: String,
+        det: String,
+    },
+    NotADeterminant {
+        name: String,
+    },
+    BadCoefficient {
+        why: String,
+    },
+    NumberAlone,
+    StateTimesState,
+    DivisionByState,
+    DivisionByZero,
+    EmptyState {
+        name: String,
+    },
+    ZeroNorm {
+        state: String,
+    },
+    ElectronCount {
+        bra: usize,
+        ket: usize,
+    },
+    ClosedSpaces {
+        bra: String,
+        ket: String,
+    },
+    RequestArity {
+        kind: String,
+        wanted: usize,
+        got: usize,
+    },
+    TooLarge {
+        what: String,
+        limit: usize,
+    },
+    Io {
+        path: String,
+        why: String,
+    },
+    IntegralFile {
+        path: String,
+        line: usize,
+        why: String,
+    },
+    Binding {
+        why: String,
+    },
+    Usage {
+        why: String,
+    },
+    VerificationFailed {
+        request: String,
+        report: String,
+    },
+}
+
+/// An error with its place in the input, when it has one.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Error {
+    pub kind: ErrorKind,
+    pub span: Option<Span>,
+}
+
+pub type Result<T> = std::result::Result<T, Error>;
+
+impl Error {
+    pub fn at(kind: ErrorKind, span: &Span) -> Error {
+        Error {
+            kind,
+            span: Some(span.clone()),
+        }
+    }
+
+    pub fn new(kind: ErrorKind) -> Error {
+        Error { kind, span: None }
+    }
+
+    /// The process exit code: 1 for a failed verification, 2 for bad input or usage.
+    pub fn exit_code(&self) -> i32 {
+        match self.kind {
+            ErrorKind::VerificationFailed { .. } => 1,
+            _ => 2,
+        }
+    }
+
+    /// One sentence saying what is wrong.
+    pub fn message(&self) -> String {
+        use ErrorKind::*;
+        match &self.kind {
+            Syntax { expected } => format!("this line cannot be read: expected {expected}"),
+            Undefined { name } => format!("`{name}` is not defined"),
+            WrongKind { name, is, wanted } => {
+                format!("`{name}` is {is}, but {wanted} is needed here")
+            }
+            Redefined { name, .. } => format!("`{name}` is defined twice"),
+            Pauli { spin_orbital } => {
+                format!(
+                    "the spin orbital {spin_orbital} is occupied twice in this determinant (Pauli principle)"
+                )
+            }
+            SpaceNotDoubled { space } => {
+                format!("the space `{space}` stands in a determinant without `^2`")
+            }
+            SpaceInExcitation { space } => {
+                format!("the space `{space}` cannot be excited as a whole")
+            }
+            ExcitationLengths { from, to } => {
+                format!("this excitation removes {from} electron(s) but adds {to}")
+            }
+            NotExciting { spin_orbital, det } => {
+                format!("the excitation leaves no determinant: {spin_orbital} in {det}")
+            }
+            NotADeterminant { name } => format!("`{name}` is not a single determinant"),
+            BadCoefficient { why } => format!("this coefficient is not exact: {why}"),
+            NumberAlone => {
+                "a number stands alone in a state; it must multiply a determinant or state".into()
+            }
+            StateTimesState => "two states are multiplied together".into(),
+            DivisionByState => "a state stands in a denominator".into(),
+            DivisionByZero => "a coefficient divides by zero".into(),
+            EmptyState { name } => {
+                format!("the state `{name}` has no determinant left: every coefficient cancels")
+            }
+            ZeroNorm { state } => format!("the state `{state}` has zero norm"),
+            ElectronCount { bra, ket } => {
+                format!("the bra has {bra} explicit electron(s) and the ket {ket}")
+            }
+            ClosedSpaces { bra, ket } => {
+                format!("the bra has closed spaces {{{bra}}} and the ket {{{ket}}}")
+            }
+            RequestArity { kind, wanted, got } => {
+                format!("`{kind}` takes {wanted} state(s), but {got} are given")
+            }
+            TooLarge { what, limit } => format!("{what} exceeds the limit of {limit}"),
+            Io { path, why } => format!("cannot use `{path}`: {why}"),
+            IntegralFile { path, line, why } => format!("{path}:{line}: {why}"),
+            Binding { why } => why.clone(),
+            Usage { why } => why.clone(),
+            VerificationFailed { request, report } => {
+                format!("verification failed for `{request}`: {report}")
+            }
+        }
+    }
+
+    /// How to fix it.
+    pub fn help(&self) -> Option<String> {
+        use ErrorKind::*;
+        Some(match &self.kind {
+            Syntax { .. } => "see the input language in README.md; statements are `orbitals`, `space`, `det`, `state`, `energy`, `element`, `overlap`".into(),
+            Undefined { .. } => "declare it first with `orbitals`, `space`, `det` or `state`".into(),
+            WrongKind { .. } => "check which name was meant".into(),
+            Redefined { .. } => "give each orbital, space, index, determinant and state its own name".into(),
+            Pauli { .. } => "remove one of the two, or put the electron in another orbital or spin".into(),
+            SpaceNotDoubled { space } => format!("write `{space}^2`: a space is always doubly occupied"),
+            SpaceInExcitation { .. } => "excite one of its generic indices instead, e.g. `ref[i -> a]` with `space occ: i`".into(),
+            ExcitationLengths { .. } => "list as many spin orbitals after `->` as before it".into(),
+            NotExciting { .. } => "an excitation must remove occupied spin orbitals and add empty ones".into(),
+            NotADeterminant { .. } => "use `state` for a combination of determinants".into(),
+            BadCoefficient { .. } => "write integers, fractions and sqrt(n) or sqrt(p/q), multiplied or divided".into(),
+            NumberAlone | StateTimesState | DivisionByState => "write a combination as c1 D1 + c2 D2, with each coefficient multiplying one determinant or state".into(),
+            DivisionByZero => "use a non-zero divisor".into(),
+            EmptyState { .. } | ZeroNorm { .. } => "check the signs and coefficients of the combination".into(),
+            ElectronCount { .. } => "the Hamiltonian conserves the number of electrons: compare states with the same count".into(),
+            ClosedSpaces { .. } => "write the same closed spaces in the bra and the ket; their sizes are unknown".into(),
+            RequestArity { .. } => "write `energy X`, `element X Y` or `overlap X Y`".into(),
+            TooLarge { .. } => "raise the limit with --max-determinants if the machine has the memory".into(),
+            IntegralFile { .. } => "the integral file must be in the integral-dump text format described in README.md".into(),
+            _ => return None,
+        })
+    }
+
+    /// The full report: the sentence, and where an input place is known, the file, line,
+    /// column and a caret under the offending text.
+    pub fn render(&self) -> String {
+        let Some(span) = &self.span else {
+            let mut out = format!("error: {}", self.message());
+            if let Some(help) = self.help() {
+                out.push_str(&format!("\n  = help: {help}"));
+            }
+            return out + "\n";
+        };
+        let file = SimpleFile::new(span.source.name.as_str(), span.source.text.as_str());
+        let (line, column) = span.source.line_column(span.range.start);
+        let mut labels = vec![Label::primary((), span.range.clone()).with_message(self.label())];
+        if let ErrorKind::Redefined {
+            first: Some(first), ..
+        } = &self.kind
+        {
+            labels
+                .push(Label::secondary((), first.range.clone()).with_message("first defined here"));
+        }
+        let mut diagnostic = Diagnostic::error()
+            .with_message(format!(
+                "{}:{}:{}: {}",
+                span.source.name,
+                line,
+                column,
+                self.message()
+            ))
+            .with_labels(labels);
+        if let Some(help) = self.help() {
+            diagnostic = diagnostic.with_notes(vec![format!("help: {help}")]);
+        }
+        match term::emit_into_string(&Config::default(), &file, &diagnostic) {
+            Ok(text) => text,
+            Err(_) => format!(
+                "error: {}:{}:{}: {}\n",
+                span.source.name,
+                line,
+                column,
+                self.message()
+            ),
+        }
+    }
+
+    fn label(&self) -> String {
+        match &self.kind {
+            ErrorKind::Syntax { .. } => "here".into(),
+            ErrorKind::Redefined { .. } => "defined again here".into(),
+            _ => "here".into(),
+        }
+    }
+}
+
+impl fmt::Display for Error {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.render())
+    }
+}
+
+impl std::error::Error for Error {}

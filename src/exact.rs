@@ -1,0 +1,341 @@
+//! Exact coefficients: elements of the field of rationals extended by square roots of
+//! square-free integers (sums of q·√n), the only numbers a derivation ever touches.
+
+use num_bigint::BigInt;
+use num_integer::Integer;
+use num_rational::BigRational;
+use num_traits::{One, Signed, ToPrimitive, Zero};
+use std::collections::BTreeMap;
+use std::fmt;
+use std::ops::{Add, AddAssign, Div, Mul, Neg, Sub};
+
+/// A sum of rational multiples of square roots of distinct square-free positive integers.
+/// The empty sum is zero; radicand 1 holds the rational part.
+#[derive(Clone, PartialEq, Eq, Hash, PartialOrd, Ord, Default)]
+pub struct Exact {
+    parts: BTreeMap<u64, BigRational>,
+}
+
+/// Splits n into (s, f) with n = s^2 * f and f square-free.
+fn square_free_split(mut n: u64) -> (u64, u64) {
+    let (mut square_root, mut free) = (1u64, 1u64);
+    let mut p = 2u64;
+    while p * p <= n {
+        let mut count = 0;
+        while n % p == 0 {
+            n /= p;
+            count += 1;
+        }
+        square_root *= p.pow(count / 2);
+        if count % 2 == 1 {
+            free *= p;
+        }
+        p += if p == 2 { 1 } else { 2 };
+    }
+    (square_root, free * n)
+}
+
+impl Exact {
+    pub fn zero() -> Exact {
+        Exact::default()
+    }
+
+    pub fn one() -> Exact {
+        Exact::rational(BigRational::one())
+    }
+
+    pub fn integer(n: i64) -> Exact {
+        Exact::rational(BigRational::from_integer(BigInt::from(n)))
+    }
+
+    pub fn fraction(num: i64, den: i64) -> Exact {
+        Exact::rational(BigRational::new(BigInt::from(num), BigInt::from(den)))
+    }
+
+    pub fn rational(q: BigRational) -> Exact {
+        let mut parts = BTreeMap::new();
+        if !q.is_zero() {
+            parts.insert(1, q);
+        }
+        Exact { parts }
+    }
+
+    /// q·√n for a square-free n; callers with arbitrary n go through `sqrt_of_rational`.
+    fn term(q: BigRational, radicand: u64) -> Exact {
+        let mut parts = BTreeMap::new();
+        if !q.is_zero() {
+            parts.insert(radicand, q);
+        }
+        Exact { parts }
+    }
+
+    /// The positive square root of a non-negative rational, or None if it is negative or
+    /// too large to factor.
+    pub fn sqrt_of_rational(q: &BigRational) -> Option<Exact> {
+        if q.is_negative() {
+            return None;
+        }
+        if q.is_zero() {
+            return Some(Exact::zero());
+        }
+        // sqrt(p/q) = sqrt(p q) / q
+        let product = (q.numer() * q.denom()).to_u64()?;
+        let (outside, radicand) = square_free_split(product);
+        let coefficient = BigRational::new(BigInt::from(outside), q.denom().clone());
+        Some(Exact::term(coefficient, radicand))
+    }
+
+    pub fn is_zero(&self) -> bool {
+        self.parts.is_empty()
+    }
+
+    /// Some(q) when the number is rational.
+    pub fn as_rational(&self) -> Option<BigRational> {
+        match self.parts.len() {
+            0 => Some(BigRational::zero()),
+            1 => self.parts.get(&1).cloned(),
+            _ => None,
+        }
+    }
+
+    /// Some((q, n)) when the number is a single term q·√n.
+    pub fn as_monomial(&self) -> Option<(BigRational, u64)> {
+        match self.parts.len() {
+            0 => Some((BigRational::zero(), 1)),
+            1 => self.parts.iter().next().map(|(n, q)| (q.clone(), *n)),
+            _ => None,
+        }
+    }
+
+    /// The terms q·√n in increasing radicand.
+    pub fn parts(&self) -> impl Iterator<Item = (&BigRational, u64)> {
+        self.parts.iter().map(|(n, q)| (q, *n))
+    }
+
+    pub fn to_f64(&self) -> f64 {
+        self.parts
+            .iter()
+            .map(|(n, q)| q.to_f64().unwrap_or(f64::NAN) * (*n as f64).sqrt())
+            .sum()
+    }
+
+    /// True when the leading (smallest-radicand) part is negative: used to print a
+    /// term with a minus sign in front.
+    pub fn is_negative(&self) -> bool {
+        self.parts.values().next().is_some_and(|q| q.is_negative())
+    }
+
+    pub fn abs(&self) -> Exact {
+        if self.is_negative() {
+            -self.clone()
+        } else {
+            self.clone()
+        }
+    }
+
+    fn add_part(&mut self, radicand: u64, q: BigRational) {
+        let entry = self.parts.entry(radicand).or_insert_with(BigRational::zero);
+        *entry += q;
+        if entry.is_zero() {
+            self.parts.remove(&radicand);
+        }
+    }
+
+    /// The multiplicative inverse, or None for zero. Each prime under a root is removed in
+    /// turn by multiplying with the conjugate that flips the sign of its root.
+    pub fn inverse(&self) -> Option<Exact> {
+        if self.is_zero() {
+            return None;
+        }
+        let mut numerator = Exact::one();
+        let mut denominator = self.clone();
+        while let Some(prime) = denominator.some_prime_under_root() {
+            let conjugate = denominator.flip_root(prime);
+            numerator = &numerator * &conjugate;
+            denominator = &denominator * &conjugate;
+        }
+        let q = denominator.as_rational()?;
+        Some(&numerator * &Exact::rational(q.recip()))
+    }
+
+    fn some_prime_under_root(&self) -> Option<u64> {
+        let n = *self.parts.keys().find(|n| **n > 1)?;
+        (2..=n).find(|p| n % p == 0)
+    }
+
+    /// The conjugate under √p -> -√p.
+    fn flip_root(&self, prime: u64) -> Exact {
+        let mut out = self.clone();
+        for (n, q) in out.parts.iter_mut() {
+            if n % prime == 0 {
+                *q = -q.clone();
+            }
+        }
+        out
+    }
+}
+
+impl Add for &Exact {
+    type Output = Exact;
+    fn add(self, other: &Exact) -> Exact {
+        let mut out = self.clone();
+        out += other;
+        out
+    }
+}
+
+impl AddAssign<&Exact> for Exact {
+    fn add_assign(&mut self, other: &Exact) {
+        for (n, q) in &other.parts {
+            self.add_part(*n, q.clone());
+        }
+    }
+}
+
+impl Sub for &Exact {
+    type Output = Exact;
+    fn sub(self, other: &Exact) -> Exact {
+        self + &(-other.clone())
+    }
+}
+
+impl Neg for Exact {
+    type Output = Exact;
+    fn neg(mut self) -> Exact {
+        for q in self.parts.values_mut() {
+            *q = -q.clone();
+        }
+        self
+    }
+}
+
+impl Mul for &Exact {
+    type Output = Exact;
+    fn mul(self, other: &Exact) -> Exact {
+        let mut out = Exact::zero();
+        for (a, p) in &self.parts {
+            for (b, q) in &other.parts {
+                // √a √b = g √(ab/g²) for square-free a, b with g = gcd(a, b)
+                let g = a.gcd(b);
+                let radicand = (a / g) * (b / g);
+                out.add_part(radicand, p * q * BigRational::from_integer(BigInt::from(g)));
+            }
+        }
+        out
+    }
+}
+
+impl Div for &Exact {
+    type Output = Option<Exact>;
+    fn div(self, other: &Exact) -> Option<Exact> {
+        Some(self * &other.inverse()?)
+    }
+}
+
+fn write_rational_times_root(
+    f: &mut fmt::Formatter<'_>,
+    q: &BigRational,
+    n: u64,
+    ascii: bool,
+) -> fmt::Result {
+    let root = |f: &mut fmt::Formatter<'_>| {
+        if ascii {
+            write!(f, "sqrt({n})")
+        } else {
+            write!(f, "√{n}")
+        }
+    };
+    let (num, den) = (q.numer(), q.denom());
+    if n == 1 {
+        write!(f, "{num}")?;
+    } else if num.is_one() {
+        root(f)?;
+    } else if (-num.clone()).is_one() {
+        write!(f, "-")?;
+        root(f)?;
+    } else {
+        write!(f, "{num}")?;
+        root(f)?;
+    }
+    if !den.is_one() {
+        write!(f, "/{den}")?;
+    }
+    Ok(())
+}
+
+/// Renders in the plain-text form used by the text emitter: `2`, `-1/2`, `√3/2`, `(1 + √2)`.
+pub struct ExactDisplay<'a> {
+    pub value: &'a Exact,
+    pub ascii: bool,
+}
+
+impl fmt::Display for ExactDisplay<'_> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let parts: Vec<_> = self.value.parts.iter().collect();
+        match parts.len() {
+            0 => write!(f, "0"),
+            1 => write_rational_times_root(f, parts[0].1, *parts[0].0, self.ascii),
+            _ => {
+                write!(f, "(")?;
+                for (k, (n, q)) in parts.iter().enumerate() {
+                    if k > 0 {
+                        write!(f, "{}", if q.is_negative() { " - " } else { " + " })?;
+                        write_rational_times_root(f, &q.abs(), **n, self.ascii)?;
+                    } else {
+                        write_rational_times_root(f, q, **n, self.ascii)?;
+                    }
+                }
+                write!(f, ")")
+            }
+        }
+    }
+}
+
+impl fmt::Display for Exact {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        ExactDisplay {
+            value: self,
+            ascii: true,
+        }
+        .fmt(f)
+    }
+}
+
+impl fmt::Debug for Exact {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{self}")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn root(n: i64, d: i64) -> Exact {
+        Exact::sqrt_of_rational(&BigRational::new(n.into(), d.into())).unwrap()
+    }
+
+    #[test]
+    fn products_of_roots_reduce() {
+        // sqrt(2) * sqrt(6) = 2 sqrt(3)
+        let p = &root(2, 1) * &root(6, 1);
+        assert_eq!(p, &Exact::integer(2) * &root(3, 1));
+        assert_eq!(format!("{p}"), "2sqrt(3)");
+    }
+
+    #[test]
+    fn roots_of_fractions_are_rationalized() {
+        assert_eq!(format!("{}", root(1, 6)), "sqrt(6)/6");
+        assert_eq!(format!("{}", root(1, 2)), "sqrt(2)/2");
+        assert_eq!(format!("{}", root(12, 1)), "2sqrt(3)");
+        assert_eq!(root(9, 4), Exact::fraction(3, 2));
+    }
+
+    #[test]
+    fn inverse_of_a_sum_of_roots() {
+        let x = &(&Exact::one() + &root(2, 1)) + &root(3, 1);
+        let inv = x.inverse().unwrap();
+        assert_eq!(&x * &inv, Exact::one());
+        assert!((inv.to_f64() - 1.0 / (1.0 + 2f64.sqrt() + 3f64.sqrt())).abs() < 1e-14);
+    }
+}

@@ -1,0 +1,594 @@
+//! Reads the input language (grammar/spinfold.pest) and resolves names into a `Program`,
+//! checking every definition as it goes so that errors point at the text that caused them.
+
+use crate::error::{Error, ErrorKind, Result, Source, Span};
+use crate::exact::Exact;
+use crate::orbital::{Orb, Spin, SpinOrbital};
+use crate::program::{
+    DetSpec, Excitation, Index, NamedState, Occupant, Orbital, Program, Request, RequestKind,
+    Space, State,
+};
+use num_bigint::BigInt;
+use num_rational::BigRational;
+use pest::Parser;
+use pest::iterators::Pair;
+use std::collections::HashMap;
+use std::sync::Arc;
+
+#[derive(pest_derive::Parser)]
+#[grammar = "../grammar/spinfold.pest"]
+struct Grammar;
+
+/// What a name stands for.
+#[derive(Clone, Copy, Debug)]
+enum Symbol {
+    Orbital(u32),
+    Space(u32),
+    Index(u32),
+    State(u32),
+}
+
+/// A piece of a state expression: either a number or a state.
+enum Value {
+    Number(Exact),
+    State(State),
+}
+
+/// Parses an input text, reported under `name` in errors.
+pub fn parse(name: &str, text: &str) -> Result<Program> {
+    let source = Source::new(name, text);
+    let mut pairs = Grammar::parse(Rule::file, text).map_err(|e| syntax_error(&source, e))?;
+    let file = pairs.next().expect("the file rule always matches once");
+    let mut resolver = Resolver {
+        program: Program {
+            source: source.clone(),
+            orbitals: vec![],
+            spaces: vec![],
+            indices: vec![],
+            states: vec![],
+            requests: vec![],
+        },
+        symbols: HashMap::new(),
+    };
+    for statement in file.into_inner() {
+        resolver.statement(statement)?;
+    }
+    Ok(resolver.program)
+}
+
+fn describe(rule: &Rule) -> &'static str {
+    match rule {
+        Rule::name => "a name",
+        Rule::number => "a number",
+        Rule::sum | Rule::product | Rule::unit => "a state or coefficient",
+        Rule::operand | Rule::state_atom => "a state, a determinant `| ... |` or `(...)`",
+        Rule::inline_det => "a determinant `| ... |`",
+        Rule::occupant => "an orbital, `name'` or `name^2`",
+        Rule::excitation => "an excitation `[x -> y]`",
+        Rule::spin_orbital => "a spin orbital (`a` or `a'`)",
+        Rule::EOI => "the end of the input",
+        Rule::add_op | Rule::sign => "`+` or `-`",
+        Rule::mul_op => "`*` or `/`",
+        Rule::kw_orbitals | Rule::kw_space | Rule::kw_det | Rule::kw_state | Rule::request_kind => {
+            "a statement (`orbitals`, `space`, `det`, `state`, `energy`, `element`, `overlap`)"
+        }
+        _ => "something else",
+    }
+}
+
+fn syntax_error(source: &Arc<Source>, error: pest::error::Error<Rule>) -> Error {
+    let start = match error.location {
+        pest::error::InputLocation::Pos(p) => p,
+        pest::error::InputLocation::Span((s, _)) => s,
+    };
+    let expected = match &error.variant {
+        pest::error::ErrorVariant::ParsingError { positives, .. } => {
+            let mut words: Vec<&str> = positives.iter().map(describe).collect();
+            words.sort();
+            words.dedup();
+            if words.is_empty() {
+                "a statement".to_string()
+            } else {
+                words.join(" or ")
+            }
+        }
+        pest::error::ErrorVariant::CustomError { message } => message.clone(),
+    };
+    let text = &source.text;
+    let end = text[start..]
+        .char_indices()
+        .nth(1)
+        .map_or(text.len(), |(k, _)| start + k);
+    let end = if text[start..end].contains('\n') || start >= text.len() {
+        start
+    } else {
+        end
+    };
+    Error::at(
+        ErrorKind::Syntax { expected },
+        &Span {
+            source: source.clone(),
+            range: start..end.max(start),
+        },
+    )
+}
+
+struct Resolver {
+    program: Program,
+    symbols: HashMap<String, (Symbol, Span)>,
+}
+
+impl Resolver {
+    fn span(&self, pair: &Pair<Rule>) -> Span {
+        let s = pair.as_span();
+        Span {
+            source: self.program.source.clone(),
+            range: s.start()..s.end(),
+        }
+    }
+
+    fn declare(&mut self, pair: &Pair<Rule>, symbol: Symbol) -> Result<()> {
+        let name = pair.as_str().to_string();
+        let span = self.span(pair);
+        if let Some((_, first)) = self.symbols.get(&name) {
+            return Err(Error::at(
+                ErrorKind::Redefined {
+                    name,
+                    first: Some(first.clone()),
+                },
+                &span,
+            ));
+        }
+        self.symbols.insert(name, (symbol, span));
+        Ok(())
+    }
+
+    fn lookup(&self, pair: &Pair<Rule>) -> Result<Symbol> {
+        self.symbols
+            .get(pair.as_str())
+            .map(|(s, _)| *s)
+            .ok_or_else(|| {
+                Error::at(
+                    ErrorKind::Undefined {
+                        name: pair.as_str().into(),
+                    },
+                    &self.span(pair),
+                )
+            })
+    }
+
+    fn wrong_kind(&self, pair: &Pair<Rule>, symbol: Symbol, wanted: &str) -> Error {
+        let is = match symbol {
+            Symbol::Orbital(_) => "an orbital",
+            Symbol::Space(_) => "a space",
+            Symbol::Index(_) => "a generic index",
+            Symbol::State(k) if self.program.states[k as usize].is_determinant => "a determinant",
+            Symbol::State(_) => "a state",
+        };
+        Error::at(
+            ErrorKind::WrongKind {
+                name: pair.as_str().into(),
+                is: is.into(),
+                wanted: wanted.into(),
+            },
+            &self.span(pair),
+        )
+    }
+
+    fn statement(&mut self, pair: Pair<Rule>) -> Result<()> {
+        let rule = pair.as_rule();
+        let span = self.span(&pair);
+        let mut inner = pair.into_inner();
+        match rule {
+            Rule::orbitals_stmt => {
+                inner.next();
+                for name in inner {
+                    let id = self.program.orbitals.len() as u32;
+                    self.declare(&name, Symbol::Orbital(id))?;
+                    self.program.orbitals.push(Orbital {
+                        name: name.as_str().into(),
+                        span: self.span(&name),
+                    });
+                }
+            }
+            Rule::space_stmt => {
+                inner.next();
+                let name = inner.next().expect("grammar: space name");
+                let space = self.program.spaces.len() as u32;
+                self.declare(&name, Symbol::Space(space))?;
+                let mut indices = vec![];
+                for index in inner {
+                    let id = self.program.indices.len() as u32;
+                    self.declare(&index, Symbol::Index(id))?;
+                    self.program.indices.push(Index {
+                        name: index.as_str().into(),
+                        space,
+                        span: self.span(&index),
+                    });
+                    indices.push(id);
+                }
+                self.program.spaces.push(Space {
+                    name: name.as_str().into(),
+                    indices,
+                    span: self.span(&name),
+                });
+            }
+            Rule::det_stmt | Rule::state_stmt => {
+                inner.next();
+                let name = inner.next().expect("grammar: state name");
+                let value = inner.next().expect("grammar: state value");
+                let is_determinant = rule == Rule::det_stmt;
+                let value_span = self.span(&value);
+                let state = match self.value(value)? {
+                    Value::State(s) => s,
+                    Value::Number(_) => return Err(Error::at(ErrorKind::NumberAlone, &value_span)),
+                };
+                if is_determinant && state.terms.len() != 1 {
+                    return Err(Error::at(
+                        ErrorKind::NotADeterminant {
+                            name: value_span.text().into(),
+                        },
+                        &value_span,
+                    ));
+                }
+                if state.terms.iter().all(|(c, _)| c.is_zero()) || state.terms.is_empty() {
+                    return Err(Error::at(
+                        ErrorKind::EmptyState {
+                            name: name.as_str().into(),
+                        },
+                        &value_span,
+                    ));
+                }
+                let id = self.program.states.len() as u32;
+                self.declare(&name, Symbol::State(id))?;
+                self.program.states.push(NamedState {
+                    name: name.as_str().into(),
+                    state,
+                    is_determinant,
+                    span: self.span(&name),
+                });
+            }
+            Rule::request_stmt => {
+                let keyword = inner.next().expect("grammar: request keyword");
+                let kind = match keyword.as_str() {
+                    "energy" => RequestKind::Energy,
+                    "element" => RequestKind::Element,
+                    _ => RequestKind::Overlap,
+                };
+                let wanted = if kind == RequestKind::Energy { 1 } else { 2 };
+                let operands: Vec<Pair<Rule>> = inner.collect();
+                if operands.len() != wanted {
+                    return Err(Error::at(
+                        ErrorKind::RequestArity {
+                            kind: kind.keyword().into(),
+                            wanted,
+                            got: operands.len(),
+                        },
+                        &span,
+                    ));
+                }
+                let mut states = vec![];
+                for operand in &operands {
+                    let operand_span = self.span(operand);
+                    let text = operand.as_str().trim().to_string();
+                    match self.value(
+                        operand
+                            .clone()
+                            .into_inner()
+                            .next()
+                            .expect("grammar: operand"),
+                    )? {
+                        Value::State(s) => states.push((s, text)),
+                        Value::Number(_) => {
+                            return Err(Error::at(ErrorKind::NumberAlone, &operand_span));
+                        }
+                    }
+                }
+                let (bra, bra_text) = states[0].clone();
+                let (ket, ket_text) = states.last().cloned().expect("one or two operands");
+                self.program.requests.push(Request {
+                    kind,
+                    text: span.text().trim().to_string(),
+                    bra,
+                    ket,
+                    bra_text,
+                    ket_text,
+                    span,
+                });
+            }
+            Rule::EOI => {}
+            other => unreachable!("grammar: unexpected statement {other:?}"),
+        }
+        Ok(())
+    }
+
+    fn value(&self, pair: Pair<Rule>) -> Result<Value> {
+        let span = self.span(&pair);
+        match pair.as_rule() {
+            Rule::sum => {
+                let mut inner = pair.into_inner().peekable();
+                let negate = inner
+                    .peek()
+                    .is_some_and(|p| p.as_rule() == Rule::sign && p.as_str() == "-");
+                if inner.peek().is_some_and(|p| p.as_rule() == Rule::sign) {
+                    inner.next();
+                }
+                let first = inner.next().expect("grammar: sum has a product");
+                let mut total = self.value(first)?;
+                if negate {
+                    total = negated(total);
+                }
+                while let Some(op) = inner.next() {
+                    let term = inner.next().expect("grammar: operator has a right side");
+                    let term_span = self.span(&term);
+                    let mut right = self.value(term)?;
+                    if op.as_str() == "-" {
+                        right = negated(right);
+                    }
+                    total = added(total, right, &span, &term_span)?;
+                }
+                Ok(total)
+            }
+            Rule::product => {
+                let mut inner = pair.into_inner();
+                let mut total = self.value(inner.next().expect("grammar: product has a unit"))?;
+                let mut divide = false;
+                for piece in inner {
+                    if piece.as_rule() == Rule::mul_op {
+                        divide = piece.as_str() == "/";
+                        continue;
+                    }
+                    let piece_span = self.span(&piece);
+                    let right = self.value(piece)?;
+                    total = multiplied(total, right, divide, &piece_span)?;
+                    divide = false;
+                }
+                Ok(total)
+            }
+            Rule::unit | Rule::operand => {
+                self.value(pair.into_inner().next().expect("grammar: unit"))
+            }
+            Rule::number => Ok(Value::Number(decimal(pair.as_str()))),
+            Rule::sqrt_call => {
+                let argument = pair.into_inner().nth(1).expect("grammar: sqrt argument");
+                let argument_span = self.span(&argument);
+                let bad = |why: &str| {
+                    Error::at(
+                        ErrorKind::BadCoefficient { why: why.into() },
+                        &argument_span,
+                    )
+                };
+                match self.value(argument)? {
+                    Value::Number(x) => {
+                        let q = x
+                            .as_rational()
+                            .ok_or_else(|| bad("the square root of an irrational number"))?;
+                        Exact::sqrt_of_rational(&q)
+                            .map(Value::Number)
+                            .ok_or_else(|| {
+                                bad("the square root of a negative or very large number")
+                            })
+                    }
+                    Value::State(_) => Err(bad("the square root of a state")),
+                }
+            }
+            Rule::group => {
+                let mut inner = pair.into_inner();
+                let value = self.value(inner.next().expect("grammar: group body"))?;
+                self.excite(value, inner, &span)
+            }
+            Rule::state_atom => {
+                let mut inner = pair.into_inner();
+                let head = inner.next().expect("grammar: atom head");
+                let state = match head.as_rule() {
+                    Rule::inline_det => self.inline_det(head)?,
+                    _ => match self.lookup(&head)? {
+                        Symbol::State(k) => self.program.states[k as usize].state.clone(),
+                        other => {
+                            return Err(self.wrong_kind(&head, other, "a determinant or state"));
+                        }
+                    },
+                };
+                self.excite(Value::State(state), inner, &span)
+            }
+            other => unreachable!("grammar: unexpected expression {other:?}"),
+        }
+    }
+
+    fn excite<'a>(
+        &self,
+        value: Value,
+        excitations: impl Iterator<Item = Pair<'a, Rule>>,
+        span: &Span,
+    ) -> Result<Value> {
+        let mut value = value;
+        for excitation in excitations {
+            let excitation = self.excitation(excitation)?;
+            value = match value {
+                Value::State(s) => Value::State(s.excited(&excitation)),
+                Value::Number(_) => return Err(Error::at(ErrorKind::NumberAlone, span)),
+            };
+        }
+        Ok(value)
+    }
+
+    fn excitation(&self, pair: Pair<Rule>) -> Result<Excitation> {
+        let span = self.span(&pair);
+        let text = pair.as_str();
+        let arrow = text.find("->").expect("grammar: excitation arrow") + pair.as_span().start();
+        let (mut from, mut to) = (vec![], vec![]);
+        for so in pair.into_inner() {
+            let target = if so.as_span().start() < arrow {
+                &mut from
+            } else {
+                &mut to
+            };
+            target.push(self.spin_orbital(so)?);
+        }
+        if from.len() != to.len() {
+            return Err(Error::at(
+                ErrorKind::ExcitationLengths {
+                    from: from.len(),
+                    to: to.len(),
+                },
+                &span,
+            ));
+        }
+        for list in [&from, &to] {
+            for (k, a) in list.iter().enumerate() {
+                if list[..k].contains(a) {
+                    return Err(Error::at(
+                        ErrorKind::Pauli {
+                            spin_orbital: self.program.spin_orbital_name(*a),
+                        },
+                        &span,
+                    ));
+                }
+            }
+        }
+        Ok(Excitation { from, to })
+    }
+
+    fn orbital(&self, name: &Pair<Rule>) -> Result<std::result::Result<Orb, u32>> {
+        match self.lookup(name)? {
+            Symbol::Orbital(k) => Ok(Ok(Orb::Named(k))),
+            Symbol::Index(k) => Ok(Ok(Orb::Index(k))),
+            Symbol::Space(k) => Ok(Err(k)),
+            other => Err(self.wrong_kind(name, other, "an orbital or generic index")),
+        }
+    }
+
+    fn spin_orbital(&self, pair: Pair<Rule>) -> Result<SpinOrbital> {
+        let span = self.span(&pair);
+        let mut inner = pair.into_inner();
+        let name = inner.next().expect("grammar: spin orbital name");
+        let spin = if inner.next().is_some() {
+            Spin::Beta
+        } else {
+            Spin::Alpha
+        };
+        match self.orbital(&name)? {
+            Ok(orb) => Ok(SpinOrbital::new(orb, spin)),
+            Err(space) => Err(Error::at(
+                ErrorKind::SpaceInExcitation {
+                    space: self.program.spaces[space as usize].name.clone(),
+                },
+                &span,
+            )),
+        }
+    }
+
+    fn inline_det(&self, pair: Pair<Rule>) -> Result<State> {
+        let mut occupants = vec![];
+        for occupant in pair.into_inner() {
+            let span = self.span(&occupant);
+            let mut inner = occupant.into_inner();
+            let name = inner.next().expect("grammar: occupant name");
+            let suffix = inner.next().map(|p| p.as_rule());
+            let added: Vec<Occupant> = match (self.orbital(&name)?, suffix) {
+                (Err(space), Some(Rule::doubly)) => vec![Occupant::Closed(space)],
+                (Err(space), _) => {
+                    return Err(Error::at(
+                        ErrorKind::SpaceNotDoubled {
+                            space: self.program.spaces[space as usize].name.clone(),
+                        },
+                        &span,
+                    ));
+                }
+                (Ok(orb), Some(Rule::doubly)) => vec![
+                    Occupant::Electron(SpinOrbital::new(orb, Spin::Alpha)),
+                    Occupant::Electron(SpinOrbital::new(orb, Spin::Beta)),
+                ],
+                (Ok(orb), Some(_)) => vec![Occupant::Electron(SpinOrbital::new(orb, Spin::Beta))],
+                (Ok(orb), None) => vec![Occupant::Electron(SpinOrbital::new(orb, Spin::Alpha))],
+            };
+            for occupant in added {
+                if occupants.contains(&occupant) {
+                    let what = match occupant {
+                        Occupant::Closed(s) => {
+                            format!("{}^2", self.program.spaces[s as usize].name)
+                        }
+                        Occupant::Electron(so) => self.program.spin_orbital_name(so),
+                    };
+                    return Err(Error::at(ErrorKind::Pauli { spin_orbital: what }, &span));
+                }
+                occupants.push(occupant);
+            }
+        }
+        Ok(State {
+            terms: vec![(
+                Exact::one(),
+                DetSpec {
+                    occupants,
+                    excitations: vec![],
+                },
+            )],
+        })
+    }
+}
+
+fn decimal(text: &str) -> Exact {
+    let (whole, fraction) = text.split_once('.').unwrap_or((text, ""));
+    let digits: BigInt = format!("{whole}{fraction}")
+        .parse()
+        .expect("grammar: digits");
+    let scale = BigInt::from(10).pow(fraction.len() as u32);
+    Exact::rational(BigRational::new(digits, scale))
+}
+
+fn negated(value: Value) -> Value {
+    match value {
+        Value::Number(x) => Value::Number(-x),
+        Value::State(s) => Value::State(s.scaled(&Exact::integer(-1))),
+    }
+}
+
+fn added(left: Value, right: Value, span: &Span, right_span: &Span) -> Result<Value> {
+    match (left, right) {
+        (Value::State(mut a), Value::State(b)) => {
+            a.terms.extend(b.terms);
+            Ok(Value::State(a))
+        }
+        (Value::Number(a), Value::Number(b)) => {
+            let total = &a + &b;
+            if total.as_monomial().is_none() {
+                return Err(Error::at(
+                    ErrorKind::BadCoefficient {
+                        why: format!("{total} is a sum of different square roots"),
+                    },
+                    span,
+                ));
+            }
+            Ok(Value::Number(total))
+        }
+        _ => Err(Error::at(ErrorKind::NumberAlone, right_span)),
+    }
+}
+
+fn multiplied(left: Value, right: Value, divide: bool, right_span: &Span) -> Result<Value> {
+    let divisor = |x: &Exact| -> Result<Exact> {
+        if x.is_zero() {
+            return Err(Error::at(ErrorKind::DivisionByZero, right_span));
+        }
+        Ok(x.inverse().expect("non-zero numbers have inverses"))
+    };
+    match (left, right) {
+        (Value::Number(a), Value::Number(b)) => Ok(Value::Number(if divide {
+            &a * &divisor(&b)?
+        } else {
+            &a * &b
+        })),
+        (Value::State(s), Value::Number(b)) => Ok(Value::State(s.scaled(&if divide {
+            divisor(&b)?
+        } else {
+            b
+        }))),
+        (Value::Number(a), Value::State(s)) if !divide => Ok(Value::State(s.scaled(&a))),
+        (Value::Number(_), Value::State(_)) => {
+            Err(Error::at(ErrorKind::DivisionByState, right_span))
+        }
+        (Value::State(_), Value::State(_)) => {
+            Err(Error::at(ErrorKind::StateTimesState, right_span))
+        }
+    }
+}

@@ -1,0 +1,159 @@
+//! A parsed and resolved input: the orbitals, spaces and generic indices it declares, the
+//! determinants and states it defines, and the requests it makes, in source order.
+
+use crate::error::{Source, Span};
+use crate::exact::Exact;
+use crate::orbital::{Orb, SpaceId, Spin, SpinOrbital};
+use std::sync::Arc;
+
+#[derive(Clone, Debug)]
+pub struct Orbital {
+    pub name: String,
+    pub span: Span,
+}
+
+/// A set of orbitals of unknown size; results sum over its members.
+#[derive(Clone, Debug)]
+pub struct Space {
+    pub name: String,
+    pub indices: Vec<u32>,
+    pub span: Span,
+}
+
+/// A generic index: one unspecified member of its space.
+#[derive(Clone, Debug)]
+pub struct Index {
+    pub name: String,
+    pub space: SpaceId,
+    pub span: Span,
+}
+
+/// One entry of a determinant as written: a doubly occupied space or one electron.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Occupant {
+    Closed(SpaceId),
+    Electron(SpinOrbital),
+}
+
+/// `D[x1 .. xn -> y1 .. yn]` = a+(y1) .. a+(yn) a(xn) .. a(x1) |D>.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Excitation {
+    pub from: Vec<SpinOrbital>,
+    pub to: Vec<SpinOrbital>,
+}
+
+/// A determinant as written, with the excitations applied to it in order.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct DetSpec {
+    pub occupants: Vec<Occupant>,
+    pub excitations: Vec<Excitation>,
+}
+
+/// A linear combination of determinants with exact coefficients.
+#[derive(Clone, Debug, PartialEq)]
+pub struct State {
+    pub terms: Vec<(Exact, DetSpec)>,
+}
+
+impl State {
+    pub fn scaled(mut self, factor: &Exact) -> State {
+        for (c, _) in &mut self.terms {
+            *c = &*c * factor;
+        }
+        self
+    }
+
+    pub fn excited(mut self, excitation: &Excitation) -> State {
+        for (_, det) in &mut self.terms {
+            det.excitations.push(excitation.clone());
+        }
+        self
+    }
+}
+
+#[derive(Clone, Debug)]
+pub struct NamedState {
+    pub name: String,
+    pub state: State,
+    pub is_determinant: bool,
+    pub span: Span,
+}
+
+#[derive(Copy, Clone, Debug, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum RequestKind {
+    Energy,
+    Element,
+    Overlap,
+}
+
+impl RequestKind {
+    pub fn keyword(self) -> &'static str {
+        match self {
+            RequestKind::Energy => "energy",
+            RequestKind::Element => "element",
+            RequestKind::Overlap => "overlap",
+        }
+    }
+}
+
+/// One request: `energy X` (<X|H|X>/<X|X>), `element X Y` (<X|H|Y>) or `overlap X Y`.
+#[derive(Clone, Debug)]
+pub struct Request {
+    pub kind: RequestKind,
+    /// The request as written, without its comment.
+    pub text: String,
+    pub bra: State,
+    pub ket: State,
+    pub bra_text: String,
+    pub ket_text: String,
+    pub span: Span,
+}
+
+#[derive(Clone, Debug)]
+pub struct Program {
+    pub source: Arc<Source>,
+    pub orbitals: Vec<Orbital>,
+    pub spaces: Vec<Space>,
+    pub indices: Vec<Index>,
+    pub states: Vec<NamedState>,
+    pub requests: Vec<Request>,
+}
+
+impl Program {
+    /// The name of a named orbital or generic index; summation indices are named by the
+    /// emitters, which know which letters are free.
+    pub fn orb_name(&self, orb: Orb) -> String {
+        match orb {
+            Orb::Named(k) => self.orbitals[k as usize].name.clone(),
+            Orb::Index(k) => self.indices[k as usize].name.clone(),
+            Orb::Summed(k) => format!("#{k}"),
+        }
+    }
+
+    pub fn spin_orbital_name(&self, so: SpinOrbital) -> String {
+        let name = self.orb_name(so.orb);
+        match so.spin {
+            Spin::Alpha => name,
+            Spin::Beta => format!("{name}'"),
+        }
+    }
+
+    /// The space a generic index belongs to.
+    pub fn space_of(&self, orb: Orb) -> Option<SpaceId> {
+        match orb {
+            Orb::Index(k) => Some(self.indices[k as usize].space),
+            _ => None,
+        }
+    }
+
+    /// Every name the input declares, so that generated summation letters avoid them.
+    pub fn declared_names(&self) -> impl Iterator<Item = &str> {
+        self.orbitals
+            .iter()
+            .map(|o| o.name.as_str())
+            .chain(self.indices.iter().map(|i| i.name.as_str()))
+            .chain(self.spaces.iter().map(|s| s.name.as_str()))
+            .chain(self.states.iter().map(|s| s.name.as_str()))
+    }
+}

@@ -311,12 +311,3 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         free_indices: all_indices.into_iter().collect(),
     })
 }
-
-/// Derives every request of a program in order.
-pub fn derive_all(program: &Program, options: &Options) -> Result<Vec<Derivation>> {
-    program
-        .requests
-        .iter()
-        .map(|r| derive(program, r, options))
-        .collect()
-}

@@ -2,13 +2,11 @@
 //! with the integrals of a real molecule. Exit codes: 0 ok, 1 verification mismatch, 2 bad input.
 
 use clap::{Parser, Subcommand, ValueEnum};
-use spinfold::bind::Bindings;
-use spinfold::derive::Options;
-use spinfold::error::{Error, ErrorKind, Result};
-use spinfold::fcidump::read_dump;
-use spinfold::output::write_output;
-use spinfold::parser::parse;
-use spinfold::pipeline::{self, DEFAULT_SEED, Format};
+use spinfold::{
+    Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Options, Program, Result,
+    derive_checked, evaluate_all, parse, read_dump, render, results_json, results_text,
+    write_output,
+};
 use std::io::Read;
 
 #[derive(Parser)]
@@ -107,14 +105,14 @@ fn read_input(file: &str) -> Result<(String, String)> {
     ))
 }
 
-fn derived(common: &Derivation) -> Result<(spinfold::program::Program, Vec<pipeline::Checked>)> {
+fn derived(common: &Derivation) -> Result<(Program, Vec<Checked>)> {
     let (name, text) = read_input(&common.file)?;
     let program = parse(&name, &text)?;
     let options = Options {
         distinct: common.distinct,
         max_determinants: common.max_determinants,
     };
-    let checked = pipeline::derive_checked(
+    let checked = derive_checked(
         &program,
         &options,
         (!common.no_verify).then_some(common.seed),
@@ -137,10 +135,7 @@ fn run(cli: Cli) -> Result<()> {
                 To::Latex => Format::Latex { standalone },
                 To::Json => Format::Json,
             };
-            write_output(
-                output.as_deref(),
-                &pipeline::render(&program, &checked, format),
-            )
+            write_output(output.as_deref(), &render(&program, &checked, format))
         }
         Command::Eval {
             common,
@@ -152,11 +147,11 @@ fn run(cli: Cli) -> Result<()> {
             let dump = read_dump(&integrals)?;
             let (program, checked) = derived(&common)?;
             let bindings = Bindings::parse(&program, &bind, dump.header.norb)?;
-            let results = pipeline::evaluate_all(&program, &checked, &bindings, &dump.integrals)?;
+            let results = evaluate_all(&program, &checked, &bindings, &dump.integrals)?;
             let text = if json {
-                pipeline::results_json(&results)
+                results_json(&results)
             } else {
-                pipeline::results_text(&results)
+                results_text(&results)
             };
             write_output(output.as_deref(), &text)
         }

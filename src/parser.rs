@@ -270,7 +270,7 @@ impl Resolver {
                 let mut states = vec![];
                 for operand in &operands {
                     let operand_span = self.span(operand);
-                    let text = operand.as_str().trim().to_string();
+                    let text = without_comment(operand.as_str());
                     match self.value(
                         operand
                             .clone()
@@ -288,7 +288,7 @@ impl Resolver {
                 let (ket, ket_text) = states.last().cloned().expect("one or two operands");
                 self.program.requests.push(Request {
                     kind,
-                    text: span.text().trim().to_string(),
+                    text: without_comment(span.text()),
                     bra,
                     ket,
                     bra_text,
@@ -525,6 +525,11 @@ impl Resolver {
             )],
         })
     }
+}
+
+/// Source text as a label: a trailing comment cut off, blanks trimmed.
+fn without_comment(text: &str) -> String {
+    text.split('#').next().unwrap_or("").trim().to_string()
 }
 
 fn decimal(text: &str) -> Exact {

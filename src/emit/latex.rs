@@ -1,7 +1,7 @@
 //! The LaTeX form of derivations (amsmath): one `align*` per request, sums labelled with their
 //! spaces, exact fractions and radicals, and names escaped so input text cannot inject TeX.
 
-use super::{Group, Namer, groups, verification_line};
+use super::{Group, Namer, groups, join_signed, verification_line};
 use crate::derive::Derivation;
 use crate::exact::Exact;
 use crate::expression::{Expr, Factor, IntegralKind, Term};
@@ -134,30 +134,17 @@ fn group(g: &Group, namer: &Namer) -> (bool, String) {
         };
         return (t.coeff.is_negative(), text);
     }
-    let inner = signed(
-        g.terms
-            .iter()
-            .map(|t| (t.coeff.is_negative(), times(&t.coeff, &body(t)))),
-    );
+    let items = g
+        .terms
+        .iter()
+        .map(|t| (t.coeff.is_negative(), times(&t.coeff, &body(t))));
+    let (negative, inner) = join_signed(items, "-");
     if prefix.is_empty() {
-        (false, inner)
+        (negative, inner)
     } else {
+        let inner = if negative { format!("-{inner}") } else { inner };
         (false, format!(r"{prefix} \left( {inner} \right)"))
     }
-}
-
-fn signed(items: impl Iterator<Item = (bool, String)>) -> String {
-    let mut out = String::new();
-    for (k, (negative, text)) in items.enumerate() {
-        out.push_str(match (k, negative) {
-            (0, false) => "",
-            (0, true) => "-",
-            (_, false) => " + ",
-            (_, true) => " - ",
-        });
-        out.push_str(&text);
-    }
-    out
 }
 
 /// Text from the input (state labels) shown verbatim and safely.

@@ -94,6 +94,24 @@ impl<'a> Namer<'a> {
     }
 }
 
+/// Joins (negative, magnitude text) items with their signs; the first item's sign is
+/// returned rather than written, so the caller places it (a leading minus, or ` − ` between groups).
+pub fn join_signed(items: impl IntoIterator<Item = (bool, String)>, minus: &str) -> (bool, String) {
+    let mut out = String::new();
+    let mut first_negative = false;
+    for (k, (negative, text)) in items.into_iter().enumerate() {
+        if k == 0 {
+            first_negative = negative;
+        } else if negative {
+            out.push_str(&format!(" {minus} "));
+        } else {
+            out.push_str(" + ");
+        }
+        out.push_str(&text);
+    }
+    (first_negative, out)
+}
+
 /// The one-line summary of what a derivation was checked against.
 pub fn verification_line(report: Option<&crate::verify::Report>) -> String {
     match report {

@@ -1,7 +1,7 @@
 //! The readable text form of derivations: Σ, δ, h_pq, J_pq, K_pq and (pq|rs), one group of
 //! terms per line, in Unicode or plain ASCII.
 
-use super::{Group, Namer, groups, verification_line};
+use super::{Group, Namer, groups, join_signed, verification_line};
 use crate::derive::Derivation;
 use crate::exact::{Exact, ExactDisplay};
 use crate::expression::{Expr, Factor, IntegralKind};
@@ -133,34 +133,23 @@ fn group_text(group: &Group, namer: &Namer, style: &Style) -> (bool, String) {
         };
         return (t.coeff.is_negative(), text);
     }
-    let inner = signed_list(
-        group.terms.iter().map(|t| {
-            (
-                t.coeff.is_negative(),
-                magnitude_times(&t.coeff, &body(t), style),
-            )
-        }),
-        style,
-    );
+    let items = group.terms.iter().map(|t| {
+        (
+            t.coeff.is_negative(),
+            magnitude_times(&t.coeff, &body(t), style),
+        )
+    });
+    let (negative, inner) = join_signed(items, style.minus());
     if prefix.is_empty() {
-        (false, inner)
+        (negative, inner)
     } else {
+        let inner = if negative {
+            format!("{}{inner}", style.minus())
+        } else {
+            inner
+        };
         (false, format!("{prefix}({inner})"))
     }
-}
-
-fn signed_list(items: impl Iterator<Item = (bool, String)>, style: &Style) -> String {
-    let mut out = String::new();
-    for (k, (negative, text)) in items.enumerate() {
-        match (k, negative) {
-            (0, false) => {}
-            (0, true) => out.push_str(style.minus()),
-            (_, false) => out.push_str(" + "),
-            (_, true) => out.push_str(&format!(" {} ", style.minus())),
-        }
-        out.push_str(&text);
-    }
-    out
 }
 
 /// The expression as lines: the first starts with `= `, each further group starts with its sign.
@@ -191,13 +180,28 @@ fn expression_lines(expr: &Expr, namer: &Namer, style: &Style) -> Vec<String> {
     lines
 }
 
-/// What a request computes, in words and brackets.
+/// What a request computes, in brackets; a determinant written inline is named D (bra) and
+/// D' (ket) so the brackets stay readable.
 pub fn request_meaning(d: &Derivation) -> String {
-    match d.kind {
-        RequestKind::Energy => format!("<{0}|H|{0}> / <{0}|{0}>", d.bra),
-        RequestKind::Element => format!("<{}|H|{}>", d.bra, d.ket),
-        RequestKind::Overlap => format!("<{}|{}>", d.bra, d.ket),
+    let inline = |label: &str| label.contains('|');
+    let bra = if inline(&d.bra) { "D" } else { d.bra.as_str() };
+    let ket = if inline(&d.ket) {
+        if d.ket == d.bra { "D" } else { "D'" }
+    } else {
+        d.ket.as_str()
+    };
+    let mut out = match d.kind {
+        RequestKind::Energy => format!("<{bra}|H|{bra}> / <{bra}|{bra}>"),
+        RequestKind::Element => format!("<{bra}|H|{ket}>"),
+        RequestKind::Overlap => format!("<{bra}|{ket}>"),
+    };
+    if inline(&d.bra) {
+        out.push_str(&format!(", {bra} = {}", d.bra));
     }
+    if inline(&d.ket) && d.ket != d.bra {
+        out.push_str(&format!(", {ket} = {}", d.ket));
+    }
+    out
 }
 
 /// The text report of every derivation, in request order.

@@ -16,23 +16,15 @@ fn parse_set(name: &str, spec: &str) -> Result<Vec<usize>> {
     let mut out = vec![];
     for piece in spec.split(',') {
         let number = |t: &str| {
-            t.trim()
-                .parse::<usize>()
-                .ok()
-                .filter(|&n| n > 0)
-                .ok_or_else(|| {
-                    fail(format!(
-                        "in --bind {name}={spec}: `{t}` is not an orbital number (1-based)"
-                    ))
-                })
+            t.trim().parse::<usize>().ok().filter(|&n| n > 0).ok_or_else(|| {
+                fail(format!("in --bind {name}={spec}: `{t}` is not an orbital number (1-based)"))
+            })
         };
         match piece.split_once('-') {
             Some((a, b)) => {
                 let (a, b) = (number(a)?, number(b)?);
                 if a > b {
-                    return Err(fail(format!(
-                        "in --bind {name}={spec}: the range {a}-{b} runs backwards"
-                    )));
+                    return Err(fail(format!("in --bind {name}={spec}: the range {a}-{b} runs backwards")));
                 }
                 out.extend(a..=b);
             }
@@ -43,12 +35,8 @@ fn parse_set(name: &str, spec: &str) -> Result<Vec<usize>> {
 }
 
 /// The orbitals, spaces and generic indices that a request's states mention.
-pub fn symbols_of(
-    program: &Program,
-    request: &Request,
-) -> (BTreeSet<u32>, BTreeSet<u32>, BTreeSet<u32>) {
-    let (mut orbitals, mut spaces, mut indices) =
-        (BTreeSet::new(), BTreeSet::new(), BTreeSet::new());
+pub fn symbols_of(program: &Program, request: &Request) -> (BTreeSet<u32>, BTreeSet<u32>, BTreeSet<u32>) {
+    let (mut orbitals, mut spaces, mut indices) = (BTreeSet::new(), BTreeSet::new(), BTreeSet::new());
     let mut note = |orb: Orb| match orb {
         Orb::Named(k) => {
             orbitals.insert(k);
@@ -86,11 +74,9 @@ impl Bindings {
     pub fn parse(program: &Program, options: &[String], norb: usize) -> Result<Bindings> {
         let mut specs = BTreeMap::new();
         for option in options {
-            let (name, spec) = option.split_once('=').ok_or_else(|| {
-                fail(format!(
-                    "--bind {option}: write NAME=SPEC, e.g. a=6 or core=1-5"
-                ))
-            })?;
+            let (name, spec) = option
+                .split_once('=')
+                .ok_or_else(|| fail(format!("--bind {option}: write NAME=SPEC, e.g. a=6 or core=1-5")))?;
             let (name, spec) = (name.trim(), spec.trim());
             let known = program.orbitals.iter().any(|o| o.name == name)
                 || program.spaces.iter().any(|s| s.name == name)
@@ -124,7 +110,10 @@ impl Bindings {
         let (orbitals, spaces, indices) = symbols_of(program, request);
         let get = |name: &str| {
             self.specs.get(name).cloned().ok_or_else(|| {
-                fail(format!("`{}` needs `{name}` bound to orbitals of the integral file: add --bind {name}=...", request.text))
+                fail(format!(
+                    "`{}` needs `{name}` bound to orbitals of the integral file: add --bind {name}=...",
+                    request.text
+                ))
             })
         };
         let mut binding = Binding {

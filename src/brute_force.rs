@@ -29,11 +29,7 @@ fn bit(instance: &Instance, so: SpinOrbital) -> u32 {
 }
 
 fn parity_below(det: u128, b: u32) -> f64 {
-    if (det & ((1u128 << b) - 1)).count_ones() % 2 == 0 {
-        1.0
-    } else {
-        -1.0
-    }
+    if (det & ((1u128 << b) - 1)).count_ones() % 2 == 0 { 1.0 } else { -1.0 }
 }
 
 /// a+(b) on a basis string.
@@ -51,11 +47,7 @@ fn apply(det: u128, operators: &[(bool, u32)]) -> Option<(f64, u128)> {
     let mut sign = 1.0;
     let mut d = det;
     for &(is_creation, b) in operators.iter().rev() {
-        let (s, next) = if is_creation {
-            create(d, b)?
-        } else {
-            annihilate(d, b)?
-        };
+        let (s, next) = if is_creation { create(d, b)? } else { annihilate(d, b)? };
         sign *= s;
         d = next;
     }
@@ -92,9 +84,7 @@ pub fn state_vector(state: &State, instance: &Instance) -> Vector {
 }
 
 pub fn dot(a: &Vector, b: &Vector) -> f64 {
-    a.iter()
-        .map(|(d, x)| x * b.get(d).copied().unwrap_or(0.0))
-        .sum()
+    a.iter().map(|(d, x)| x * b.get(d).copied().unwrap_or(0.0)).sum()
 }
 
 fn bits(det: u128) -> Vec<u32> {
@@ -123,9 +113,7 @@ pub fn apply_hamiltonian(v: &Vector, ints: &dyn Integrals) -> Vector {
                 for p in (r % 2..2 * n).step_by(2) {
                     for q in (s % 2..2 * n).step_by(2) {
                         // <pq|rs> = (pr|qs) for spatial orbitals, spins matched by the loops
-                        if let Some((sign, d)) =
-                            apply(det, &[(true, p), (true, q), (false, s), (false, r)])
-                        {
+                        if let Some((sign, d)) = apply(det, &[(true, p), (true, q), (false, s), (false, r)]) {
                             let g = ints.eri(
                                 (p / 2) as usize,
                                 (r / 2) as usize,
@@ -156,17 +144,10 @@ mod tests {
         let state = State {
             terms: vec![(
                 Exact::one(),
-                DetSpec {
-                    occupants: vec![Occupant::Closed(0)],
-                    excitations: vec![],
-                },
+                DetSpec { occupants: vec![Occupant::Closed(0)], excitations: vec![] },
             )],
         };
-        let instance = Instance {
-            orbitals: vec![],
-            spaces: vec![vec![0]],
-            indices: vec![],
-        };
+        let instance = Instance { orbitals: vec![], spaces: vec![vec![0]], indices: vec![] };
         let v = state_vector(&state, &instance);
         let e = dot(&v, &apply_hamiltonian(&v, &ints));
         assert!((e - (2.0 * ints.h(0, 0) + ints.eri(0, 0, 0, 0))).abs() < 1e-12);

@@ -80,18 +80,13 @@ fn partitions(items: &[u32]) -> Vec<Vec<(u32, u32)>> {
 pub fn cases(used: &BTreeMap<SpaceId, Vec<u32>>, closed: &[SpaceId], distinct: bool) -> Vec<Case> {
     let per_space: Vec<Vec<Vec<(u32, u32)>>> = used
         .values()
-        .map(|indices| {
-            if distinct {
-                vec![indices.iter().map(|&k| (k, k)).collect()]
-            } else {
-                partitions(indices)
-            }
-        })
+        .map(
+            |indices| {
+                if distinct { vec![indices.iter().map(|&k| (k, k)).collect()] } else { partitions(indices) }
+            },
+        )
         .collect();
-    let mut out: Vec<Case> = vec![Case {
-        representative: BTreeMap::new(),
-        extracted: BTreeMap::new(),
-    }];
+    let mut out: Vec<Case> = vec![Case { representative: BTreeMap::new(), extracted: BTreeMap::new() }];
     for (space_choices, (&space, _)) in per_space.iter().zip(used) {
         let mut next = vec![];
         for case in &out {

@@ -22,10 +22,7 @@ pub struct Options {
 
 impl Default for Options {
     fn default() -> Options {
-        Options {
-            distinct: false,
-            max_determinants: 200_000,
-        }
+        Options { distinct: false, max_determinants: 200_000 }
     }
 }
 
@@ -80,20 +77,12 @@ fn used_indices(
             }
         }
     }
-    (
-        used.into_iter()
-            .map(|(s, v)| (s, v.into_iter().collect()))
-            .collect(),
-        closed.into_iter().collect(),
-        all,
-    )
+    (used.into_iter().map(|(s, v)| (s, v.into_iter().collect())).collect(), closed.into_iter().collect(), all)
 }
 
 fn vanishing_error(program: &Program, request: &Request, why: Vanishing, label: &str) -> Error {
     let kind = match why {
-        Vanishing::Pauli(so) => ErrorKind::Pauli {
-            spin_orbital: program.spin_orbital_name(so),
-        },
+        Vanishing::Pauli(so) => ErrorKind::Pauli { spin_orbital: program.spin_orbital_name(so) },
         Vanishing::Empty(so) => ErrorKind::NotExciting {
             spin_orbital: format!("{} is not occupied", program.spin_orbital_name(so)),
             det: label.into(),
@@ -119,20 +108,11 @@ fn case_state(state: &State, case: &Case) -> std::result::Result<CaseState, Vani
 }
 
 fn names(program: &Program, spaces: &[SpaceId]) -> String {
-    spaces
-        .iter()
-        .map(|&s| program.spaces[s as usize].name.clone())
-        .collect::<Vec<_>>()
-        .join(", ")
+    spaces.iter().map(|&s| program.spaces[s as usize].name.clone()).collect::<Vec<_>>().join(", ")
 }
 
 /// Checks, in the case where all indices differ, that bra and ket can be compared.
-fn check_comparable(
-    program: &Program,
-    request: &Request,
-    bra: &CaseState,
-    ket: &CaseState,
-) -> Result<()> {
+fn check_comparable(program: &Program, request: &Request, bra: &CaseState, ket: &CaseState) -> Result<()> {
     let mut dets = bra.keys().chain(ket.keys());
     let Some(first) = dets.next() else {
         return Ok(());
@@ -149,10 +129,7 @@ fn check_comparable(
         }
         if d.electrons.len() != first.electrons.len() {
             return Err(Error::at(
-                ErrorKind::ElectronCount {
-                    bra: first.electrons.len(),
-                    ket: d.electrons.len(),
-                },
+                ErrorKind::ElectronCount { bra: first.electrons.len(), ket: d.electrons.len() },
                 &request.span,
             ));
         }
@@ -194,10 +171,7 @@ fn case_text(program: &Program, case: &Case) -> String {
 
 /// Derives one request.
 pub fn derive(program: &Program, request: &Request, options: &Options) -> Result<Derivation> {
-    for (state, label) in [
-        (&request.bra, &request.bra_text),
-        (&request.ket, &request.ket_text),
-    ] {
+    for (state, label) in [(&request.bra, &request.bra_text), (&request.ket, &request.ket_text)] {
         if state.terms.len() > options.max_determinants {
             return Err(Error::at(
                 ErrorKind::TooLarge {
@@ -217,24 +191,17 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         let build = |state: &State, label: &str| {
             case_state(state, case).map_err(|why| vanishing_error(program, request, why, label))
         };
-        let (bra, ket) = match (
-            build(&request.bra, &request.bra_text),
-            build(&request.ket, &request.ket_text),
-        ) {
-            (Ok(b), Ok(k)) => (b, k),
-            (Err(e), _) | (_, Err(e)) if finest => return Err(e),
-            _ => (CaseState::new(), CaseState::new()),
-        };
+        let (bra, ket) =
+            match (build(&request.bra, &request.bra_text), build(&request.ket, &request.ket_text)) {
+                (Ok(b), Ok(k)) => (b, k),
+                (Err(e), _) | (_, Err(e)) if finest => return Err(e),
+                _ => (CaseState::new(), CaseState::new()),
+            };
         if finest {
             check_comparable(program, request, &bra, &ket)?;
             for (s, label) in [(&bra, &request.bra_text), (&ket, &request.ket_text)] {
                 if s.is_empty() {
-                    return Err(Error::at(
-                        ErrorKind::EmptyState {
-                            name: label.clone(),
-                        },
-                        &request.span,
-                    ));
+                    return Err(Error::at(ErrorKind::EmptyState { name: label.clone() }, &request.span));
                 }
             }
         }
@@ -245,10 +212,7 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
             .map(|d| {
                 d.closed
                     .iter()
-                    .map(|&s| RestrictedSum {
-                        space: s,
-                        excluded: case.extracted(s).to_vec(),
-                    })
+                    .map(|&s| RestrictedSum { space: s, excluded: case.extracted(s).to_vec() })
                     .collect()
             })
             .unwrap_or_default();
@@ -262,9 +226,7 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
                     Some(inverse) => Some(hamiltonian(&bra, &bra, &closed).scaled(&inverse)),
                     None if finest => {
                         return Err(Error::at(
-                            ErrorKind::ZeroNorm {
-                                state: request.bra_text.clone(),
-                            },
+                            ErrorKind::ZeroNorm { state: request.bra_text.clone() },
                             &request.span,
                         ));
                     }

@@ -24,10 +24,7 @@ pub enum Vanishing {
 
 /// Applies a(x) to an ordered list of creators: the sign is (−1)^(position of x).
 fn annihilate(list: &mut Vec<SpinOrbital>, x: SpinOrbital) -> Result<i32, Vanishing> {
-    let position = list
-        .iter()
-        .position(|&y| y == x)
-        .ok_or(Vanishing::Empty(x))?;
+    let position = list.iter().position(|&y| y == x).ok_or(Vanishing::Empty(x))?;
     list.remove(position);
     Ok(if position % 2 == 0 { 1 } else { -1 })
 }
@@ -91,12 +88,6 @@ impl CaseDet {
         }
         sign *= sort_with_sign(&mut list);
         closed.sort();
-        Ok((
-            sign,
-            CaseDet {
-                closed,
-                electrons: list,
-            },
-        ))
+        Ok((sign, CaseDet { closed, electrons: list }))
     }
 }

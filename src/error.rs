@@ -17,10 +17,7 @@ pub struct Source {
 
 impl Source {
     pub fn new(name: impl Into<String>, text: impl Into<String>) -> Arc<Source> {
-        Arc::new(Source {
-            name: name.into(),
-            text: text.into(),
-        })
+        Arc::new(Source { name: name.into(), text: text.into() })
     }
 
     /// 1-based line and column of a byte offset.
@@ -54,90 +51,32 @@ impl PartialEq for Span {
 /// What went wrong. Each kind carries the names it is about; `Error` adds the place.
 #[derive(Clone, Debug, PartialEq)]
 pub enum ErrorKind {
-    Syntax {
-        expected: String,
-    },
-    Undefined {
-        name: String,
-    },
-    WrongKind {
-        name: String,
-        is: String,
-        wanted: String,
-    },
-    Redefined {
-        name: String,
-        first: Option<Span>,
-    },
-    Pauli {
-        spin_orbital: String,
-    },
-    SpaceNotDoubled {
-        space: String,
-    },
-    SpaceInExcitation {
-        space: String,
-    },
-    ExcitationLengths {
-        from: usize,
-        to: usize,
-    },
-    NotExciting {
-        spin_orbital: String,
-        det: String,
-    },
-    NotADeterminant {
-        name: String,
-    },
-    BadCoefficient {
-        why: String,
-    },
+    Syntax { expected: String },
+    Undefined { name: String },
+    WrongKind { name: String, is: String, wanted: String },
+    Redefined { name: String, first: Option<Span> },
+    Pauli { spin_orbital: String },
+    SpaceNotDoubled { space: String },
+    SpaceInExcitation { space: String },
+    ExcitationLengths { from: usize, to: usize },
+    NotExciting { spin_orbital: String, det: String },
+    NotADeterminant { name: String },
+    BadCoefficient { why: String },
     NumberAlone,
     StateTimesState,
     DivisionByState,
     DivisionByZero,
-    EmptyState {
-        name: String,
-    },
-    ZeroNorm {
-        state: String,
-    },
-    ElectronCount {
-        bra: usize,
-        ket: usize,
-    },
-    ClosedSpaces {
-        bra: String,
-        ket: String,
-    },
-    RequestArity {
-        kind: String,
-        wanted: usize,
-        got: usize,
-    },
-    TooLarge {
-        what: String,
-        limit: usize,
-    },
-    Io {
-        path: String,
-        why: String,
-    },
-    IntegralFile {
-        path: String,
-        line: usize,
-        why: String,
-    },
-    Binding {
-        why: String,
-    },
-    Usage {
-        why: String,
-    },
-    VerificationFailed {
-        request: String,
-        report: String,
-    },
+    EmptyState { name: String },
+    ZeroNorm { state: String },
+    ElectronCount { bra: usize, ket: usize },
+    ClosedSpaces { bra: String, ket: String },
+    RequestArity { kind: String, wanted: usize, got: usize },
+    TooLarge { what: String, limit: usize },
+    Io { path: String, why: String },
+    IntegralFile { path: String, line: usize, why: String },
+    Binding { why: String },
+    Usage { why: String },
+    VerificationFailed { request: String, report: String },
 }
 
 /// An error with its place in the input, when it has one.
@@ -151,10 +90,7 @@ pub type Result<T> = std::result::Result<T, Error>;
 
 impl Error {
     pub fn at(kind: ErrorKind, span: &Span) -> Error {
-        Error {
-            kind,
-            span: Some(span.clone()),
-        }
+        Error { kind, span: Some(span.clone()) }
     }
 
     pub fn new(kind: ErrorKind) -> Error {
@@ -198,9 +134,7 @@ impl Error {
             }
             NotADeterminant { name } => format!("`{name}` is not a single determinant"),
             BadCoefficient { why } => format!("this coefficient is not exact: {why}"),
-            NumberAlone => {
-                "a number stands alone in a state; it must multiply a determinant or state".into()
-            }
+            NumberAlone => "a number stands alone in a state; it must multiply a determinant or state".into(),
             StateTimesState => "two states are multiplied together".into(),
             DivisionByState => "a state stands in a denominator".into(),
             DivisionByZero => "a coefficient divides by zero".into(),
@@ -268,34 +202,18 @@ impl Error {
         let file = SimpleFile::new(span.source.name.as_str(), span.source.text.as_str());
         let (line, column) = span.source.line_column(span.range.start);
         let mut labels = vec![Label::primary((), span.range.clone()).with_message(self.label())];
-        if let ErrorKind::Redefined {
-            first: Some(first), ..
-        } = &self.kind
-        {
-            labels
-                .push(Label::secondary((), first.range.clone()).with_message("first defined here"));
+        if let ErrorKind::Redefined { first: Some(first), .. } = &self.kind {
+            labels.push(Label::secondary((), first.range.clone()).with_message("first defined here"));
         }
         let mut diagnostic = Diagnostic::error()
-            .with_message(format!(
-                "{}:{}:{}: {}",
-                span.source.name,
-                line,
-                column,
-                self.message()
-            ))
+            .with_message(format!("{}:{}:{}: {}", span.source.name, line, column, self.message()))
             .with_labels(labels);
         if let Some(help) = self.help() {
             diagnostic = diagnostic.with_notes(vec![format!("help: {help}")]);
         }
         match term::emit_into_string(&Config::default(), &file, &diagnostic) {
             Ok(text) => text,
-            Err(_) => format!(
-                "error: {}:{}:{}: {}\n",
-                span.source.name,
-                line,
-                column,
-                self.message()
-            ),
+            Err(_) => format!("error: {}:{}:{}: {}\n", span.source.name, line, column, self.message()),
         }
     }
 

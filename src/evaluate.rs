@@ -20,8 +20,9 @@ impl Binding {
     fn orbital(&self, orb: Orb, summed: &[usize]) -> usize {
         match orb {
             Orb::Named(k) => self.orbitals[k as usize],
-            Orb::Index(k) => self.indices[k as usize]
-                .expect("every index in an expression is bound before evaluation"),
+            Orb::Index(k) => {
+                self.indices[k as usize].expect("every index in an expression is bound before evaluation")
+            }
             Orb::Summed(d) => summed[d as usize],
         }
     }
@@ -38,21 +39,13 @@ fn factor_value(factor: &Factor, binding: &Binding, summed: &[usize], ints: &dyn
 
 fn term_value(term: &Term, binding: &Binding, ints: &dyn Integrals) -> f64 {
     let none: [usize; 0] = [];
-    if term
-        .deltas
-        .iter()
-        .any(|&(a, b)| binding.orbital(a, &none) != binding.orbital(b, &none))
-    {
+    if term.deltas.iter().any(|&(a, b)| binding.orbital(a, &none) != binding.orbital(b, &none)) {
         return 0.0;
     }
     let mut summed = vec![0usize; term.sums.len()];
     let mut total = 0.0;
     // an odometer over the members of every summed space
-    let spaces: Vec<&[usize]> = term
-        .sums
-        .iter()
-        .map(|&s| binding.spaces[s as usize].as_slice())
-        .collect();
+    let spaces: Vec<&[usize]> = term.sums.iter().map(|&s| binding.spaces[s as usize].as_slice()).collect();
     if spaces.iter().any(|s| s.is_empty()) {
         return 0.0;
     }
@@ -79,8 +72,5 @@ fn term_value(term: &Term, binding: &Binding, ints: &dyn Integrals) -> f64 {
 
 /// The value of an expression.
 pub fn evaluate(expr: &Expr, binding: &Binding, ints: &dyn Integrals) -> f64 {
-    expr.terms
-        .iter()
-        .map(|t| term_value(t, binding, ints))
-        .sum()
+    expr.terms.iter().map(|t| term_value(t, binding, ints)).sum()
 }

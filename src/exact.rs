@@ -113,10 +113,7 @@ impl Exact {
     }
 
     pub fn to_f64(&self) -> f64 {
-        self.parts
-            .iter()
-            .map(|(n, q)| q.to_f64().unwrap_or(f64::NAN) * (*n as f64).sqrt())
-            .sum()
+        self.parts.iter().map(|(n, q)| q.to_f64().unwrap_or(f64::NAN) * (*n as f64).sqrt()).sum()
     }
 
     /// True when the leading (smallest-radicand) part is negative: used to print a
@@ -126,11 +123,7 @@ impl Exact {
     }
 
     pub fn abs(&self) -> Exact {
-        if self.is_negative() {
-            -self.clone()
-        } else {
-            self.clone()
-        }
+        if self.is_negative() { -self.clone() } else { self.clone() }
     }
 
     fn add_part(&mut self, radicand: u64, q: BigRational) {
@@ -239,11 +232,7 @@ fn write_rational_times_root(
     ascii: bool,
 ) -> fmt::Result {
     let root = |f: &mut fmt::Formatter<'_>| {
-        if ascii {
-            write!(f, "sqrt({n})")
-        } else {
-            write!(f, "√{n}")
-        }
+        if ascii { write!(f, "sqrt({n})") } else { write!(f, "√{n}") }
     };
     let (num, den) = (q.numer(), q.denom());
     if n == 1 {
@@ -293,11 +282,7 @@ impl fmt::Display for ExactDisplay<'_> {
 
 impl fmt::Display for Exact {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        ExactDisplay {
-            value: self,
-            ascii: true,
-        }
-        .fmt(f)
+        ExactDisplay { value: self, ascii: true }.fmt(f)
     }
 }
 

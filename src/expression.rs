@@ -87,12 +87,7 @@ type Shape = (Vec<(Orb, Orb)>, Vec<SpaceId>, Factor);
 
 impl Term {
     pub fn new(coeff: Exact, factor: Factor) -> Term {
-        Term {
-            coeff,
-            deltas: vec![],
-            sums: vec![],
-            factor,
-        }
+        Term { coeff, deltas: vec![], sums: vec![], factor }
     }
 
     /// Rewrites every free orbital; summed ones are left alone.
@@ -145,19 +140,8 @@ impl Term {
     /// grouped by the spaces summed over; within a group h, J, K, then general integrals.
     fn order_key(
         &self,
-    ) -> (
-        Reverse<usize>,
-        Vec<(Orb, Orb)>,
-        usize,
-        Vec<SpaceId>,
-        bool,
-        IntegralKind,
-        Factor,
-    ) {
-        let two_electron = !matches!(
-            self.kind(),
-            IntegralKind::Number | IntegralKind::OneElectron
-        );
+    ) -> (Reverse<usize>, Vec<(Orb, Orb)>, usize, Vec<SpaceId>, bool, IntegralKind, Factor) {
+        let two_electron = !matches!(self.kind(), IntegralKind::Number | IntegralKind::OneElectron);
         (
             Reverse(self.deltas.len()),
             self.deltas.clone(),
@@ -192,12 +176,7 @@ impl Expr {
         let mut terms: Vec<Term> = collected
             .into_iter()
             .filter(|(_, c)| !c.is_zero())
-            .map(|((deltas, sums, factor), coeff)| Term {
-                coeff,
-                deltas,
-                sums,
-                factor,
-            })
+            .map(|((deltas, sums, factor), coeff)| Term { coeff, deltas, sums, factor })
             .collect();
         terms.sort_by_key(|t| t.order_key());
         Expr { terms }
@@ -220,10 +199,7 @@ impl Expr {
     }
 
     pub fn scaled(&self, factor: &Exact) -> Expr {
-        Expr::from_terms(self.terms.iter().map(|t| Term {
-            coeff: &t.coeff * factor,
-            ..t.clone()
-        }))
+        Expr::from_terms(self.terms.iter().map(|t| Term { coeff: &t.coeff * factor, ..t.clone() }))
     }
 
     pub fn substitute(&self, f: &impl Fn(Orb) -> Orb) -> Expr {
@@ -243,12 +219,7 @@ impl Expr {
         let mut out: Vec<Orb> = self
             .terms
             .iter()
-            .flat_map(|t| {
-                t.factor
-                    .orbs()
-                    .into_iter()
-                    .chain(t.deltas.iter().flat_map(|&(a, b)| [a, b]))
-            })
+            .flat_map(|t| t.factor.orbs().into_iter().chain(t.deltas.iter().flat_map(|&(a, b)| [a, b])))
             .filter(|o| !matches!(o, Orb::Summed(_)))
             .collect();
         out.sort();
@@ -275,11 +246,10 @@ pub struct RawTerm {
 impl RawTerm {
     /// Σ_{k ∉ X} f(k) = Σ_k f(k) − Σ_{x ∈ X} f(x), for every restricted sum at once.
     pub fn expand(&self) -> Vec<Term> {
-        let choices = self.sums.iter().map(|s| {
-            std::iter::once(None)
-                .chain(s.excluded.iter().copied().map(Some))
-                .collect::<Vec<_>>()
-        });
+        let choices = self
+            .sums
+            .iter()
+            .map(|s| std::iter::once(None).chain(s.excluded.iter().copied().map(Some)).collect::<Vec<_>>());
         choices
             .multi_cartesian_product()
             .map(|choice| {
@@ -302,12 +272,7 @@ impl RawTerm {
                     Orb::Summed(d) => target[d as usize],
                     other => other,
                 });
-                Term {
-                    coeff: &self.coeff * &Exact::integer(sign),
-                    deltas: vec![],
-                    sums,
-                    factor,
-                }
+                Term { coeff: &self.coeff * &Exact::integer(sign), deltas: vec![], sums, factor }
             })
             .collect()
     }
@@ -320,36 +285,19 @@ mod tests {
     #[test]
     fn coulomb_and_exchange_are_recognized_in_any_index_order() {
         let (a, b) = (Orb::Named(0), Orb::Named(1));
-        assert_eq!(
-            Factor::Eri(b, b, a, a).canonical().kind(),
-            IntegralKind::Coulomb
-        );
-        assert_eq!(
-            Factor::Eri(b, a, a, b).canonical().kind(),
-            IntegralKind::Exchange
-        );
+        assert_eq!(Factor::Eri(b, b, a, a).canonical().kind(), IntegralKind::Coulomb);
+        assert_eq!(Factor::Eri(b, a, a, b).canonical().kind(), IntegralKind::Exchange);
         assert_eq!(Factor::Eri(a, b, b, a).canonical(), Factor::Eri(a, b, a, b));
-        assert_eq!(
-            Factor::Eri(a, a, a, b).canonical().kind(),
-            IntegralKind::General
-        );
+        assert_eq!(Factor::Eri(a, a, a, b).canonical().kind(), IntegralKind::General);
     }
 
     #[test]
     fn dummy_names_do_not_matter() {
         let (k, l) = (Orb::Summed(0), Orb::Summed(1));
-        let t1 = Term {
-            coeff: Exact::one(),
-            deltas: vec![],
-            sums: vec![0, 0],
-            factor: Factor::Eri(k, k, l, l),
-        };
-        let t2 = Term {
-            coeff: Exact::one(),
-            deltas: vec![],
-            sums: vec![0, 0],
-            factor: Factor::Eri(l, l, k, k),
-        };
+        let t1 =
+            Term { coeff: Exact::one(), deltas: vec![], sums: vec![0, 0], factor: Factor::Eri(k, k, l, l) };
+        let t2 =
+            Term { coeff: Exact::one(), deltas: vec![], sums: vec![0, 0], factor: Factor::Eri(l, l, k, k) };
         let e = Expr::from_terms([t1, t2]);
         assert_eq!(e.terms.len(), 1);
         assert_eq!(e.terms[0].coeff, Exact::integer(2));
@@ -360,10 +308,7 @@ mod tests {
         let (i, k) = (Orb::Index(0), Orb::Summed(0));
         let raw = RawTerm {
             coeff: Exact::one(),
-            sums: vec![RestrictedSum {
-                space: 0,
-                excluded: vec![i],
-            }],
+            sums: vec![RestrictedSum { space: 0, excluded: vec![i] }],
             factor: Factor::H(k, k),
         };
         let e = Expr::from_terms(raw.expand());

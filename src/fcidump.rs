@@ -41,13 +41,8 @@ fn namelist_value<'a>(header: &'a str, key: &str) -> Option<&'a str> {
 
 /// Parses the text of an integral file; `path` names it in errors.
 pub fn parse_dump(path: &str, text: &str) -> Result<IntegralDump> {
-    let fail = |line: usize, why: String| {
-        Error::new(ErrorKind::IntegralFile {
-            path: path.into(),
-            line,
-            why,
-        })
-    };
+    let fail =
+        |line: usize, why: String| Error::new(ErrorKind::IntegralFile { path: path.into(), line, why });
     let lines: Vec<&str> = text.lines().collect();
     let end = lines
         .iter()
@@ -55,25 +50,18 @@ pub fn parse_dump(path: &str, text: &str) -> Result<IntegralDump> {
             let t = l.trim().to_ascii_uppercase();
             t.starts_with("&END") || t == "/" || t.ends_with("&END") || t.ends_with('/')
         })
-        .ok_or_else(|| {
-            fail(
-                1,
-                "the namelist header never ends: expected a line `&END` or `/`".into(),
-            )
-        })?;
+        .ok_or_else(|| fail(1, "the namelist header never ends: expected a line `&END` or `/`".into()))?;
     let header_text = lines[..=end].join("\n");
     if !header_text.to_ascii_uppercase().contains("&FCI") {
         return Err(fail(
             1,
-            "the file does not start with the namelist header `&FCI NORB=..., NELEC=..., MS2=...`"
-                .into(),
+            "the file does not start with the namelist header `&FCI NORB=..., NELEC=..., MS2=...`".into(),
         ));
     }
-    let norb_text = namelist_value(&header_text, "NORB")
-        .ok_or_else(|| fail(1, "the header has no NORB".into()))?;
-    let norb: usize = norb_text
-        .parse()
-        .map_err(|_| fail(1, format!("NORB={norb_text} is not a whole number")))?;
+    let norb_text =
+        namelist_value(&header_text, "NORB").ok_or_else(|| fail(1, "the header has no NORB".into()))?;
+    let norb: usize =
+        norb_text.parse().map_err(|_| fail(1, format!("NORB={norb_text} is not a whole number")))?;
     if norb == 0 || norb > 2000 {
         return Err(fail(1, format!("NORB={norb} is out of range (1 to 2000)")));
     }
@@ -92,10 +80,7 @@ pub fn parse_dump(path: &str, text: &str) -> Result<IntegralDump> {
         if fields.len() != 5 {
             return Err(fail(
                 number,
-                format!(
-                    "expected `value i j k l` (5 fields), found {} field(s)",
-                    fields.len()
-                ),
+                format!("expected `value i j k l` (5 fields), found {} field(s)", fields.len()),
             ));
         }
         let value: f64 = fields[0]
@@ -104,14 +89,9 @@ pub fn parse_dump(path: &str, text: &str) -> Result<IntegralDump> {
             .map_err(|_| fail(number, format!("`{}` is not a number", fields[0])))?;
         let mut idx = [0usize; 4];
         for (slot, field) in idx.iter_mut().zip(&fields[1..]) {
-            *slot = field
-                .parse()
-                .map_err(|_| fail(number, format!("`{field}` is not an orbital number")))?;
+            *slot = field.parse().map_err(|_| fail(number, format!("`{field}` is not an orbital number")))?;
             if *slot > norb {
-                return Err(fail(
-                    number,
-                    format!("orbital {slot} is beyond NORB={norb}"),
-                ));
+                return Err(fail(number, format!("orbital {slot} is beyond NORB={norb}")));
             }
         }
         match idx {
@@ -137,12 +117,8 @@ pub fn parse_dump(path: &str, text: &str) -> Result<IntegralDump> {
 
 /// Reads an integral file from disk.
 pub fn read_dump(path: &str) -> Result<IntegralDump> {
-    let text = std::fs::read_to_string(path).map_err(|e| {
-        Error::new(ErrorKind::Io {
-            path: path.into(),
-            why: e.to_string(),
-        })
-    })?;
+    let text = std::fs::read_to_string(path)
+        .map_err(|e| Error::new(ErrorKind::Io { path: path.into(), why: e.to_string() }))?;
     parse_dump(path, &text)
 }
 
@@ -155,14 +131,7 @@ mod tests {
     fn reads_header_and_symmetric_entries() {
         let text = " &FCI NORB=   2,NELEC=2,MS2=0,\n  ORBSYM=1,1\n  ISYM=1,\n &END\n 0.5 1 2 1 2\n -1.25 1 1 0 0\n 0.7 0 0 0 0\n";
         let dump = parse_dump("t", text).unwrap();
-        assert_eq!(
-            dump.header,
-            DumpHeader {
-                norb: 2,
-                nelec: Some(2),
-                ms2: Some(0)
-            }
-        );
+        assert_eq!(dump.header, DumpHeader { norb: 2, nelec: Some(2), ms2: Some(0) });
         assert_eq!(dump.integrals.eri(1, 0, 0, 1), 0.5);
         assert_eq!(dump.integrals.h(0, 0), -1.25);
         assert_eq!(dump.integrals.constant(), 0.7);

@@ -25,12 +25,7 @@ pub struct DenseIntegrals {
 
 impl DenseIntegrals {
     pub fn zeros(n: usize) -> DenseIntegrals {
-        DenseIntegrals {
-            n,
-            h: vec![0.0; n * n],
-            eri: vec![0.0; n * n * n * n],
-            constant: 0.0,
-        }
+        DenseIntegrals { n, h: vec![0.0; n * n], eri: vec![0.0; n * n * n * n], constant: 0.0 }
     }
 
     pub fn set_h(&mut self, p: usize, q: usize, value: f64) {

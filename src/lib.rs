@@ -60,8 +60,8 @@ pub use orbital::{Orb, SpaceId, Spin, SpinOrbital};
 pub use output::write_output;
 pub use parser::parse;
 pub use pipeline::{
-    Checked, DEFAULT_SEED, Entry, Evaluated, Format, derive_checked, evaluate_all, render,
-    results_json, results_text,
+    Checked, DEFAULT_SEED, Entry, Evaluated, Format, derive_checked, evaluate_all, render, results_json,
+    results_text,
 };
 pub use program::{Program, Request, RequestKind, State};
 pub use verify::{Report, TOLERANCE, verify};

@@ -3,9 +3,8 @@
 
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
-    Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Options, Program, Result,
-    derive_checked, evaluate_all, parse, read_dump, render, results_json, results_text,
-    write_output,
+    Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Options, Program, Result, derive_checked,
+    evaluate_all, parse, read_dump, render, results_json, results_text, write_output,
 };
 use std::io::Read;
 
@@ -86,49 +85,26 @@ enum Command {
 }
 
 fn read_input(file: &str) -> Result<(String, String)> {
-    let io = |why: String| {
-        Error::new(ErrorKind::Io {
-            path: file.into(),
-            why,
-        })
-    };
+    let io = |why: String| Error::new(ErrorKind::Io { path: file.into(), why });
     if file == "-" {
         let mut text = String::new();
-        std::io::stdin()
-            .read_to_string(&mut text)
-            .map_err(|e| io(e.to_string()))?;
+        std::io::stdin().read_to_string(&mut text).map_err(|e| io(e.to_string()))?;
         return Ok(("<stdin>".into(), text));
     }
-    Ok((
-        file.into(),
-        std::fs::read_to_string(file).map_err(|e| io(e.to_string()))?,
-    ))
+    Ok((file.into(), std::fs::read_to_string(file).map_err(|e| io(e.to_string()))?))
 }
 
 fn derived(common: &Derivation) -> Result<(Program, Vec<Checked>)> {
     let (name, text) = read_input(&common.file)?;
     let program = parse(&name, &text)?;
-    let options = Options {
-        distinct: common.distinct,
-        max_determinants: common.max_determinants,
-    };
-    let checked = derive_checked(
-        &program,
-        &options,
-        (!common.no_verify).then_some(common.seed),
-    )?;
+    let options = Options { distinct: common.distinct, max_determinants: common.max_determinants };
+    let checked = derive_checked(&program, &options, (!common.no_verify).then_some(common.seed))?;
     Ok((program, checked))
 }
 
 fn run(cli: Cli) -> Result<()> {
     match cli.command {
-        Command::Derive {
-            common,
-            to,
-            ascii,
-            standalone,
-            output,
-        } => {
+        Command::Derive { common, to, ascii, standalone, output } => {
             let (program, checked) = derived(&common)?;
             let format = match to {
                 To::Text => Format::Text { ascii },
@@ -137,22 +113,12 @@ fn run(cli: Cli) -> Result<()> {
             };
             write_output(output.as_deref(), &render(&program, &checked, format))
         }
-        Command::Eval {
-            common,
-            integrals,
-            bind,
-            json,
-            output,
-        } => {
+        Command::Eval { common, integrals, bind, json, output } => {
             let dump = read_dump(&integrals)?;
             let (program, checked) = derived(&common)?;
             let bindings = Bindings::parse(&program, &bind, dump.header.norb)?;
             let results = evaluate_all(&program, &checked, &bindings, &dump.integrals)?;
-            let text = if json {
-                results_json(&results)
-            } else {
-                results_text(&results)
-            };
+            let text = if json { results_json(&results) } else { results_text(&results) };
             write_output(output.as_deref(), &text)
         }
     }

@@ -5,8 +5,7 @@ use crate::error::{Error, ErrorKind, Result, Source, Span};
 use crate::exact::Exact;
 use crate::orbital::{Orb, Spin, SpinOrbital};
 use crate::program::{
-    DetSpec, Excitation, Index, NamedState, Occupant, Orbital, Program, Request, RequestKind,
-    Space, State,
+    DetSpec, Excitation, Index, NamedState, Occupant, Orbital, Program, Request, RequestKind, Space, State,
 };
 use num_bigint::BigInt;
 use num_rational::BigRational;
@@ -86,31 +85,14 @@ fn syntax_error(source: &Arc<Source>, error: pest::error::Error<Rule>) -> Error 
             let mut words: Vec<&str> = positives.iter().map(describe).collect();
             words.sort();
             words.dedup();
-            if words.is_empty() {
-                "a statement".to_string()
-            } else {
-                words.join(" or ")
-            }
+            if words.is_empty() { "a statement".to_string() } else { words.join(" or ") }
         }
         pest::error::ErrorVariant::CustomError { message } => message.clone(),
     };
     let text = &source.text;
-    let end = text[start..]
-        .char_indices()
-        .nth(1)
-        .map_or(text.len(), |(k, _)| start + k);
-    let end = if text[start..end].contains('\n') || start >= text.len() {
-        start
-    } else {
-        end
-    };
-    Error::at(
-        ErrorKind::Syntax { expected },
-        &Span {
-            source: source.clone(),
-            range: start..end.max(start),
-        },
-    )
+    let end = text[start..].char_indices().nth(1).map_or(text.len(), |(k, _)| start + k);
+    let end = if text[start..end].contains('\n') || start >= text.len() { start } else { end };
+    Error::at(ErrorKind::Syntax { expected }, &Span { source: source.clone(), range: start..end.max(start) })
 }
 
 struct Resolver {
@@ -121,23 +103,14 @@ struct Resolver {
 impl Resolver {
     fn span(&self, pair: &Pair<Rule>) -> Span {
         let s = pair.as_span();
-        Span {
-            source: self.program.source.clone(),
-            range: s.start()..s.end(),
-        }
+        Span { source: self.program.source.clone(), range: s.start()..s.end() }
     }
 
     fn declare(&mut self, pair: &Pair<Rule>, symbol: Symbol) -> Result<()> {
         let name = pair.as_str().to_string();
         let span = self.span(pair);
         if let Some((_, first)) = self.symbols.get(&name) {
-            return Err(Error::at(
-                ErrorKind::Redefined {
-                    name,
-                    first: Some(first.clone()),
-                },
-                &span,
-            ));
+            return Err(Error::at(ErrorKind::Redefined { name, first: Some(first.clone()) }, &span));
         }
         self.symbols.insert(name, (symbol, span));
         Ok(())
@@ -147,14 +120,7 @@ impl Resolver {
         self.symbols
             .get(pair.as_str())
             .map(|(s, _)| *s)
-            .ok_or_else(|| {
-                Error::at(
-                    ErrorKind::Undefined {
-                        name: pair.as_str().into(),
-                    },
-                    &self.span(pair),
-                )
-            })
+            .ok_or_else(|| Error::at(ErrorKind::Undefined { name: pair.as_str().into() }, &self.span(pair)))
     }
 
     fn wrong_kind(&self, pair: &Pair<Rule>, symbol: Symbol, wanted: &str) -> Error {
@@ -166,11 +132,7 @@ impl Resolver {
             Symbol::State(_) => "a state",
         };
         Error::at(
-            ErrorKind::WrongKind {
-                name: pair.as_str().into(),
-                is: is.into(),
-                wanted: wanted.into(),
-            },
+            ErrorKind::WrongKind { name: pair.as_str().into(), is: is.into(), wanted: wanted.into() },
             &self.span(pair),
         )
     }
@@ -185,10 +147,9 @@ impl Resolver {
                 for name in inner {
                     let id = self.program.orbitals.len() as u32;
                     self.declare(&name, Symbol::Orbital(id))?;
-                    self.program.orbitals.push(Orbital {
-                        name: name.as_str().into(),
-                        span: self.span(&name),
-                    });
+                    self.program
+                        .orbitals
+                        .push(Orbital { name: name.as_str().into(), span: self.span(&name) });
                 }
             }
             Rule::space_stmt => {
@@ -225,19 +186,12 @@ impl Resolver {
                 };
                 if is_determinant && state.terms.len() != 1 {
                     return Err(Error::at(
-                        ErrorKind::NotADeterminant {
-                            name: value_span.text().into(),
-                        },
+                        ErrorKind::NotADeterminant { name: value_span.text().into() },
                         &value_span,
                     ));
                 }
                 if state.terms.iter().all(|(c, _)| c.is_zero()) || state.terms.is_empty() {
-                    return Err(Error::at(
-                        ErrorKind::EmptyState {
-                            name: name.as_str().into(),
-                        },
-                        &value_span,
-                    ));
+                    return Err(Error::at(ErrorKind::EmptyState { name: name.as_str().into() }, &value_span));
                 }
                 let id = self.program.states.len() as u32;
                 self.declare(&name, Symbol::State(id))?;
@@ -259,11 +213,7 @@ impl Resolver {
                 let operands: Vec<Pair<Rule>> = inner.collect();
                 if operands.len() != wanted {
                     return Err(Error::at(
-                        ErrorKind::RequestArity {
-                            kind: kind.keyword().into(),
-                            wanted,
-                            got: operands.len(),
-                        },
+                        ErrorKind::RequestArity { kind: kind.keyword().into(), wanted, got: operands.len() },
                         &span,
                     ));
                 }
@@ -271,13 +221,7 @@ impl Resolver {
                 for operand in &operands {
                     let operand_span = self.span(operand);
                     let text = without_comment(operand.as_str());
-                    match self.value(
-                        operand
-                            .clone()
-                            .into_inner()
-                            .next()
-                            .expect("grammar: operand"),
-                    )? {
+                    match self.value(operand.clone().into_inner().next().expect("grammar: operand"))? {
                         Value::State(s) => states.push((s, text)),
                         Value::Number(_) => {
                             return Err(Error::at(ErrorKind::NumberAlone, &operand_span));
@@ -307,9 +251,7 @@ impl Resolver {
         match pair.as_rule() {
             Rule::sum => {
                 let mut inner = pair.into_inner().peekable();
-                let negate = inner
-                    .peek()
-                    .is_some_and(|p| p.as_rule() == Rule::sign && p.as_str() == "-");
+                let negate = inner.peek().is_some_and(|p| p.as_rule() == Rule::sign && p.as_str() == "-");
                 if inner.peek().is_some_and(|p| p.as_rule() == Rule::sign) {
                     inner.next();
                 }
@@ -345,29 +287,20 @@ impl Resolver {
                 }
                 Ok(total)
             }
-            Rule::unit | Rule::operand => {
-                self.value(pair.into_inner().next().expect("grammar: unit"))
-            }
+            Rule::unit | Rule::operand => self.value(pair.into_inner().next().expect("grammar: unit")),
             Rule::number => Ok(Value::Number(decimal(pair.as_str()))),
             Rule::sqrt_call => {
                 let argument = pair.into_inner().nth(1).expect("grammar: sqrt argument");
                 let argument_span = self.span(&argument);
-                let bad = |why: &str| {
-                    Error::at(
-                        ErrorKind::BadCoefficient { why: why.into() },
-                        &argument_span,
-                    )
-                };
+                let bad =
+                    |why: &str| Error::at(ErrorKind::BadCoefficient { why: why.into() }, &argument_span);
                 match self.value(argument)? {
                     Value::Number(x) => {
-                        let q = x
-                            .as_rational()
-                            .ok_or_else(|| bad("the square root of an irrational number"))?;
+                        let q =
+                            x.as_rational().ok_or_else(|| bad("the square root of an irrational number"))?;
                         Exact::sqrt_of_rational(&q)
                             .map(Value::Number)
-                            .ok_or_else(|| {
-                                bad("the square root of a negative or very large number")
-                            })
+                            .ok_or_else(|| bad("the square root of a negative or very large number"))
                     }
                     Value::State(_) => Err(bad("the square root of a state")),
                 }
@@ -418,29 +351,17 @@ impl Resolver {
         let arrow = text.find("->").expect("grammar: excitation arrow") + pair.as_span().start();
         let (mut from, mut to) = (vec![], vec![]);
         for so in pair.into_inner() {
-            let target = if so.as_span().start() < arrow {
-                &mut from
-            } else {
-                &mut to
-            };
+            let target = if so.as_span().start() < arrow { &mut from } else { &mut to };
             target.push(self.spin_orbital(so)?);
         }
         if from.len() != to.len() {
-            return Err(Error::at(
-                ErrorKind::ExcitationLengths {
-                    from: from.len(),
-                    to: to.len(),
-                },
-                &span,
-            ));
+            return Err(Error::at(ErrorKind::ExcitationLengths { from: from.len(), to: to.len() }, &span));
         }
         for list in [&from, &to] {
             for (k, a) in list.iter().enumerate() {
                 if list[..k].contains(a) {
                     return Err(Error::at(
-                        ErrorKind::Pauli {
-                            spin_orbital: self.program.spin_orbital_name(*a),
-                        },
+                        ErrorKind::Pauli { spin_orbital: self.program.spin_orbital_name(*a) },
                         &span,
                     ));
                 }
@@ -462,17 +383,11 @@ impl Resolver {
         let span = self.span(&pair);
         let mut inner = pair.into_inner();
         let name = inner.next().expect("grammar: spin orbital name");
-        let spin = if inner.next().is_some() {
-            Spin::Beta
-        } else {
-            Spin::Alpha
-        };
+        let spin = if inner.next().is_some() { Spin::Beta } else { Spin::Alpha };
         match self.orbital(&name)? {
             Ok(orb) => Ok(SpinOrbital::new(orb, spin)),
             Err(space) => Err(Error::at(
-                ErrorKind::SpaceInExcitation {
-                    space: self.program.spaces[space as usize].name.clone(),
-                },
+                ErrorKind::SpaceInExcitation { space: self.program.spaces[space as usize].name.clone() },
                 &span,
             )),
         }
@@ -515,15 +430,7 @@ impl Resolver {
                 occupants.push(occupant);
             }
         }
-        Ok(State {
-            terms: vec![(
-                Exact::one(),
-                DetSpec {
-                    occupants,
-                    excitations: vec![],
-                },
-            )],
-        })
+        Ok(State { terms: vec![(Exact::one(), DetSpec { occupants, excitations: vec![] })] })
     }
 }
 
@@ -534,9 +441,7 @@ fn without_comment(text: &str) -> String {
 
 fn decimal(text: &str) -> Exact {
     let (whole, fraction) = text.split_once('.').unwrap_or((text, ""));
-    let digits: BigInt = format!("{whole}{fraction}")
-        .parse()
-        .expect("grammar: digits");
+    let digits: BigInt = format!("{whole}{fraction}").parse().expect("grammar: digits");
     let scale = BigInt::from(10).pow(fraction.len() as u32);
     Exact::rational(BigRational::new(digits, scale))
 }
@@ -558,9 +463,7 @@ fn added(left: Value, right: Value, span: &Span, right_span: &Span) -> Result<Va
             let total = &a + &b;
             if total.as_monomial().is_none() {
                 return Err(Error::at(
-                    ErrorKind::BadCoefficient {
-                        why: format!("{total} is a sum of different square roots"),
-                    },
+                    ErrorKind::BadCoefficient { why: format!("{total} is a sum of different square roots") },
                     span,
                 ));
             }
@@ -578,22 +481,14 @@ fn multiplied(left: Value, right: Value, divide: bool, right_span: &Span) -> Res
         Ok(x.inverse().expect("non-zero numbers have inverses"))
     };
     match (left, right) {
-        (Value::Number(a), Value::Number(b)) => Ok(Value::Number(if divide {
-            &a * &divisor(&b)?
-        } else {
-            &a * &b
-        })),
-        (Value::State(s), Value::Number(b)) => Ok(Value::State(s.scaled(&if divide {
-            divisor(&b)?
-        } else {
-            b
-        }))),
+        (Value::Number(a), Value::Number(b)) => {
+            Ok(Value::Number(if divide { &a * &divisor(&b)? } else { &a * &b }))
+        }
+        (Value::State(s), Value::Number(b)) => {
+            Ok(Value::State(s.scaled(&if divide { divisor(&b)? } else { b })))
+        }
         (Value::Number(a), Value::State(s)) if !divide => Ok(Value::State(s.scaled(&a))),
-        (Value::Number(_), Value::State(_)) => {
-            Err(Error::at(ErrorKind::DivisionByState, right_span))
-        }
-        (Value::State(_), Value::State(_)) => {
-            Err(Error::at(ErrorKind::StateTimesState, right_span))
-        }
+        (Value::Number(_), Value::State(_)) => Err(Error::at(ErrorKind::DivisionByState, right_span)),
+        (Value::State(_), Value::State(_)) => Err(Error::at(ErrorKind::StateTimesState, right_span)),
     }
 }

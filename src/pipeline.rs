@@ -19,11 +19,7 @@ pub const DEFAULT_SEED: u64 = 20261201;
 pub type Checked = (Derivation, Option<Report>);
 
 /// Derives every request of a program and, with `seed`, verifies each against brute force.
-pub fn derive_checked(
-    program: &Program,
-    options: &Options,
-    seed: Option<u64>,
-) -> Result<Vec<Checked>> {
+pub fn derive_checked(program: &Program, options: &Options, seed: Option<u64>) -> Result<Vec<Checked>> {
     program
         .requests
         .iter()
@@ -102,8 +98,8 @@ pub fn evaluate_all(
                     for &(k, m) in &assignment {
                         b.indices[k as usize] = Some(m);
                     }
-                    let value = evaluate(&d.value, &b, ints)
-                        + ints.constant() * evaluate(&d.overlap, &b, ints);
+                    let value =
+                        evaluate(&d.value, &b, ints) + ints.constant() * evaluate(&d.overlap, &b, ints);
                     let indices = assignment
                         .iter()
                         .map(|&(k, m)| (program.indices[k as usize].name.clone(), m + 1))
@@ -111,11 +107,7 @@ pub fn evaluate_all(
                     Entry { indices, value }
                 })
                 .collect();
-            Ok(Evaluated {
-                request: d.text.clone(),
-                entries,
-                tabulated: !unbound.is_empty(),
-            })
+            Ok(Evaluated { request: d.text.clone(), entries, tabulated: !unbound.is_empty() })
         })
         .collect()
 }
@@ -125,23 +117,12 @@ pub fn results_text(results: &[Evaluated]) -> String {
     let mut out = String::new();
     for r in results {
         if !r.tabulated {
-            out.push_str(&format!(
-                "{:<32} {:>22.12}\n",
-                r.request, r.entries[0].value
-            ));
+            out.push_str(&format!("{:<32} {:>22.12}\n", r.request, r.entries[0].value));
             continue;
         }
         out.push_str(&format!("{}\n", r.request));
-        let names: Vec<&str> = r.entries[0]
-            .indices
-            .iter()
-            .map(|(n, _)| n.as_str())
-            .collect();
-        out.push_str(&format!(
-            "  {}  {:>22}\n",
-            names.iter().map(|n| format!("{n:>4}")).join(" "),
-            "value"
-        ));
+        let names: Vec<&str> = r.entries[0].indices.iter().map(|(n, _)| n.as_str()).collect();
+        out.push_str(&format!("  {}  {:>22}\n", names.iter().map(|n| format!("{n:>4}")).join(" "), "value"));
         for e in &r.entries {
             out.push_str(&format!(
                 "  {}  {:>22.12}\n",
@@ -164,11 +145,8 @@ pub fn results_json(results: &[Evaluated]) -> String {
                     .entries
                     .iter()
                     .map(|e| {
-                        let indices: serde_json::Map<String, serde_json::Value> = e
-                            .indices
-                            .iter()
-                            .map(|(n, m)| (n.clone(), serde_json::json!(m)))
-                            .collect();
+                        let indices: serde_json::Map<String, serde_json::Value> =
+                            e.indices.iter().map(|(n, m)| (n.clone(), serde_json::json!(m))).collect();
                         serde_json::json!({"indices": indices, "value": e.value})
                     })
                     .collect();
@@ -178,7 +156,6 @@ pub fn results_json(results: &[Evaluated]) -> String {
             }
         })
         .collect();
-    serde_json::to_string_pretty(&serde_json::json!({ "results": list }))
-        .expect("plain data serializes")
+    serde_json::to_string_pretty(&serde_json::json!({ "results": list })).expect("plain data serializes")
         + "\n"
 }

@@ -9,10 +9,7 @@ use crate::spin_integrate::{antisymmetrized, one_electron};
 
 /// The two spin orbitals every member k of a closed space brings.
 fn closed_pair(k: Orb) -> [SpinOrbital; 2] {
-    [
-        SpinOrbital::new(k, Spin::Alpha),
-        SpinOrbital::new(k, Spin::Beta),
-    ]
+    [SpinOrbital::new(k, Spin::Alpha), SpinOrbital::new(k, Spin::Beta)]
 }
 
 /// The bra and ket in maximum coincidence: the phase of the permutation that lines the ket
@@ -26,11 +23,7 @@ pub struct Coincidence {
 
 pub fn coincidence(bra: &[SpinOrbital], ket: &[SpinOrbital]) -> Coincidence {
     // ket entries in the bra's positions where shared, unshared ones filling the gaps in order
-    let mut unshared = ket
-        .iter()
-        .enumerate()
-        .filter(|(_, k)| !bra.contains(k))
-        .map(|(i, _)| i);
+    let mut unshared = ket.iter().enumerate().filter(|(_, k)| !bra.contains(k)).map(|(i, _)| i);
     let order: Vec<usize> = bra
         .iter()
         .map(|b| match ket.iter().position(|k| k == b) {
@@ -72,11 +65,7 @@ struct Collector {
 impl Collector {
     fn push(&mut self, coeff: Exact, factor: Option<Factor>, sums: &[RestrictedSum]) {
         if let Some(factor) = factor {
-            self.terms.push(RawTerm {
-                coeff: &coeff * &self.scale,
-                sums: sums.to_vec(),
-                factor,
-            });
+            self.terms.push(RawTerm { coeff: &coeff * &self.scale, sums: sums.to_vec(), factor });
         }
     }
 
@@ -97,10 +86,7 @@ impl Collector {
 /// as an explicit electron, summed over the space.
 pub fn hamiltonian(bra: &CaseDet, ket: &CaseDet, closed: &[RestrictedSum]) -> Vec<RawTerm> {
     let c = coincidence(&bra.electrons, &ket.electrons);
-    let mut out = Collector {
-        terms: vec![],
-        scale: Exact::integer(c.phase as i64),
-    };
+    let mut out = Collector { terms: vec![], scale: Exact::integer(c.phase as i64) };
     let one = Exact::one();
     let half = Exact::fraction(1, 2);
     let (k, l) = (Orb::Summed(0), Orb::Summed(1));

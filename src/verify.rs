@@ -27,7 +27,10 @@ pub struct Report {
     /// The space sizes of each configuration, e.g. "core=2, act=3".
     pub configurations: Vec<String>,
     pub seed: u64,
+    /// The largest relative deviation seen, rounded up to a power of ten (0 when exact).
     pub max_deviation: f64,
+    /// True when the request has generic indices, checked at every assignment or a sample.
+    pub indices: bool,
     /// True when index assignments were sampled rather than all checked.
     pub sampled: bool,
 }
@@ -37,25 +40,23 @@ impl Report {
         let sizes = if self.configurations.iter().all(|c| c.is_empty()) {
             String::new()
         } else {
-            format!(
-                " with spaces sized {}",
-                self.configurations
-                    .iter()
-                    .map(|c| format!("({c})"))
-                    .join(", ")
-            )
+            format!(" with spaces sized {}", self.configurations.iter().map(|c| format!("({c})")).join(", "))
         };
         format!(
-            "verified against brute-force determinant algebra: {} check(s) on random integrals (seed {}){}{}, largest deviation {:.1e}",
+            "verified against brute-force determinant algebra: {} check(s) on random integrals (seed {}){}{}, largest relative deviation {}",
             self.checks,
             self.seed,
             sizes,
-            if self.sampled {
-                ", index assignments sampled"
-            } else {
-                ", every index assignment"
+            match (self.indices, self.sampled) {
+                (false, _) => "",
+                (true, false) => ", every assignment of the generic indices",
+                (true, true) => ", a seeded sample of generic-index assignments",
             },
-            self.max_deviation
+            if self.max_deviation == 0.0 {
+                "0".to_string()
+            } else {
+                format!("<= {:.0e}", self.max_deviation)
+            }
         )
     }
 }
@@ -65,11 +66,7 @@ impl Report {
 fn size_configurations(program: &Program, derivation: &Derivation) -> Vec<Vec<usize>> {
     let needed: Vec<usize> = (0..program.spaces.len())
         .map(|s| {
-            derivation
-                .free_indices
-                .iter()
-                .filter(|&&k| program.indices[k as usize].space == s as u32)
-                .count()
+            derivation.free_indices.iter().filter(|&&k| program.indices[k as usize].space == s as u32).count()
         })
         .collect();
     (0..3)
@@ -77,36 +74,23 @@ fn size_configurations(program: &Program, derivation: &Derivation) -> Vec<Vec<us
             needed
                 .iter()
                 .enumerate()
-                .map(|(s, &n)| {
-                    if n == 0 {
-                        1 + (c + s) % 3
-                    } else {
-                        n.max(3) + (c + s) % 2
-                    }
-                })
+                .map(|(s, &n)| if n == 0 { 1 + (c + s) % 3 } else { n.max(3) + (c + s) % 2 })
                 .collect()
         })
         .collect()
 }
 
 /// Checks one derivation of `request`; returns the report or a verification failure.
-pub fn verify(
-    program: &Program,
-    request: &Request,
-    derivation: &Derivation,
-    seed: u64,
-) -> Result<Report> {
+pub fn verify(program: &Program, request: &Request, derivation: &Derivation, seed: u64) -> Result<Report> {
     let mut report = Report {
         checks: 0,
         configurations: vec![],
         seed,
         max_deviation: 0.0,
+        indices: !derivation.free_indices.is_empty(),
         sampled: false,
     };
-    for (c, sizes) in size_configurations(program, derivation)
-        .into_iter()
-        .enumerate()
-    {
+    for (c, sizes) in size_configurations(program, derivation).into_iter().enumerate() {
         let mut next = program.orbitals.len();
         let spaces: Vec<Vec<usize>> = sizes
             .iter()
@@ -115,27 +99,16 @@ pub fn verify(
                 (next - n..next).collect()
             })
             .collect();
-        report.configurations.push(
-            program
-                .spaces
-                .iter()
-                .zip(&sizes)
-                .map(|(s, n)| format!("{}={n}", s.name))
-                .join(", "),
-        );
+        report
+            .configurations
+            .push(program.spaces.iter().zip(&sizes).map(|(s, n)| format!("{}={n}", s.name)).join(", "));
         let ints = DenseIntegrals::random(next, seed.wrapping_add(c as u64));
         let choices: Vec<Vec<(u32, usize)>> = derivation
             .free_indices
             .iter()
-            .map(|&k| {
-                spaces[program.indices[k as usize].space as usize]
-                    .iter()
-                    .map(|&m| (k, m))
-                    .collect()
-            })
+            .map(|&k| spaces[program.indices[k as usize].space as usize].iter().map(|&m| (k, m)).collect())
             .collect();
-        let mut assignments: Vec<Vec<(u32, usize)>> =
-            choices.into_iter().multi_cartesian_product().collect();
+        let mut assignments: Vec<Vec<(u32, usize)>> = choices.into_iter().multi_cartesian_product().collect();
         if assignments.is_empty() {
             assignments.push(vec![]);
         }
@@ -164,9 +137,7 @@ pub fn verify(
             let expected_overlap = brute_force::dot(&bra, &ket);
             let expected = match request.kind {
                 RequestKind::Overlap => expected_overlap,
-                RequestKind::Element => {
-                    brute_force::dot(&bra, &brute_force::apply_hamiltonian(&ket, &ints))
-                }
+                RequestKind::Element => brute_force::dot(&bra, &brute_force::apply_hamiltonian(&ket, &ints)),
                 RequestKind::Energy => {
                     let norm = brute_force::dot(&bra, &bra);
                     if norm.abs() < 1e-12 {
@@ -175,17 +146,9 @@ pub fn verify(
                     brute_force::dot(&bra, &brute_force::apply_hamiltonian(&bra, &ints)) / norm
                 }
             };
-            let mut pairs = vec![(
-                expected,
-                evaluate(&derivation.value, &binding, &ints),
-                "value",
-            )];
+            let mut pairs = vec![(expected, evaluate(&derivation.value, &binding, &ints), "value")];
             if request.kind == RequestKind::Element {
-                pairs.push((
-                    expected_overlap,
-                    evaluate(&derivation.overlap, &binding, &ints),
-                    "overlap",
-                ));
+                pairs.push((expected_overlap, evaluate(&derivation.overlap, &binding, &ints), "overlap"));
             }
             for (expected, derived, what) in pairs {
                 let deviation = (derived - expected).abs() / expected.abs().max(1.0);
@@ -212,6 +175,9 @@ pub fn verify(
                 }
             }
         }
+    }
+    if report.max_deviation > 0.0 {
+        report.max_deviation = 10f64.powi(report.max_deviation.log10().ceil() as i32);
     }
     Ok(report)
 }

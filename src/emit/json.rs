@@ -67,13 +67,7 @@ struct TermOut {
 fn coefficient(c: &Exact) -> CoefficientOut {
     CoefficientOut {
         exact: c.to_string(),
-        parts: c
-            .parts()
-            .map(|(q, n)| Part {
-                rational: q.to_string(),
-                radicand: n,
-            })
-            .collect(),
+        parts: c.parts().map(|(q, n)| Part { rational: q.to_string(), radicand: n }).collect(),
         value: c.to_f64(),
     }
 }
@@ -98,10 +92,7 @@ fn terms(expr: &Expr, namer: &Namer) -> Vec<TermOut> {
                     .sums
                     .iter()
                     .zip(&summed)
-                    .map(|(&s, n)| SumOut {
-                        index: n.clone(),
-                        space: namer.space(s).into(),
-                    })
+                    .map(|(&s, n)| SumOut { index: n.clone(), space: namer.space(s).into() })
                     .collect(),
                 integral: IntegralOut { kind, indices },
             }

@@ -14,20 +14,12 @@ use num_traits::{One, Signed};
 /// grammar already, and `_` is escaped.
 fn name(n: &str) -> String {
     let escaped = n.replace('_', r"\_");
-    if n.chars().count() == 1 {
-        escaped
-    } else {
-        format!(r"\mathrm{{{escaped}}}")
-    }
+    if n.chars().count() == 1 { escaped } else { format!(r"\mathrm{{{escaped}}}") }
 }
 
 fn subscript(names: &[String]) -> String {
     let single = names.iter().all(|n| n.chars().count() == 1);
-    let body = names
-        .iter()
-        .map(|n| name(n))
-        .collect::<Vec<_>>()
-        .join(if single { "" } else { "," });
+    let body = names.iter().map(|n| name(n)).collect::<Vec<_>>().join(if single { "" } else { "," });
     format!("_{{{body}}}")
 }
 
@@ -37,27 +29,15 @@ fn magnitude(c: &Exact) -> String {
         .abs()
         .parts()
         .map(|(q, n)| {
-            let root = if n == 1 {
-                String::new()
-            } else {
-                format!(r"\sqrt{{{n}}}")
-            };
+            let root = if n == 1 { String::new() } else { format!(r"\sqrt{{{n}}}") };
             let num = q.numer().abs();
             let top = match (num.is_one(), root.is_empty()) {
                 (true, false) => root.clone(),
                 (_, true) => num.to_string(),
                 (false, false) => format!("{num}{root}"),
             };
-            let top = if q.is_negative() {
-                format!("-{top}")
-            } else {
-                top
-            };
-            if q.denom().is_one() {
-                top
-            } else {
-                format!(r"\frac{{{top}}}{{{}}}", q.denom())
-            }
+            let top = if q.is_negative() { format!("-{top}") } else { top };
+            if q.denom().is_one() { top } else { format!(r"\frac{{{top}}}{{{}}}", q.denom()) }
         })
         .collect();
     if parts.len() == 1 {
@@ -80,11 +60,7 @@ fn factor(f: &Factor, namer: &Namer, summed: &[String]) -> String {
         }
         (Factor::Eri(p, q, r, s), _) => {
             let n: Vec<String> = [p, q, r, s].iter().map(|&x| name(&o(x))).collect();
-            let sep = if [p, q, r, s].iter().all(|&x| o(x).chars().count() == 1) {
-                ""
-            } else {
-                r"\,"
-            };
+            let sep = if [p, q, r, s].iter().all(|&x| o(x).chars().count() == 1) { "" } else { r"\," };
             format!(r"({}{sep}{}\vert {}{sep}{})", n[0], n[1], n[2], n[3])
         }
     }
@@ -134,10 +110,7 @@ fn group(g: &Group, namer: &Namer) -> (bool, String) {
         };
         return (t.coeff.is_negative(), text);
     }
-    let items = g
-        .terms
-        .iter()
-        .map(|t| (t.coeff.is_negative(), times(&t.coeff, &body(t))));
+    let items = g.terms.iter().map(|t| (t.coeff.is_negative(), times(&t.coeff, &body(t))));
     let (negative, inner) = join_signed(items, "-");
     if prefix.is_empty() {
         (negative, inner)
@@ -208,29 +181,20 @@ fn expression(expr: &Expr, namer: &Namer) -> String {
 }
 
 /// The LaTeX of every derivation; with `standalone`, a complete document.
-pub fn render(
-    program: &Program,
-    derivations: &[(Derivation, Option<Report>)],
-    standalone: bool,
-) -> String {
+pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], standalone: bool) -> String {
     let mut out = String::new();
     if standalone {
-        out.push_str("\\documentclass{article}\n\\usepackage{amsmath}\n\\usepackage[T1]{fontenc}\n\\begin{document}\n");
-        out.push_str(&format!(
-            "\\section*{{\\texttt{{{}}}}}\n",
-            verbatim(&program.source.name)
-        ));
+        out.push_str(
+            "\\documentclass{article}\n\\usepackage{amsmath}\n\\usepackage[T1]{fontenc}\n\\begin{document}\n",
+        );
+        out.push_str(&format!("\\section*{{\\texttt{{{}}}}}\n", verbatim(&program.source.name)));
     }
     for (d, report) in derivations {
         let namer = Namer::new(program, &[&d.value]);
         out.push_str(&format!("% {}\n", d.text.replace('\n', " ")));
         out.push_str(&format!("% {}\n", verification_line(report.as_ref())));
         out.push_str("\\begin{align*}\n");
-        out.push_str(&format!(
-            "  {}\n  {}\n",
-            left_side(d),
-            expression(&d.value, &namer)
-        ));
+        out.push_str(&format!("  {}\n  {}\n", left_side(d), expression(&d.value, &namer)));
         out.push_str("\\end{align*}\n");
         for note in &d.notes {
             out.push_str(&format!("% note: {note}\n"));

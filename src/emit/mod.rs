@@ -30,11 +30,7 @@ pub fn groups(expr: &Expr) -> Vec<Group<'_>> {
             {
                 g.terms.push(term)
             }
-            _ => out.push(Group {
-                deltas: &term.deltas,
-                sums: &term.sums,
-                terms: vec![term],
-            }),
+            _ => out.push(Group { deltas: &term.deltas, sums: &term.sums, terms: vec![term] }),
         }
     }
     out
@@ -52,11 +48,7 @@ pub struct Namer<'a> {
 impl<'a> Namer<'a> {
     pub fn new(program: &'a Program, expressions: &[&Expr]) -> Namer<'a> {
         let free = expressions.iter().flat_map(|e| e.free_orbs()).collect();
-        Namer {
-            program,
-            taken: program.declared_names().map(String::from).collect(),
-            free,
-        }
+        Namer { program, taken: program.declared_names().map(String::from).collect(), free }
     }
 
     /// Names for the summation indices of a term with these sums.
@@ -73,10 +65,7 @@ impl<'a> Namer<'a> {
                 .map(String::from)
                 .chain((1..).flat_map(|n| ["k", "l", "m", "n"].map(|s| format!("{s}{n}"))))
                 .filter(|s| !self.taken.contains(s));
-            let name = own
-                .chain(fallback)
-                .find(|n| !used.contains(n))
-                .expect("an endless supply of letters");
+            let name = own.chain(fallback).find(|n| !used.contains(n)).expect("an endless supply of letters");
             used.push(name);
         }
         used

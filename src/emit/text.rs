@@ -64,19 +64,9 @@ fn magnitude_times(coeff: &Exact, body: &str, style: &Style) -> String {
     if magnitude == Exact::one() {
         body.to_string()
     } else if body == "1" {
-        ExactDisplay {
-            value: &magnitude,
-            ascii: style.ascii,
-        }
-        .to_string()
+        ExactDisplay { value: &magnitude, ascii: style.ascii }.to_string()
     } else {
-        format!(
-            "{} {body}",
-            ExactDisplay {
-                value: &magnitude,
-                ascii: style.ascii
-            }
-        )
+        format!("{} {body}", ExactDisplay { value: &magnitude, ascii: style.ascii })
     }
 }
 
@@ -96,12 +86,7 @@ fn group_text(group: &Group, namer: &Namer, style: &Style) -> (bool, String) {
                 k += 1;
                 names.push(summed[k].clone());
             }
-            bounds.push(format!(
-                "{}{}{}",
-                names.join(","),
-                style.member(),
-                namer.space(group.sums[k])
-            ));
+            bounds.push(format!("{}{}{}", names.join(","), style.member(), namer.space(group.sums[k])));
             k += 1;
         }
         prefix.push_str(&format!("{}_{{{}}} ", style.sigma(), bounds.join(",")));
@@ -117,13 +102,7 @@ fn group_text(group: &Group, namer: &Namer, style: &Style) -> (bool, String) {
             let lead = if magnitude == Exact::one() {
                 String::new()
             } else {
-                format!(
-                    "{} ",
-                    ExactDisplay {
-                        value: &magnitude,
-                        ascii: style.ascii
-                    }
-                )
+                format!("{} ", ExactDisplay { value: &magnitude, ascii: style.ascii })
             };
             if inner == "1" {
                 format!("{lead}{}", prefix.trim_end())
@@ -133,21 +112,13 @@ fn group_text(group: &Group, namer: &Namer, style: &Style) -> (bool, String) {
         };
         return (t.coeff.is_negative(), text);
     }
-    let items = group.terms.iter().map(|t| {
-        (
-            t.coeff.is_negative(),
-            magnitude_times(&t.coeff, &body(t), style),
-        )
-    });
+    let items =
+        group.terms.iter().map(|t| (t.coeff.is_negative(), magnitude_times(&t.coeff, &body(t), style)));
     let (negative, inner) = join_signed(items, style.minus());
     if prefix.is_empty() {
         (negative, inner)
     } else {
-        let inner = if negative {
-            format!("{}{inner}", style.minus())
-        } else {
-            inner
-        };
+        let inner = if negative { format!("{}{inner}", style.minus()) } else { inner };
         (false, format!("{prefix}({inner})"))
     }
 }
@@ -164,11 +135,7 @@ fn expression_lines(expr: &Expr, namer: &Namer, style: &Style) -> Vec<String> {
         let plain = group.deltas.is_empty() && group.sums.is_empty();
         let sign = if negative { style.minus() } else { "+" };
         if k == 0 {
-            current = if negative {
-                format!("= {}{text}", style.minus())
-            } else {
-                format!("= {text}")
-            };
+            current = if negative { format!("= {}{text}", style.minus()) } else { format!("= {text}") };
         } else if plain && lines.is_empty() && !current.contains(style.sigma()) {
             current.push_str(&format!(" {sign} {text}"));
         } else {
@@ -185,11 +152,7 @@ fn expression_lines(expr: &Expr, namer: &Namer, style: &Style) -> Vec<String> {
 pub fn request_meaning(d: &Derivation) -> String {
     let inline = |label: &str| label.contains('|');
     let bra = if inline(&d.bra) { "D" } else { d.bra.as_str() };
-    let ket = if inline(&d.ket) {
-        if d.ket == d.bra { "D" } else { "D'" }
-    } else {
-        d.ket.as_str()
-    };
+    let ket = if inline(&d.ket) { if d.ket == d.bra { "D" } else { "D'" } } else { d.ket.as_str() };
     let mut out = match d.kind {
         RequestKind::Energy => format!("<{bra}|H|{bra}> / <{bra}|{bra}>"),
         RequestKind::Element => format!("<{bra}|H|{ket}>"),
@@ -205,11 +168,7 @@ pub fn request_meaning(d: &Derivation) -> String {
 }
 
 /// The text report of every derivation, in request order.
-pub fn render(
-    program: &Program,
-    derivations: &[(Derivation, Option<Report>)],
-    ascii: bool,
-) -> String {
+pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], ascii: bool) -> String {
     let style = Style { ascii };
     let mut out = String::new();
     for (k, (d, report)) in derivations.iter().enumerate() {

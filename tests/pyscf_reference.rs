@@ -22,10 +22,7 @@ use std::process::Command;
 
 /// Two open shells a, b over a closed core, and the closed-shell determinant core^2 a^2.
 const WATER_INPUT: &str = include_str!("inputs/water_two_open_shells.sf");
-const WATER_INPUT_PATH: &str = concat!(
-    env!("CARGO_MANIFEST_DIR"),
-    "/tests/inputs/water_two_open_shells.sf"
-);
+const WATER_INPUT_PATH: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/inputs/water_two_open_shells.sf");
 
 /// Seed of the random integrals of the brute-force check.
 const SEED: u64 = 7;
@@ -38,8 +35,8 @@ fn fixture(name: &str) -> String {
 }
 
 fn reference() -> serde_json::Value {
-    let text = std::fs::read_to_string(fixture("pyscf_reference.json"))
-        .expect("the reference file is committed");
+    let text =
+        std::fs::read_to_string(fixture("pyscf_reference.json")).expect("the reference file is committed");
     serde_json::from_str(&text).expect("the reference file is JSON")
 }
 
@@ -84,9 +81,7 @@ fn run(name: &str, input: &str, dump: &str, bind: &[String]) -> (Vec<Checked>, V
 /// Every derivation was verified: a report exists and counts at least one check.
 fn assert_verified(checked: &[Checked]) {
     for (d, report) in checked {
-        let report = report
-            .as_ref()
-            .unwrap_or_else(|| panic!("{}: verification did not run", d.text));
+        let report = report.as_ref().unwrap_or_else(|| panic!("{}: verification did not run", d.text));
         assert!(report.checks > 0, "{}: no checks", d.text);
         assert_eq!(report.seed, SEED);
         assert!(
@@ -100,10 +95,8 @@ fn assert_verified(checked: &[Checked]) {
 
 /// The single value of the request written `request`.
 fn value_of(results: &[Evaluated], request: &str) -> f64 {
-    let r = results
-        .iter()
-        .find(|r| r.request == request)
-        .unwrap_or_else(|| panic!("no result for `{request}`"));
+    let r =
+        results.iter().find(|r| r.request == request).unwrap_or_else(|| panic!("no result for `{request}`"));
     assert!(!r.tabulated, "{request}: one number expected");
     r.entries[0].value
 }
@@ -130,12 +123,7 @@ fn water_rhf_and_two_open_shell_states() {
     let bind = water_bindings(&reference);
     // The bindings the reference records: core 1-4, a = 5 (HOMO), b = 6 (LUMO).
     assert_eq!(bind, ["core=1,2,3,4", "a=5", "b=6"]);
-    let (checked, results) = run(
-        "water_two_open_shells.sf",
-        WATER_INPUT,
-        "water_sto3g_rhf.fcidump",
-        &bind,
-    );
+    let (checked, results) = run("water_two_open_shells.sf", WATER_INPUT, "water_sto3g_rhf.fcidump", &bind);
     assert_verified(&checked);
     let energies = "/cases/water_sto3g_rhf/energies";
 
@@ -173,10 +161,7 @@ fn water_rhf_and_two_open_shell_states() {
         recorded(&reference, &format!("{energies}/triplet_m1/value")),
     );
     // Spin symmetry: the M = 0 and M = 1 components of the triplet are degenerate.
-    assert!(
-        (value_of(&results, "energy triplet0") - value_of(&results, "energy triplet1")).abs()
-            < 1e-12
-    );
+    assert!((value_of(&results, "energy triplet0") - value_of(&results, "energy triplet1")).abs() < 1e-12);
 }
 
 #[test]
@@ -193,10 +178,7 @@ fn ch2_triplet_rohf_is_the_high_spin_determinant() {
         energy triplet
     ";
     let bind = vec![
-        format!(
-            "core={}",
-            orbital_list(&reference, &format!("{case}/orbitals_1based/core"))
-        ),
+        format!("core={}", orbital_list(&reference, &format!("{case}/orbitals_1based/core"))),
         format!("p={}", open[0]),
         format!("q={}", open[1]),
     ];
@@ -225,10 +207,7 @@ fn n_quartet_rohf_is_the_high_spin_determinant() {
         energy quartet
     ";
     let bind = vec![
-        format!(
-            "core={}",
-            orbital_list(&reference, &format!("{case}/orbitals_1based/core"))
-        ),
+        format!("core={}", orbital_list(&reference, &format!("{case}/orbitals_1based/core"))),
         format!("p={}", open[0]),
         format!("q={}", open[1]),
         format!("r={}", open[2]),
@@ -256,27 +235,12 @@ fn command_line_eval_prints_the_reference_energies_as_json() {
         .arg("--json")
         .output()
         .expect("the spinfold binary runs");
-    assert!(
-        output.status.success(),
-        "spinfold eval failed: {}",
-        String::from_utf8_lossy(&output.stderr)
-    );
-    let json: serde_json::Value =
-        serde_json::from_slice(&output.stdout).expect("standard output is JSON");
+    assert!(output.status.success(), "spinfold eval failed: {}", String::from_utf8_lossy(&output.stderr));
+    let json: serde_json::Value = serde_json::from_slice(&output.stdout).expect("standard output is JSON");
     let results = json["results"].as_array().expect("a `results` list");
-    let requests: Vec<&str> = results
-        .iter()
-        .map(|r| r["request"].as_str().expect("each result names its request"))
-        .collect();
-    assert_eq!(
-        requests,
-        [
-            "energy closed",
-            "energy singlet",
-            "energy triplet0",
-            "energy triplet1"
-        ]
-    );
+    let requests: Vec<&str> =
+        results.iter().map(|r| r["request"].as_str().expect("each result names its request")).collect();
+    assert_eq!(requests, ["energy closed", "energy singlet", "energy triplet0", "energy triplet1"]);
     let energies = "/cases/water_sto3g_rhf/energies";
     // PySCF, pyscf_reference.json water_sto3g_rhf energies: rhf (RHF e_tot),
     // open_shell_singlet, triplet_m0, triplet_m1 (direct_spin1.energy of the CI vectors).

@@ -6,7 +6,8 @@ use crate::determinant::{CaseDet, Vanishing};
 use crate::error::{Error, ErrorKind, Result};
 use crate::exact::Exact;
 use crate::expression::{Expr, RestrictedSum};
-use crate::orbital::{Orb, SpaceId};
+use crate::fock::fock_form;
+use crate::orbital::{Orb, SpaceId, SpaceSet};
 use crate::program::{Occupant, Program, Request, RequestKind, State};
 use crate::slater_condon;
 use std::collections::{BTreeMap, BTreeSet};
@@ -18,11 +19,13 @@ pub struct Options {
     pub distinct: bool,
     /// The largest number of determinants a state may expand to.
     pub max_determinants: usize,
+    /// Present results with the closed-space Fock matrix f_pq and the reference energy E_ref.
+    pub fock: bool,
 }
 
 impl Default for Options {
     fn default() -> Options {
-        Options { distinct: false, max_determinants: 200_000 }
+        Options { distinct: false, max_determinants: 200_000, fock: false }
     }
 }
 
@@ -42,6 +45,8 @@ pub struct Derivation {
     pub notes: Vec<String>,
     /// Generic indices that the result depends on, in declaration order.
     pub free_indices: Vec<u32>,
+    /// The closed spaces of the bra and ket: what f_pq and E_ref sum over.
+    pub closed: SpaceSet,
 }
 
 /// A state in one case: normalized determinants with their coefficients.
@@ -186,6 +191,7 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
     let cases = coincidence::cases(&used, &closed_spaces, options.distinct);
     let mut notes = vec![];
     let mut parts: Vec<(Case, Expr, Expr)> = vec![];
+    let mut closed_set = SpaceSet::default();
     for (n, case) in cases.iter().enumerate() {
         let finest = n == 0;
         let build = |state: &State, label: &str| {
@@ -199,6 +205,7 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
             };
         if finest {
             check_comparable(program, request, &bra, &ket)?;
+            closed_set = bra.keys().next().map_or(SpaceSet::default(), |d| SpaceSet::of(&d.closed));
             for (s, label) in [(&bra, &request.bra_text), (&ket, &request.ket_text)] {
                 if s.is_empty() {
                     return Err(Error::at(ErrorKind::EmptyState { name: label.clone() }, &request.span));
@@ -259,6 +266,9 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         value = value.plus(&v.with_deltas(&case.deltas()));
         overlap_expr = overlap_expr.plus(&o.with_deltas(&case.deltas()));
     }
+    if options.fock {
+        value = fock_form(&value, closed_set);
+    }
     if request.kind == RequestKind::Energy {
         overlap_expr = Expr::constant(Exact::one());
     }
@@ -271,5 +281,6 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         overlap: overlap_expr,
         notes,
         free_indices: all_indices.into_iter().collect(),
+        closed: closed_set,
     })
 }

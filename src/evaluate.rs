@@ -2,6 +2,7 @@
 //! orbitals and generic indices and concrete member lists for spaces.
 
 use crate::expression::{Expr, Factor, Term};
+use crate::fock::{fock_definition, reference_definition};
 use crate::integrals::Integrals;
 use crate::orbital::Orb;
 
@@ -34,6 +35,9 @@ fn factor_value(factor: &Factor, binding: &Binding, summed: &[usize], ints: &dyn
         Factor::One => 1.0,
         Factor::H(p, q) => ints.h(o(p), o(q)),
         Factor::Eri(p, q, r, s) => ints.eri(o(p), o(q), o(r), o(s)),
+        // by their definitions, with the same binding (p and q are never summation indices)
+        Factor::Fock(p, q, closed) => evaluate(&fock_definition(p, q, closed), binding, ints),
+        Factor::RefEnergy(closed) => evaluate(&reference_definition(closed), binding, ints),
     }
 }
 

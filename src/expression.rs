@@ -2,7 +2,7 @@
 //! over spaces and one integral, kept in a canonical, collected, readable order.
 
 use crate::exact::Exact;
-use crate::orbital::{Orb, SpaceId};
+use crate::orbital::{Orb, SpaceId, SpaceSet};
 use itertools::Itertools;
 use std::cmp::Reverse;
 use std::collections::BTreeMap;
@@ -14,16 +14,33 @@ pub enum Factor {
     One,
     H(Orb, Orb),
     Eri(Orb, Orb, Orb, Orb),
+    /// f_pq = h_pq + Σ_{k ∈ closed} (2 (pq|kk) − (pk|kq)) over the closed spaces given.
+    Fock(Orb, Orb, SpaceSet),
+    /// The energy of the closed spaces alone: Σ_k 2 h_kk + Σ_kl (2 J_kl − K_kl).
+    RefEnergy(SpaceSet),
 }
 
 /// How a canonical integral reads: J_pq = (pp|qq), K_pq = (pq|qp), or neither.
 #[derive(Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Debug)]
 pub enum IntegralKind {
     Number,
+    RefEnergy,
+    Fock,
     OneElectron,
     Coulomb,
     Exchange,
     General,
+}
+
+impl IntegralKind {
+    /// Numbers, reference energies, Fock and one-electron terms read first and group apart
+    /// from the two-electron integrals under a common sum.
+    pub fn is_one_electron_like(self) -> bool {
+        matches!(
+            self,
+            IntegralKind::Number | IntegralKind::RefEnergy | IntegralKind::Fock | IntegralKind::OneElectron
+        )
+    }
 }
 
 impl Factor {
@@ -32,13 +49,15 @@ impl Factor {
             Factor::One => Factor::One,
             Factor::H(p, q) => Factor::H(f(p), f(q)),
             Factor::Eri(p, q, r, s) => Factor::Eri(f(p), f(q), f(r), f(s)),
+            Factor::Fock(p, q, c) => Factor::Fock(f(p), f(q), c),
+            Factor::RefEnergy(c) => Factor::RefEnergy(c),
         }
     }
 
     pub fn orbs(&self) -> Vec<Orb> {
         match *self {
-            Factor::One => vec![],
-            Factor::H(p, q) => vec![p, q],
+            Factor::One | Factor::RefEnergy(_) => vec![],
+            Factor::H(p, q) | Factor::Fock(p, q, _) => vec![p, q],
             Factor::Eri(p, q, r, s) => vec![p, q, r, s],
         }
     }
@@ -48,10 +67,14 @@ impl Factor {
     pub fn canonical(self) -> Factor {
         let pair = |a: Orb, b: Orb| if a <= b { (a, b) } else { (b, a) };
         match self {
-            Factor::One => Factor::One,
+            Factor::One | Factor::RefEnergy(_) => self,
             Factor::H(p, q) => {
                 let (p, q) = pair(p, q);
                 Factor::H(p, q)
+            }
+            Factor::Fock(p, q, c) => {
+                let (p, q) = pair(p, q);
+                Factor::Fock(p, q, c)
             }
             Factor::Eri(p, q, r, s) => {
                 let (a, b) = (pair(p, q), pair(r, s));
@@ -65,6 +88,8 @@ impl Factor {
     pub fn kind(&self) -> IntegralKind {
         match *self {
             Factor::One => IntegralKind::Number,
+            Factor::RefEnergy(_) => IntegralKind::RefEnergy,
+            Factor::Fock(..) => IntegralKind::Fock,
             Factor::H(..) => IntegralKind::OneElectron,
             Factor::Eri(p, q, r, s) if p == q && r == s => IntegralKind::Coulomb,
             Factor::Eri(p, q, r, s) if p == r && q == s => IntegralKind::Exchange,
@@ -141,7 +166,7 @@ impl Term {
     fn order_key(
         &self,
     ) -> (Reverse<usize>, Vec<(Orb, Orb)>, usize, Vec<SpaceId>, bool, IntegralKind, Factor) {
-        let two_electron = !matches!(self.kind(), IntegralKind::Number | IntegralKind::OneElectron);
+        let two_electron = !self.kind().is_one_electron_like();
         (
             Reverse(self.deltas.len()),
             self.deltas.clone(),

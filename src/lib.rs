@@ -38,6 +38,7 @@ mod evaluate;
 mod exact;
 mod expression;
 mod fcidump;
+mod fock;
 mod integrals;
 mod orbital;
 mod output;
@@ -56,7 +57,7 @@ pub use exact::Exact;
 pub use expression::{Expr, Factor, IntegralKind, Term};
 pub use fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump};
 pub use integrals::{DenseIntegrals, Integrals};
-pub use orbital::{Orb, SpaceId, Spin, SpinOrbital};
+pub use orbital::{Orb, SpaceId, SpaceSet, Spin, SpinOrbital};
 pub use output::write_output;
 pub use parser::parse;
 pub use pipeline::{

@@ -40,6 +40,10 @@ struct Derivation {
     /// Seed of the random integrals used by the check.
     #[arg(long, default_value_t = DEFAULT_SEED)]
     seed: u64,
+    /// Present results with the closed-space Fock matrix f_pq = h_pq + Σ_k (2 (pq|kk) − (pk|kq))
+    /// and the reference energy E_ref of the closed spaces.
+    #[arg(long)]
+    fock: bool,
     /// Largest number of determinants a state may expand to.
     #[arg(long, default_value_t = 200_000)]
     max_determinants: usize,
@@ -97,7 +101,8 @@ fn read_input(file: &str) -> Result<(String, String)> {
 fn derived(common: &Derivation) -> Result<(Program, Vec<Checked>)> {
     let (name, text) = read_input(&common.file)?;
     let program = parse(&name, &text)?;
-    let options = Options { distinct: common.distinct, max_determinants: common.max_determinants };
+    let options =
+        Options { distinct: common.distinct, max_determinants: common.max_determinants, fock: common.fock };
     let checked = derive_checked(&program, &options, (!common.no_verify).then_some(common.seed))?;
     Ok((program, checked))
 }

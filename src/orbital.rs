@@ -34,3 +34,17 @@ impl SpinOrbital {
 }
 
 pub type SpaceId = u32;
+
+/// A set of spaces (at most 64), as the closed spaces a Fock matrix or reference energy sums over.
+#[derive(Copy, Clone, PartialEq, Eq, Hash, PartialOrd, Ord, Debug, Default)]
+pub struct SpaceSet(pub u64);
+
+impl SpaceSet {
+    pub fn of(spaces: &[SpaceId]) -> SpaceSet {
+        SpaceSet(spaces.iter().fold(0, |m, &s| m | (1 << s)))
+    }
+
+    pub fn members(self) -> Vec<SpaceId> {
+        (0..64).filter(|s| self.0 & (1 << s) != 0).collect()
+    }
+}

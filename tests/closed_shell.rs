@@ -1,7 +1,9 @@
 //! The closed-shell determinant: E = 2 Σ_k h_kk + Σ_kl (2 J_kl − K_kl), as a symbol-for-symbol
 //! result and as a number on random integrals (common practice; CONVENTIONS.md check value).
 
-use spinfold::{Binding, DenseIntegrals, Format, Integrals, Options, derive, derive_checked, evaluate, parse, render};
+use spinfold::{
+    Binding, DenseIntegrals, Format, Integrals, Options, derive, derive_checked, evaluate, parse, render,
+};
 
 const INPUT: &str = "space occ\ndet ground = | occ^2 |\nenergy ground\n";
 

@@ -1,10 +1,10 @@
 //! The JSON form of derivations: a stable, documented schema (README.md, "JSON output") with
 //! every term's exact coefficient, deltas, summed indices and integral.
 
-use super::Namer;
+use super::{Namer, integral_parts};
 use crate::derive::Derivation;
 use crate::exact::Exact;
-use crate::expression::{Expr, Factor, IntegralKind};
+use crate::expression::{Expr, IntegralKind};
 use crate::program::{Program, RequestKind};
 use crate::verify::Report;
 use serde::Serialize;
@@ -27,6 +27,8 @@ struct RequestOut<'a> {
     ket: &'a str,
     terms: Vec<TermOut>,
     overlap: Vec<TermOut>,
+    /// The closed spaces that `fock` and `reference_energy` terms sum over.
+    closed_spaces: Vec<String>,
     notes: &'a [String],
     verification: Option<&'a Report>,
 }
@@ -78,12 +80,15 @@ fn terms(expr: &Expr, namer: &Namer) -> Vec<TermOut> {
         .map(|t| {
             let summed = namer.summed_names(&t.sums);
             let o = |x| namer.orb(x, &summed);
-            let (kind, indices) = match (t.factor, t.factor.kind()) {
-                (Factor::One, _) => ("number", vec![]),
-                (Factor::H(p, q), _) => ("h", vec![o(p), o(q)]),
-                (Factor::Eri(p, _, r, _), IntegralKind::Coulomb) => ("coulomb", vec![o(p), o(r)]),
-                (Factor::Eri(p, q, _, _), IntegralKind::Exchange) => ("exchange", vec![o(p), o(q)]),
-                (Factor::Eri(p, q, r, s), _) => ("eri", vec![o(p), o(q), o(r), o(s)]),
+            let (kind, indices) = integral_parts(&t.factor, namer, &summed);
+            let kind = match kind {
+                IntegralKind::Number => "number",
+                IntegralKind::RefEnergy => "reference_energy",
+                IntegralKind::Fock => "fock",
+                IntegralKind::OneElectron => "h",
+                IntegralKind::Coulomb => "coulomb",
+                IntegralKind::Exchange => "exchange",
+                IntegralKind::General => "eri",
             };
             TermOut {
                 coefficient: coefficient(&t.coeff),
@@ -112,6 +117,7 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)]) -
                 ket: &d.ket,
                 terms: terms(&d.value, &namer),
                 overlap: terms(&d.overlap, &namer),
+                closed_spaces: d.closed.members().iter().map(|&s| namer.space(s).to_string()).collect(),
                 notes: &d.notes,
                 verification: report.as_ref(),
             }

@@ -1,7 +1,7 @@
 //! The LaTeX form of derivations (amsmath): one `align*` per request, sums labelled with their
 //! spaces, exact fractions and radicals, and names escaped so input text cannot inject TeX.
 
-use super::{Group, Namer, groups, join_signed, verification_line};
+use super::{Group, Namer, groups, integral_parts, join_signed, uses_fock, verification_line};
 use crate::derive::Derivation;
 use crate::exact::Exact;
 use crate::expression::{Expr, Factor, IntegralKind, Term};
@@ -48,20 +48,18 @@ fn magnitude(c: &Exact) -> String {
 }
 
 fn factor(f: &Factor, namer: &Namer, summed: &[String]) -> String {
-    let o = |x| namer.orb(x, summed);
-    match (*f, f.kind()) {
-        (Factor::One, _) => "1".into(),
-        (Factor::H(p, q), _) => format!("h{}", subscript(&[o(p), o(q)])),
-        (Factor::Eri(p, _, r, _), IntegralKind::Coulomb) => {
-            format!("J{}", subscript(&[o(p), o(r)]))
-        }
-        (Factor::Eri(p, q, _, _), IntegralKind::Exchange) => {
-            format!("K{}", subscript(&[o(p), o(q)]))
-        }
-        (Factor::Eri(p, q, r, s), _) => {
-            let n: Vec<String> = [p, q, r, s].iter().map(|&x| name(&o(x))).collect();
-            let sep = if [p, q, r, s].iter().all(|&x| o(x).chars().count() == 1) { "" } else { r"\," };
-            format!(r"({}{sep}{}\vert {}{sep}{})", n[0], n[1], n[2], n[3])
+    let (kind, n) = integral_parts(f, namer, summed);
+    match kind {
+        IntegralKind::Number => "1".into(),
+        IntegralKind::RefEnergy => r"E_{\mathrm{ref}}".into(),
+        IntegralKind::Fock => format!("f{}", subscript(&n)),
+        IntegralKind::OneElectron => format!("h{}", subscript(&n)),
+        IntegralKind::Coulomb => format!("J{}", subscript(&n)),
+        IntegralKind::Exchange => format!("K{}", subscript(&n)),
+        IntegralKind::General => {
+            let sep = if n.iter().all(|x| x.chars().count() == 1) { "" } else { r"\," };
+            let m: Vec<String> = n.iter().map(|x| name(x)).collect();
+            format!(r"({}{sep}{}\vert {}{sep}{})", m[0], m[1], m[2], m[3])
         }
     }
 }
@@ -195,6 +193,18 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], s
         out.push_str(&format!("% {}\n", verification_line(report.as_ref())));
         out.push_str("\\begin{align*}\n");
         out.push_str(&format!("  {}\n  {}\n", left_side(d), expression(&d.value, &namer)));
+        if uses_fock(&d.value) {
+            let over = d
+                .closed
+                .members()
+                .iter()
+                .map(|&s| format!(r"\mathrm{{{}}}", namer.space(s).replace('_', r"\_")))
+                .collect::<Vec<_>>()
+                .join(r" \cup ");
+            out.push_str(&format!(
+                "  \\\\\n  &\\text{{with }} f_{{pq}} = h_{{pq}} + \\sum_{{k \\in {over}}} \\left( 2\\,(pq\\vert kk) - (pk\\vert kq) \\right),\\quad E_{{\\mathrm{{ref}}}} = 2\\sum_{{k \\in {over}}} h_{{kk}} + \\sum_{{k,l \\in {over}}} \\left( 2\\,J_{{kl}} - K_{{kl}} \\right)\n"
+            ));
+        }
         out.push_str("\\end{align*}\n");
         for note in &d.notes {
             out.push_str(&format!("% note: {note}\n"));

@@ -5,7 +5,7 @@ pub mod json;
 pub mod latex;
 pub mod text;
 
-use crate::expression::{Expr, IntegralKind, Term};
+use crate::expression::{Expr, Factor, IntegralKind, Term};
 use crate::orbital::{Orb, SpaceId};
 use crate::program::Program;
 use std::collections::BTreeSet;
@@ -20,7 +20,7 @@ pub struct Group<'a> {
 
 pub fn groups(expr: &Expr) -> Vec<Group<'_>> {
     let mut out: Vec<Group> = vec![];
-    let class = |t: &Term| matches!(t.kind(), IntegralKind::Number | IntegralKind::OneElectron);
+    let class = |t: &Term| t.kind().is_one_electron_like();
     for term in &expr.terms {
         match out.last_mut() {
             Some(g)
@@ -34,6 +34,20 @@ pub fn groups(expr: &Expr) -> Vec<Group<'_>> {
         }
     }
     out
+}
+
+/// The kind of a term's integral and the names of its indices as written: h_pq [p, q], J_pq
+/// [p, q], K_pq [p, q], (pq|rs) [p, q, r, s], f_pq [p, q], E_ref [].
+pub fn integral_parts(factor: &Factor, namer: &Namer, summed: &[String]) -> (IntegralKind, Vec<String>) {
+    let o = |x| namer.orb(x, summed);
+    let names = match (*factor, factor.kind()) {
+        (Factor::One | Factor::RefEnergy(_), _) => vec![],
+        (Factor::Eri(p, _, r, _), IntegralKind::Coulomb) => vec![o(p), o(r)],
+        (Factor::Eri(p, q, _, _), IntegralKind::Exchange) => vec![o(p), o(q)],
+        (Factor::H(p, q) | Factor::Fock(p, q, _), _) => vec![o(p), o(q)],
+        (Factor::Eri(p, q, r, s), _) => vec![o(p), o(q), o(r), o(s)],
+    };
+    (factor.kind(), names)
 }
 
 /// Names orbitals for one expression: named orbitals and generic indices by their own names,
@@ -99,6 +113,11 @@ pub fn join_signed(items: impl IntoIterator<Item = (bool, String)>, minus: &str)
         out.push_str(&text);
     }
     (first_negative, out)
+}
+
+/// Does the expression use f_pq or E_ref (and so need their definitions beside it)?
+pub fn uses_fock(expr: &Expr) -> bool {
+    expr.terms.iter().any(|t| matches!(t.kind(), IntegralKind::Fock | IntegralKind::RefEnergy))
 }
 
 /// The one-line summary of what a derivation was checked against.

@@ -1,7 +1,7 @@
 //! The readable text form of derivations: Σ, δ, h_pq, J_pq, K_pq and (pq|rs), one group of
 //! terms per line, in Unicode or plain ASCII.
 
-use super::{Group, Namer, groups, join_signed, verification_line};
+use super::{Group, Namer, groups, integral_parts, join_signed, uses_fock, verification_line};
 use crate::derive::Derivation;
 use crate::exact::{Exact, ExactDisplay};
 use crate::expression::{Expr, Factor, IntegralKind};
@@ -37,24 +37,18 @@ fn subscript(names: &[String]) -> String {
 }
 
 fn factor_text(factor: &Factor, namer: &Namer, summed: &[String]) -> String {
-    let o = |x| namer.orb(x, summed);
-    match (*factor, factor.kind()) {
-        (Factor::One, _) => "1".into(),
-        (Factor::H(p, q), _) => format!("h_{}", subscript(&[o(p), o(q)])),
-        (Factor::Eri(p, _, r, _), IntegralKind::Coulomb) => {
-            format!("J_{}", subscript(&[o(p), o(r)]))
+    let (kind, n) = integral_parts(factor, namer, summed);
+    match kind {
+        IntegralKind::Number => "1".into(),
+        IntegralKind::RefEnergy => "E_ref".into(),
+        IntegralKind::Fock => format!("f_{}", subscript(&n)),
+        IntegralKind::OneElectron => format!("h_{}", subscript(&n)),
+        IntegralKind::Coulomb => format!("J_{}", subscript(&n)),
+        IntegralKind::Exchange => format!("K_{}", subscript(&n)),
+        IntegralKind::General if n.iter().all(|x| x.chars().count() == 1) => {
+            format!("({}{}|{}{})", n[0], n[1], n[2], n[3])
         }
-        (Factor::Eri(p, q, _, _), IntegralKind::Exchange) => {
-            format!("K_{}", subscript(&[o(p), o(q)]))
-        }
-        (Factor::Eri(p, q, r, s), _) => {
-            let names = [o(p), o(q), o(r), o(s)];
-            if names.iter().all(|n| n.chars().count() == 1) {
-                format!("({}{}|{}{})", names[0], names[1], names[2], names[3])
-            } else {
-                format!("({} {}|{} {})", names[0], names[1], names[2], names[3])
-            }
-        }
+        IntegralKind::General => format!("({} {}|{} {})", n[0], n[1], n[2], n[3]),
     }
 }
 
@@ -179,6 +173,14 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], a
         out.push_str(&format!("{}    {}\n", d.text, request_meaning(d)));
         for line in expression_lines(&d.value, &namer, &style) {
             out.push_str(&format!("  {line}\n"));
+        }
+        if uses_fock(&d.value) {
+            let spaces: Vec<&str> = d.closed.members().iter().map(|&s| namer.space(s)).collect();
+            let over = spaces.join(if ascii { " + " } else { " ∪ " });
+            let (sum, member, minus) = (style.sigma(), style.member(), style.minus());
+            out.push_str(&format!(
+                "  with f_pq = h_pq + {sum}_{{k{member}{over}}} (2 (pq|kk) {minus} (pk|kq)) and E_ref = 2 {sum}_{{k{member}{over}}} h_kk + {sum}_{{k,l{member}{over}}} (2 J_kl {minus} K_kl)\n"
+            ));
         }
         for note in &d.notes {
             out.push_str(&format!("  note: {note}\n"));

@@ -1,29 +1,26 @@
 //! The independent check: states built as vectors over occupation bit strings by applying
 //! creation and annihilation operators, and H applied term by term in second quantization.
 
+use crate::evaluate::Binding;
 use crate::integrals::Integrals;
 use crate::orbital::{Orb, Spin, SpinOrbital};
 use crate::program::{Occupant, State};
 use std::collections::HashMap;
 
-/// Concrete spatial orbitals (0-based) for every symbol of a program.
-#[derive(Clone, Debug)]
-pub struct Instance {
-    pub orbitals: Vec<usize>,
-    pub spaces: Vec<Vec<usize>>,
-    pub indices: Vec<usize>,
-}
+/// Spatial orbitals a bit string can hold.
+pub const MAX_ORBITALS: usize = 64;
 
 /// A vector in the determinant space: occupation bit string → amplitude.
 /// Bit 2p is p-alpha, bit 2p+1 is p-beta; a basis string means its creators in ascending
 /// bit order applied to the vacuum, the lowest leftmost.
 pub type Vector = HashMap<u128, f64>;
 
-fn bit(instance: &Instance, so: SpinOrbital) -> u32 {
+fn bit(binding: &Binding, so: SpinOrbital) -> u32 {
     let p = match so.orb {
-        Orb::Named(k) => instance.orbitals[k as usize],
-        Orb::Index(k) => instance.indices[k as usize],
-        Orb::Summed(_) => unreachable!("states hold no summation indices"),
+        Orb::Named(k) => binding.orbitals[k as usize],
+        // callers bind every index a request uses, below MAX_ORBITALS
+        Orb::Index(k) => binding.indices[k as usize].unwrap_or(0),
+        Orb::Summed(_) => 0,
     };
     2 * p as u32 + if so.spin == Spin::Beta { 1 } else { 0 }
 }
@@ -57,23 +54,23 @@ fn apply(det: u128, operators: &[(bool, u32)]) -> Option<(f64, u128)> {
 /// The state as a vector: each determinant is a+(x1) .. a+(xN)|0> in the order written,
 /// closed spaces as k-alpha k-beta for every member, then each excitation
 /// a+(y1) .. a+(yn) a(xn) .. a(x1) applied in turn.
-pub fn state_vector(state: &State, instance: &Instance) -> Vector {
+pub fn state_vector(state: &State, binding: &Binding) -> Vector {
     let mut out = Vector::new();
     for (coeff, det) in &state.terms {
         let mut operators: Vec<(bool, u32)> = vec![];
         for e in det.excitations.iter().rev() {
-            operators.extend(e.to.iter().map(|&y| (true, bit(instance, y))));
-            operators.extend(e.from.iter().rev().map(|&x| (false, bit(instance, x))));
+            operators.extend(e.to.iter().map(|&y| (true, bit(binding, y))));
+            operators.extend(e.from.iter().rev().map(|&x| (false, bit(binding, x))));
         }
         for occupant in &det.occupants {
             match *occupant {
                 Occupant::Closed(s) => {
-                    for &k in &instance.spaces[s as usize] {
+                    for &k in &binding.spaces[s as usize] {
                         operators.push((true, 2 * k as u32));
                         operators.push((true, 2 * k as u32 + 1));
                     }
                 }
-                Occupant::Electron(so) => operators.push((true, bit(instance, so))),
+                Occupant::Electron(so) => operators.push((true, bit(binding, so))),
             }
         }
         if let Some((sign, d)) = apply(0, &operators) {
@@ -147,8 +144,8 @@ mod tests {
                 DetSpec { occupants: vec![Occupant::Closed(0)], excitations: vec![] },
             )],
         };
-        let instance = Instance { orbitals: vec![], spaces: vec![vec![0]], indices: vec![] };
-        let v = state_vector(&state, &instance);
+        let binding = Binding { orbitals: vec![], spaces: vec![vec![0]], indices: vec![] };
+        let v = state_vector(&state, &binding);
         let e = dot(&v, &apply_hamiltonian(&v, &ints));
         assert!((e - (2.0 * ints.h(0, 0) + ints.eri(0, 0, 0, 0))).abs() < 1e-12);
     }

@@ -47,6 +47,8 @@ pub struct Derivation {
     pub free_indices: Vec<u32>,
     /// The closed spaces of the bra and ket: what f_pq and E_ref sum over.
     pub closed: SpaceSet,
+    /// Derived assuming different generic indices are different orbitals.
+    pub distinct: bool,
 }
 
 /// A state in one case: normalized determinants with their coefficients.
@@ -282,5 +284,6 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         notes,
         free_indices: all_indices.into_iter().collect(),
         closed: closed_set,
+        distinct: options.distinct,
     })
 }

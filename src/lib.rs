@@ -65,4 +65,4 @@ pub use pipeline::{
     results_text,
 };
 pub use program::{Program, Request, RequestKind, State};
-pub use verify::{Report, TOLERANCE, verify};
+pub use verify::{Comparison, Report, TOLERANCE, compare, verify};

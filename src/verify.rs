@@ -1,11 +1,12 @@
 //! Built-in verification: every derived expression is evaluated on random integrals for
 //! several space sizes and every index assignment, and compared with brute-force algebra.
 
-use crate::brute_force::{self, Instance};
+use crate::bind::symbols_of;
+use crate::brute_force;
 use crate::derive::Derivation;
 use crate::error::{Error, ErrorKind, Result};
 use crate::evaluate::{Binding, evaluate};
-use crate::integrals::DenseIntegrals;
+use crate::integrals::{DenseIntegrals, Integrals};
 use crate::program::{Program, Request, RequestKind};
 use itertools::Itertools;
 use rand::SeedableRng;
@@ -80,6 +81,88 @@ fn size_configurations(program: &Program, derivation: &Derivation) -> Vec<Vec<us
         .collect()
 }
 
+/// Under --distinct only assignments giving different letters of one space different orbitals
+/// are in the result's domain.
+fn all_different_within_spaces(program: &Program, assignment: &[(u32, usize)]) -> bool {
+    assignment.iter().enumerate().all(|(n, &(k, m))| {
+        assignment[..n].iter().all(|&(k2, m2)| {
+            program.indices[k as usize].space != program.indices[k2 as usize].space || m != m2
+        })
+    })
+}
+
+/// A derived number beside its brute-force value.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Comparison {
+    /// "value" or "overlap"
+    pub what: &'static str,
+    pub brute_force: f64,
+    pub derived: f64,
+}
+
+/// The derived value of a request (and, for an element, its overlap) beside brute-force
+/// determinant algebra, for one binding and one set of integrals (electronic energies, no
+/// constant). Every symbol the request uses must be bound, to orbitals below 64. Ok(None) when
+/// an energy's state vanishes for this binding.
+pub fn compare(
+    program: &Program,
+    request: &Request,
+    derivation: &Derivation,
+    binding: &Binding,
+    ints: &dyn Integrals,
+) -> Result<Option<Vec<Comparison>>> {
+    let (orbitals, spaces, indices) = symbols_of(program, request);
+    let bound = orbitals
+        .iter()
+        .map(|&k| binding.orbitals.get(k as usize).copied())
+        .chain(indices.iter().map(|&k| binding.indices.get(k as usize).copied().flatten()))
+        .chain(
+            spaces
+                .iter()
+                .flat_map(|&s| binding.spaces.get(s as usize).into_iter().flatten().map(|&m| Some(m))),
+        )
+        .collect::<Option<Vec<usize>>>();
+    match bound {
+        Some(all) if all.iter().all(|&m| m < brute_force::MAX_ORBITALS) => {}
+        _ => {
+            return Err(Error::new(ErrorKind::Binding {
+                why: format!(
+                    "the brute-force check of `{}` needs every orbital, space and index bound, to orbitals 1 to {}",
+                    request.text,
+                    brute_force::MAX_ORBITALS
+                ),
+            }));
+        }
+    }
+    let bra = brute_force::state_vector(&request.bra, binding);
+    let ket = brute_force::state_vector(&request.ket, binding);
+    let overlap = brute_force::dot(&bra, &ket);
+    let expected = match request.kind {
+        RequestKind::Overlap => overlap,
+        RequestKind::Element => brute_force::dot(&bra, &brute_force::apply_hamiltonian(&ket, ints)),
+        RequestKind::Energy => {
+            let norm = brute_force::dot(&bra, &bra);
+            if norm.abs() < 1e-12 {
+                return Ok(None);
+            }
+            brute_force::dot(&bra, &brute_force::apply_hamiltonian(&bra, ints)) / norm
+        }
+    };
+    let mut out = vec![Comparison {
+        what: "value",
+        brute_force: expected,
+        derived: evaluate(&derivation.value, binding, ints),
+    }];
+    if request.kind == RequestKind::Element {
+        out.push(Comparison {
+            what: "overlap",
+            brute_force: overlap,
+            derived: evaluate(&derivation.overlap, binding, ints),
+        });
+    }
+    Ok(Some(out))
+}
+
 /// Checks one derivation of `request`; returns the report or a verification failure.
 pub fn verify(program: &Program, request: &Request, derivation: &Derivation, seed: u64) -> Result<Report> {
     let mut report = Report {
@@ -108,7 +191,11 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
             .iter()
             .map(|&k| spaces[program.indices[k as usize].space as usize].iter().map(|&m| (k, m)).collect())
             .collect();
-        let mut assignments: Vec<Vec<(u32, usize)>> = choices.into_iter().multi_cartesian_product().collect();
+        let mut assignments: Vec<Vec<(u32, usize)>> = choices
+            .into_iter()
+            .multi_cartesian_product()
+            .filter(|a| !derivation.distinct || all_different_within_spaces(program, a))
+            .collect();
         if assignments.is_empty() {
             assignments.push(vec![]);
         }
@@ -118,39 +205,18 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
             report.sampled = true;
         }
         for assignment in assignments {
-            let mut instance = Instance {
-                orbitals: (0..program.orbitals.len()).collect(),
-                spaces: spaces.clone(),
-                indices: vec![0; program.indices.len()],
-            };
             let mut binding = Binding {
-                orbitals: instance.orbitals.clone(),
+                orbitals: (0..program.orbitals.len()).collect(),
                 spaces: spaces.clone(),
                 indices: vec![None; program.indices.len()],
             };
             for &(k, m) in &assignment {
-                instance.indices[k as usize] = m;
                 binding.indices[k as usize] = Some(m);
             }
-            let bra = brute_force::state_vector(&request.bra, &instance);
-            let ket = brute_force::state_vector(&request.ket, &instance);
-            let expected_overlap = brute_force::dot(&bra, &ket);
-            let expected = match request.kind {
-                RequestKind::Overlap => expected_overlap,
-                RequestKind::Element => brute_force::dot(&bra, &brute_force::apply_hamiltonian(&ket, &ints)),
-                RequestKind::Energy => {
-                    let norm = brute_force::dot(&bra, &bra);
-                    if norm.abs() < 1e-12 {
-                        continue; // the state vanishes for this assignment; the notes say so
-                    }
-                    brute_force::dot(&bra, &brute_force::apply_hamiltonian(&bra, &ints)) / norm
-                }
+            let Some(pairs) = compare(program, request, derivation, &binding, &ints)? else {
+                continue; // the state vanishes for this assignment; the notes say so
             };
-            let mut pairs = vec![(expected, evaluate(&derivation.value, &binding, &ints), "value")];
-            if request.kind == RequestKind::Element {
-                pairs.push((expected_overlap, evaluate(&derivation.overlap, &binding, &ints), "overlap"));
-            }
-            for (expected, derived, what) in pairs {
+            for Comparison { what, brute_force: expected, derived } in pairs {
                 let deviation = (derived - expected).abs() / expected.abs().max(1.0);
                 report.max_deviation = report.max_deviation.max(deviation);
                 report.checks += 1;

@@ -45,5 +45,14 @@ fn every_example_in_every_format() {
         ] {
             snapshot(&format!("{stem}.{suffix}"), &render(&program, &derived, format));
         }
+        // the Fock-operator presentation, as text and LaTeX
+        let fock = Options { fock: true, ..Options::default() };
+        let derived =
+            derive_checked(&program, &fock, Some(DEFAULT_SEED)).unwrap_or_else(|e| panic!("{stem}: {e}"));
+        snapshot(&format!("{stem}.fock.txt"), &render(&program, &derived, Format::Text { ascii: false }));
+        snapshot(
+            &format!("{stem}.fock.tex"),
+            &render(&program, &derived, Format::Latex { standalone: false }),
+        );
     }
 }

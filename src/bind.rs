@@ -17,7 +17,11 @@ fn parse_set(name: &str, spec: &str) -> Result<Vec<usize>> {
     for piece in spec.split(',') {
         let number = |t: &str| {
             t.trim().parse::<usize>().ok().filter(|&n| n > 0).ok_or_else(|| {
-                fail(format!("in --bind {name}={spec}: `{t}` is not an orbital number (1-based)"))
+                if t.trim().is_empty() {
+                    fail(format!("in --bind {name}={spec}: an orbital number (1-based) is missing"))
+                } else {
+                    fail(format!("in --bind {name}={spec}: `{t}` is not an orbital number (1-based)"))
+                }
             })
         };
         match piece.split_once('-') {
@@ -99,7 +103,9 @@ impl Bindings {
                 )));
             }
             if specs.insert(name.to_string(), set).is_some() {
-                return Err(fail(format!("`{name}` is bound twice")));
+                return Err(fail(format!(
+                    "--bind {option}: `{name}` is bound twice; give each name one --bind"
+                )));
             }
         }
         Ok(Bindings { specs })

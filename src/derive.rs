@@ -176,6 +176,26 @@ fn case_text(program: &Program, case: &Case) -> String {
         .join(", ")
 }
 
+/// Checks a state where it is defined: it must keep a determinant once equal determinants are
+/// combined, every determinant must exist, and all must share closed spaces and electron count.
+pub fn check_definition(
+    program: &Program,
+    state: &State,
+    name: &str,
+    span: &crate::error::Span,
+) -> Result<()> {
+    let request = Request {
+        kind: RequestKind::Overlap,
+        text: span.text().to_string(),
+        bra: state.clone(),
+        ket: state.clone(),
+        bra_text: name.to_string(),
+        ket_text: name.to_string(),
+        span: span.clone(),
+    };
+    derive(program, &request, &Options { distinct: true, ..Options::default() }).map(|_| ())
+}
+
 /// Derives one request.
 pub fn derive(program: &Program, request: &Request, options: &Options) -> Result<Derivation> {
     for (state, label) in [(&request.bra, &request.bra_text), (&request.ket, &request.ket_text)] {

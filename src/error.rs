@@ -115,11 +115,14 @@ impl Error {
                 format!("`{name}` is {is}, but {wanted} is needed here")
             }
             Redefined { name, .. } => format!("`{name}` is defined twice"),
-            Pauli { spin_orbital } => {
-                format!(
+            Pauli { spin_orbital } => match spin_orbital.strip_suffix("^2") {
+                Some(space) => format!(
+                    "the space `{space}` is closed twice in this determinant: each of its orbitals would hold four electrons (Pauli principle)"
+                ),
+                None => format!(
                     "the spin orbital {spin_orbital} is occupied twice in this determinant (Pauli principle)"
-                )
-            }
+                ),
+            },
             SpaceNotDoubled { space } => {
                 format!("the space `{space}` stands in a determinant without `^2`")
             }
@@ -142,14 +145,24 @@ impl Error {
                 format!("the state `{name}` has no determinant left: every coefficient cancels")
             }
             ZeroNorm { state } => format!("the state `{state}` has zero norm"),
-            ElectronCount { bra, ket } => {
-                format!("the bra has {bra} explicit electron(s) and the ket {ket}")
-            }
+            ElectronCount { bra, ket } => format!(
+                "the determinants compared here have different numbers of explicit electrons: one has {bra}, another {ket}"
+            ),
             ClosedSpaces { bra, ket } => {
-                format!("the bra has closed spaces {{{bra}}} and the ket {{{ket}}}")
+                let spaces = |names: &str| {
+                    if names.is_empty() { "none".to_string() } else { format!("{{{names}}}") }
+                };
+                format!(
+                    "the determinants compared here have different closed spaces: one has {}, another {}",
+                    spaces(bra),
+                    spaces(ket)
+                )
             }
             RequestArity { kind, wanted, got } => {
-                format!("`{kind}` takes {wanted} state(s), but {got} are given")
+                format!(
+                    "`{kind}` takes {wanted} state(s), but {got} {} given",
+                    if *got == 1 { "is" } else { "are" }
+                )
             }
             TooLarge { what, limit } => format!("{what} exceeds the limit of {limit}"),
             Io { path, why } => format!("cannot use `{path}`: {why}"),
@@ -170,7 +183,10 @@ impl Error {
             Undefined { .. } => "declare it first with `orbitals`, `space`, `det` or `state`".into(),
             WrongKind { .. } => "check which name was meant".into(),
             Redefined { .. } => "give each orbital, space, index, determinant and state its own name".into(),
-            Pauli { .. } => "remove one of the two, or put the electron in another orbital or spin".into(),
+            Pauli { spin_orbital } => match spin_orbital.strip_suffix("^2") {
+                Some(space) => format!("write `{space}^2` once"),
+                None => "remove one of the two, or put the electron in another orbital or spin".into(),
+            },
             SpaceNotDoubled { space } => format!("write `{space}^2`: a space is always doubly occupied"),
             SpaceInExcitation { .. } => "excite one of its generic indices instead, e.g. `ref[i -> a]` with `space occ: i`".into(),
             ExcitationLengths { .. } => "list as many spin orbitals after `->` as before it".into(),
@@ -180,8 +196,8 @@ impl Error {
             NumberAlone | StateTimesState | DivisionByState => "write a combination as c1 D1 + c2 D2, with each coefficient multiplying one determinant or state".into(),
             DivisionByZero => "use a non-zero divisor".into(),
             EmptyState { .. } | ZeroNorm { .. } => "check the signs and coefficients of the combination".into(),
-            ElectronCount { .. } => "the Hamiltonian conserves the number of electrons: compare states with the same count".into(),
-            ClosedSpaces { .. } => "write the same closed spaces in the bra and the ket; their sizes are unknown".into(),
+            ElectronCount { .. } => "the Hamiltonian conserves the number of electrons: every determinant of the bra and the ket must have the same count".into(),
+            ClosedSpaces { .. } => "write the same closed spaces in every determinant of the bra and the ket; their sizes are unknown".into(),
             RequestArity { .. } => "write `energy X`, `element X Y` or `overlap X Y`".into(),
             TooLarge { .. } => "raise the limit with --max-determinants if the machine has the memory".into(),
             IntegralFile { .. } => "the integral file must be in the integral-dump text format described in README.md".into(),

@@ -85,8 +85,10 @@ pub fn parse_dump(path: &str, text: &str) -> Result<IntegralDump> {
         }
         let value: f64 = fields[0]
             .replace(['D', 'd'], "E")
-            .parse()
-            .map_err(|_| fail(number, format!("`{}` is not a number", fields[0])))?;
+            .parse::<f64>()
+            .ok()
+            .filter(|v| v.is_finite())
+            .ok_or_else(|| fail(number, format!("`{}` is not a finite number", fields[0])))?;
         let mut idx = [0usize; 4];
         for (slot, field) in idx.iter_mut().zip(&fields[1..]) {
             *slot = field.parse().map_err(|_| fail(number, format!("`{field}` is not an orbital number")))?;

@@ -80,7 +80,12 @@ fn syntax_error(source: &Arc<Source>, error: pest::error::Error<Rule>) -> Error 
         pest::error::InputLocation::Pos(p) => p,
         pest::error::InputLocation::Span((s, _)) => s,
     };
+    let line_start = source.text[..start].rfind('\n').map_or(0, |k| k + 1);
+    let line_end = source.text[start..].find('\n').map_or(source.text.len(), |k| start + k);
+    let unclosed =
+        source.text[line_start..line_end].split('#').next().unwrap_or("").matches('|').count() % 2 == 1;
     let expected = match &error.variant {
+        _ if unclosed => "the closing `|` of the determinant".to_string(),
         pest::error::ErrorVariant::ParsingError { positives, .. } => {
             let mut words: Vec<&str> = positives.iter().map(describe).collect();
             words.sort();
@@ -101,9 +106,15 @@ struct Resolver {
 }
 
 impl Resolver {
+    /// The text of a pair, without the blanks and comment that may trail it.
     fn span(&self, pair: &Pair<Rule>) -> Span {
         let s = pair.as_span();
-        Span { source: self.program.source.clone(), range: s.start()..s.end() }
+        let text = s.as_str();
+        let kept = text.split('#').next().unwrap_or("").trim_end().len();
+        Span {
+            source: self.program.source.clone(),
+            range: s.start()..s.start() + kept.max(1).min(text.len()),
+        }
     }
 
     fn declare(&mut self, pair: &Pair<Rule>, symbol: Symbol) -> Result<()> {
@@ -193,6 +204,7 @@ impl Resolver {
                 if state.terms.iter().all(|(c, _)| c.is_zero()) || state.terms.is_empty() {
                     return Err(Error::at(ErrorKind::EmptyState { name: name.as_str().into() }, &value_span));
                 }
+                crate::derive::check_definition(&self.program, &state, name.as_str(), &value_span)?;
                 let id = self.program.states.len() as u32;
                 self.declare(&name, Symbol::State(id))?;
                 self.program.states.push(NamedState {
@@ -298,9 +310,13 @@ impl Resolver {
                     Value::Number(x) => {
                         let q =
                             x.as_rational().ok_or_else(|| bad("the square root of an irrational number"))?;
-                        Exact::sqrt_of_rational(&q)
-                            .map(Value::Number)
-                            .ok_or_else(|| bad("the square root of a negative or very large number"))
+                        Exact::sqrt_of_rational(&q).map(Value::Number).ok_or_else(|| {
+                            bad(if q < BigRational::from_integer(0.into()) {
+                                "the square root of a negative number"
+                            } else {
+                                "the square root of a number too large to factor"
+                            })
+                        })
                     }
                     Value::State(_) => Err(bad("the square root of a state")),
                 }

@@ -1,0 +1,476 @@
+//! Bad input to `spinfold derive`: every kind of mistake ends with exit code 2 and a report
+//! that names the file, line and column, puts a caret under the offending text, says in a
+//! sentence what is wrong, and never panics. Also: a missing input file, standard input, and
+//! `-o` writing its file whole or not at all.
+
+use std::io::Write;
+use std::path::Path;
+use std::process::{Command, Output, Stdio};
+
+/// The result of one run of the binary.
+struct Run {
+    code: Option<i32>,
+    stdout: String,
+    stderr: String,
+}
+
+impl From<Output> for Run {
+    fn from(output: Output) -> Run {
+        Run {
+            code: output.status.code(),
+            stdout: String::from_utf8_lossy(&output.stdout).into_owned(),
+            stderr: String::from_utf8_lossy(&output.stderr).into_owned(),
+        }
+    }
+}
+
+fn spinfold(dir: &Path, args: &[&str]) -> Run {
+    Command::new(env!("CARGO_BIN_EXE_spinfold"))
+        .args(args)
+        .current_dir(dir)
+        .stdin(Stdio::null())
+        .output()
+        .expect("the binary runs")
+        .into()
+}
+
+/// Writes `text` as `name` in a fresh directory and runs `spinfold derive name`, so that the
+/// report names the file exactly as written.
+fn derive(name: &str, text: &str) -> Run {
+    let dir = tempfile::tempdir().expect("a temporary directory");
+    std::fs::write(dir.path().join(name), text).expect("the input is written");
+    spinfold(dir.path(), &["derive", name])
+}
+
+/// Where a report should point: line and column (1-based) and the text under the caret
+/// (empty when the caret marks a place rather than a stretch, e.g. the end of a line).
+struct At<'a> {
+    line: usize,
+    column: usize,
+    underlined: &'a str,
+}
+
+fn at(line: usize, column: usize, underlined: &str) -> At<'_> {
+    At { line, column, underlined }
+}
+
+/// The part of a rendered line after the gutter `│ `, if it has one.
+fn after_gutter(line: &str) -> Option<&str> {
+    let (_, rest) = line.split_once('│')?;
+    Some(rest.strip_prefix(' ').unwrap_or(rest))
+}
+
+/// Checks that the report shows the source line `number` (whose text is `source_line`) with
+/// a run of `mark` characters under `underlined` starting at `column`.
+fn shows_mark(
+    stderr: &str,
+    number: usize,
+    source_line: &str,
+    column: usize,
+    underlined: &str,
+    mark: char,
+) -> bool {
+    let lines: Vec<&str> = stderr.lines().collect();
+    for (k, line) in lines.iter().enumerate() {
+        let Some((gutter, _)) = line.split_once('│') else { continue };
+        if gutter.trim() != number.to_string() || after_gutter(line) != Some(source_line) {
+            continue;
+        }
+        for below in &lines[k + 1..] {
+            let Some(text) = after_gutter(below) else { break };
+            if text.trim().is_empty() {
+                break;
+            }
+            let chars: Vec<char> = text.chars().collect();
+            let start = column - 1;
+            if chars.get(start) != Some(&mark) || chars[..start].iter().any(|&c| c == mark) {
+                continue;
+            }
+            let run = chars[start..].iter().take_while(|&&c| c == mark).count();
+            let wanted: String = source_line.chars().skip(start).take(run).collect();
+            // the marks cover the offending text exactly (a trailing blank is tolerated)
+            let fits = if underlined.is_empty() { run == 1 } else { wanted.trim_end() == underlined };
+            if fits {
+                return true;
+            }
+        }
+    }
+    false
+}
+
+/// Checks a bad-input report: exit code 2, `file:line:column:` with the sentence `says` (every
+/// fragment), the caret under the offending text, a help line, and no panic.
+fn assert_reported(run: &Run, file: &str, input: &str, place: At, says: &[&str]) {
+    assert_reported_at_one_of(run, file, input, &[place], says)
+}
+
+/// As `assert_reported`, accepting any one of several places.
+fn assert_reported_at_one_of(run: &Run, file: &str, input: &str, places: &[At], says: &[&str]) {
+    let stderr = &run.stderr;
+    assert_eq!(run.code, Some(2), "exit code 2 for bad input; stderr:\n{stderr}");
+    assert!(!stderr.contains("panicked"), "no panic:\n{stderr}");
+    assert!(run.stdout.is_empty(), "nothing on standard output for bad input:\n{}", run.stdout);
+    let first = stderr.lines().next().unwrap_or("");
+    assert!(first.starts_with("error: "), "the report starts with `error: `:\n{stderr}");
+    let found = places.iter().any(|p| {
+        let location = format!("{file}:{}:{}: ", p.line, p.column);
+        let source_line = input.lines().nth(p.line - 1).unwrap_or("");
+        first.contains(&location) && shows_mark(stderr, p.line, source_line, p.column, p.underlined, '^')
+    });
+    assert!(
+        found,
+        "the report names {file} with line:column and puts a caret under {:?}:\n{stderr}",
+        places.iter().map(|p| (p.line, p.column, p.underlined)).collect::<Vec<_>>()
+    );
+    for fragment in says {
+        assert!(first.contains(fragment), "the sentence says {fragment:?}:\n{stderr}");
+    }
+    let sentence = first.rsplit(": ").next().unwrap_or("");
+    assert!(sentence.split_whitespace().count() >= 3, "a sentence, not a code:\n{stderr}");
+    assert!(stderr.contains("help: "), "the report says how to fix it:\n{stderr}");
+}
+
+#[test]
+fn misspelt_keyword_is_a_parse_error() {
+    let input = "orbitals a b\nstat S = | a b |\nenergy S\n";
+    let run = derive("misspelt.sf", input);
+    assert_reported(
+        &run,
+        "misspelt.sf",
+        input,
+        at(2, 1, "s"),
+        &["cannot be read", "expected a statement", "`state`"],
+    );
+}
+
+#[test]
+fn missing_bar_is_a_parse_error() {
+    let input = "orbitals a b\ndet D = | a b\nenergy D\n";
+    let run = derive("bar.sf", input);
+    assert_reported(&run, "bar.sf", input, at(2, 14, ""), &["cannot be read", "expected"]);
+}
+
+#[test]
+fn missing_bar_is_named_in_the_parse_error() {
+    let input = "orbitals a b\ndet D = | a b\nenergy D\n";
+    let run = derive("bar.sf", input);
+    assert_reported(&run, "bar.sf", input, at(2, 14, ""), &["`|`"]);
+    assert!(!run.stderr.contains("something else"), "{}", run.stderr);
+}
+
+#[test]
+fn undefined_name() {
+    let input = "orbitals a\nenergy | a c |\n";
+    let run = derive("undefined.sf", input);
+    assert_reported(&run, "undefined.sf", input, at(2, 12, "c"), &["`c` is not defined"]);
+
+    let input = "orbitals a\ndet D = | a |\nenergy S\n";
+    let run = derive("undefined_state.sf", input);
+    assert_reported(&run, "undefined_state.sf", input, at(3, 8, "S"), &["`S` is not defined"]);
+}
+
+#[test]
+fn name_of_the_wrong_kind() {
+    let input = "orbitals a\nenergy a\n";
+    let run = derive("kind.sf", input);
+    assert_reported(&run, "kind.sf", input, at(2, 8, "a"), &["`a` is an orbital", "determinant or state"]);
+}
+
+#[test]
+fn redefinition_shows_both_places() {
+    let input = "orbitals a b\nspace a\n";
+    let run = derive("twice.sf", input);
+    assert_reported(&run, "twice.sf", input, at(2, 7, "a"), &["`a` is defined twice"]);
+    assert!(run.stderr.contains("first defined here"), "{}", run.stderr);
+    assert!(
+        shows_mark(&run.stderr, 1, "orbitals a b", 10, "a", '-'),
+        "the first definition is marked:\n{}",
+        run.stderr
+    );
+
+    let input = "orbitals a b\ndet D = | a |\n\ndet D = | b |\n";
+    let run = derive("twice_det.sf", input);
+    assert_reported(&run, "twice_det.sf", input, at(4, 5, "D"), &["`D` is defined twice"]);
+    assert!(shows_mark(&run.stderr, 2, "det D = | a |", 5, "D", '-'), "{}", run.stderr);
+}
+
+#[test]
+fn pauli_violation_of_a_spin_orbital() {
+    let input = "orbitals a\nenergy | a a |\n";
+    let run = derive("pauli.sf", input);
+    assert_reported(&run, "pauli.sf", input, at(2, 12, "a"), &["spin orbital a is occupied twice", "Pauli"]);
+
+    let input = "orbitals a\ndet D = | a^2 a' |\n";
+    let run = derive("pauli_beta.sf", input);
+    assert_reported(&run, "pauli_beta.sf", input, at(2, 15, "a'"), &["spin orbital a' is occupied twice"]);
+}
+
+#[test]
+fn pauli_violation_of_a_closed_space() {
+    let input = "space core\nenergy | core^2 core^2 |\n";
+    let run = derive("pauli_core.sf", input);
+    assert_reported(&run, "pauli_core.sf", input, at(2, 17, "core^2"), &["`core` is closed twice", "Pauli"]);
+    assert!(run.stderr.contains("write `core^2` once"), "{}", run.stderr);
+}
+
+#[test]
+fn space_without_square() {
+    let input = "orbitals a\nspace core\nenergy | core a |\n";
+    let run = derive("square.sf", input);
+    assert_reported(&run, "square.sf", input, at(3, 10, "core"), &["`core`", "without `^2`"]);
+    assert!(run.stderr.contains("write `core^2`"), "{}", run.stderr);
+}
+
+#[test]
+fn empty_state() {
+    let input = "orbitals a b\ndet ab = | a b |\nstate X = ab - ab\nenergy X\n";
+    let run = derive("empty.sf", input);
+    // diagnosed where the state is defined, or where it is first used
+    assert_reported_at_one_of(
+        &run,
+        "empty.sf",
+        input,
+        &[at(3, 11, "ab - ab"), at(4, 1, "energy X")],
+        &["`X`", "no determinant left"],
+    );
+}
+
+#[test]
+fn empty_state_is_reported_at_its_definition() {
+    let input = "orbitals a b\ndet ab = | a b |\nstate X = ab - ab\n";
+    let run = derive("empty.sf", input);
+    assert_reported(&run, "empty.sf", input, at(3, 11, "ab - ab"), &["`X`", "no determinant left"]);
+}
+
+#[test]
+fn zero_norm() {
+    // | b a | = -| a b |: the two determinants cancel only once they are put in one order
+    let input = "orbitals a b\nstate X = | a b | + | b a |\nenergy X\n";
+    let run = derive("zero.sf", input);
+    assert_reported_at_one_of(
+        &run,
+        "zero.sf",
+        input,
+        &[at(2, 11, "| a b | + | b a |"), at(3, 1, "energy X")],
+        &["`X`"],
+    );
+    let first = run.stderr.lines().next().unwrap_or("");
+    assert!(first.contains("zero norm") || first.contains("no determinant left"), "{}", run.stderr);
+}
+
+#[test]
+fn square_root_of_a_negative_number() {
+    let input = "orbitals a b\nstate X = sqrt(-2) | a b |\n";
+    let run = derive("sqrt.sf", input);
+    assert_reported(&run, "sqrt.sf", input, at(2, 16, "-2"), &["coefficient is not exact", "negative"]);
+}
+
+#[test]
+fn sum_of_different_roots_as_a_coefficient() {
+    let input = "orbitals a b\nstate X = (1 + sqrt(2)) | a b |\n";
+    let run = derive("sum.sf", input);
+    assert_reported(
+        &run,
+        "sum.sf",
+        input,
+        at(2, 12, "1 + sqrt(2)"),
+        &["coefficient is not exact", "sum of different square roots"],
+    );
+}
+
+#[test]
+fn division_by_zero() {
+    let input = "orbitals a b\nstate X = | a b |/0\n";
+    let run = derive("zero_div.sf", input);
+    assert_reported(&run, "zero_div.sf", input, at(2, 19, "0"), &["divides by zero"]);
+
+    let input = "orbitals a b\nstate X = 1/(2 - 2) | a b |\n";
+    let run = derive("zero_div2.sf", input);
+    assert_reported(&run, "zero_div2.sf", input, at(2, 13, "(2 - 2)"), &["divides by zero"]);
+}
+
+#[test]
+fn number_standing_alone_as_a_state() {
+    let input = "orbitals a b\nstate X = 3\n";
+    let run = derive("alone.sf", input);
+    assert_reported(&run, "alone.sf", input, at(2, 11, "3"), &["number stands alone"]);
+
+    let input = "orbitals a b\nstate X = | a b | + 2\n";
+    let run = derive("alone_sum.sf", input);
+    assert_reported(&run, "alone_sum.sf", input, at(2, 21, "2"), &["number stands alone"]);
+}
+
+#[test]
+fn two_states_multiplied() {
+    let input = "orbitals a b\ndet A = | a |\ndet B = | b |\nstate X = A B\n";
+    let run = derive("times.sf", input);
+    assert_reported(&run, "times.sf", input, at(4, 13, "B"), &["two states are multiplied"]);
+
+    let input = "orbitals a b\ndet A = | a |\ndet B = | b |\nstate X = A * B\n";
+    let run = derive("times_star.sf", input);
+    assert_reported(&run, "times_star.sf", input, at(4, 15, "B"), &["two states are multiplied"]);
+}
+
+#[test]
+fn excitation_with_unequal_lengths() {
+    let input = "orbitals a b c\ndet R = | a a' |\nenergy R[a -> b c]\n";
+    let run = derive("lengths.sf", input);
+    assert_reported(&run, "lengths.sf", input, at(3, 9, "[a -> b c]"), &["removes 1 electron(s) but adds 2"]);
+}
+
+#[test]
+fn excitation_removing_an_unoccupied_spin_orbital() {
+    let input = "orbitals a b c\ndet R = | a a' |\nenergy R[b -> c]\n";
+    let run = derive("unoccupied.sf", input);
+    assert_reported_at_one_of(
+        &run,
+        "unoccupied.sf",
+        input,
+        &[at(3, 9, "[b -> c]"), at(3, 1, "energy R[b -> c]")],
+        &["b is not occupied"],
+    );
+}
+
+#[test]
+fn excitation_removing_an_unoccupied_spin_orbital_is_reported_at_its_definition() {
+    let input = "orbitals a b c\ndet R = | a a' |\nstate X = R[b -> c]\n";
+    let run = derive("unoccupied.sf", input);
+    assert_reported(&run, "unoccupied.sf", input, at(3, 11, "R[b -> c]"), &["b is not occupied"]);
+}
+
+#[test]
+fn different_closed_spaces_in_bra_and_ket() {
+    let input = "orbitals a\nspace core\nspace val\nelement | core^2 a | | val^2 a |\n";
+    let run = derive("closed.sf", input);
+    assert_reported(
+        &run,
+        "closed.sf",
+        input,
+        at(4, 1, "element | core^2 a | | val^2 a |"),
+        &["different closed spaces", "{core}", "{val}"],
+    );
+
+    let input = "orbitals a\nspace core\noverlap | core^2 a | | a |\n";
+    let run = derive("closed_none.sf", input);
+    assert_reported(
+        &run,
+        "closed_none.sf",
+        input,
+        at(3, 1, "overlap | core^2 a | | a |"),
+        &["different closed spaces", "{core}", "none"],
+    );
+}
+
+#[test]
+fn different_electron_counts_in_bra_and_ket() {
+    let input = "orbitals a b\nelement | a b | | a |\n";
+    let run = derive("count.sf", input);
+    assert_reported(
+        &run,
+        "count.sf",
+        input,
+        at(2, 1, "element | a b | | a |"),
+        &["different numbers of explicit electrons", "2", "1"],
+    );
+}
+
+#[test]
+fn wrong_number_of_operands() {
+    let input = "orbitals a b\ndet X = | a |\nelement X\n";
+    let run = derive("arity.sf", input);
+    assert_reported(
+        &run,
+        "arity.sf",
+        input,
+        at(3, 1, "element X"),
+        &["`element` takes 2 state(s), but 1 is given"],
+    );
+
+    let input = "orbitals a b\ndet X = | a |\nenergy X X\n";
+    let run = derive("arity_energy.sf", input);
+    assert_reported(
+        &run,
+        "arity_energy.sf",
+        input,
+        at(3, 1, "energy X X"),
+        &["`energy` takes 1 state(s), but 2 are given"],
+    );
+}
+
+#[test]
+fn missing_input_file() {
+    let dir = tempfile::tempdir().unwrap();
+    let run = spinfold(dir.path(), &["derive", "missing.sf"]);
+    assert_eq!(run.code, Some(2), "{}", run.stderr);
+    assert!(run.stderr.starts_with("error: cannot use `missing.sf`: "), "{}", run.stderr);
+    assert!(!run.stderr.contains("panicked"), "{}", run.stderr);
+    assert!(run.stdout.is_empty());
+}
+
+fn derive_stdin(text: &str) -> Run {
+    let mut child = Command::new(env!("CARGO_BIN_EXE_spinfold"))
+        .args(["derive", "-", "--ascii"])
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("the binary runs");
+    child.stdin.take().unwrap().write_all(text.as_bytes()).unwrap();
+    child.wait_with_output().expect("the binary finishes").into()
+}
+
+#[test]
+fn standard_input_with_dash() {
+    let run = derive_stdin("orbitals a b\nenergy | a b' |\n");
+    assert_eq!(run.code, Some(0), "{}", run.stderr);
+    assert!(run.stdout.contains("= h_aa + h_bb + J_ab"), "{}", run.stdout);
+
+    let input = "orbitals a\nenergy | a b |\n";
+    let run = derive_stdin(input);
+    assert_reported(&run, "<stdin>", input, at(2, 12, "b"), &["`b` is not defined"]);
+}
+
+const GOOD: &str = "orbitals a b\nspace core\ndet ab = | core^2 a b' |\ndet ba = | core^2 a' b |\n\
+                    state S = (ab - ba)/sqrt(2)\nenergy S\nelement ab ba\n";
+
+#[test]
+fn output_file_is_not_created_by_a_failing_run() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("bad.sf"), "orbitals a\nenergy | a a |\n").unwrap();
+    let run = spinfold(dir.path(), &["derive", "bad.sf", "-o", "out.txt"]);
+    assert_eq!(run.code, Some(2), "{}", run.stderr);
+    let left: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    assert_eq!(left, vec!["bad.sf".to_string()], "nothing but the input is left behind");
+
+    // an existing file is left as it was
+    std::fs::write(dir.path().join("out.txt"), "earlier results\n").unwrap();
+    let run = spinfold(dir.path(), &["derive", "bad.sf", "-o", "out.txt"]);
+    assert_eq!(run.code, Some(2), "{}", run.stderr);
+    assert_eq!(std::fs::read_to_string(dir.path().join("out.txt")).unwrap(), "earlier results\n");
+}
+
+#[test]
+fn output_file_is_written_whole_on_success() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("good.sf"), GOOD).unwrap();
+    for to in ["text", "latex", "json"] {
+        let printed = spinfold(dir.path(), &["derive", "good.sf", "--to", to]);
+        assert_eq!(printed.code, Some(0), "{}", printed.stderr);
+        assert!(!printed.stdout.is_empty());
+        std::fs::write(dir.path().join("out.txt"), "earlier results\n").unwrap();
+        let written = spinfold(dir.path(), &["derive", "good.sf", "--to", to, "-o", "out.txt"]);
+        assert_eq!(written.code, Some(0), "{}", written.stderr);
+        assert!(written.stdout.is_empty(), "with -o nothing goes to standard output");
+        let file = std::fs::read_to_string(dir.path().join("out.txt")).unwrap();
+        assert_eq!(file, printed.stdout, "the file holds exactly what would be printed ({to})");
+    }
+    let mut left: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    left.sort();
+    assert_eq!(left, vec!["good.sf".to_string(), "out.txt".to_string()], "no temporary file is left");
+}

@@ -127,6 +127,41 @@ pub fn apply_hamiltonian(v: &Vector, ints: &dyn Integrals) -> Vector {
     out
 }
 
+/// S²|v> = (S₋S₊ + S_z² + S_z)|v>, with S₊ = Σ_p a+(p α) a(p β).
+pub fn apply_s_squared(v: &Vector) -> Vector {
+    let mut out = Vector::new();
+    for (&det, &amp) in v {
+        let alpha = (det & ALPHA_BITS).count_ones() as f64;
+        let beta = (det & !ALPHA_BITS).count_ones() as f64;
+        let sz = (alpha - beta) / 2.0;
+        *out.entry(det).or_insert(0.0) += amp * (sz * sz + sz);
+        for q in 0..MAX_ORBITALS as u32 {
+            for p in 0..MAX_ORBITALS as u32 {
+                if let Some((sign, d)) =
+                    apply(det, &[(true, 2 * p + 1), (false, 2 * p), (true, 2 * q), (false, 2 * q + 1)])
+                {
+                    *out.entry(d).or_insert(0.0) += amp * sign;
+                }
+            }
+        }
+    }
+    out
+}
+
+/// <v|S_z|v> / <v|v>.
+pub fn s_z(v: &Vector) -> f64 {
+    let weighted: f64 = v
+        .iter()
+        .map(|(&d, &x)| {
+            x * x * ((d & ALPHA_BITS).count_ones() as f64 - (d & !ALPHA_BITS).count_ones() as f64) / 2.0
+        })
+        .sum();
+    weighted / dot(v, v)
+}
+
+/// The bits of alpha spin orbitals.
+const ALPHA_BITS: u128 = 0x5555_5555_5555_5555_5555_5555_5555_5555;
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -10,6 +10,7 @@ use crate::fock::fock_form;
 use crate::orbital::{Orb, SpaceId, SpaceSet};
 use crate::program::{Occupant, Program, Request, RequestKind, State};
 use crate::slater_condon;
+use crate::spin_operator::spin_values;
 use std::collections::{BTreeMap, BTreeSet};
 
 /// How derivations are carried out.
@@ -41,6 +42,8 @@ pub struct Derivation {
     pub value: Expr,
     /// <bra|ket>, the factor of the constant (nuclear repulsion) energy.
     pub overlap: Expr,
+    /// For spin requests <S_z> (the value is <S²>); zero otherwise.
+    pub s_z: Expr,
     /// Conditions under which the expression does not apply, in words.
     pub notes: Vec<String>,
     /// Generic indices that the result depends on, in declaration order.
@@ -51,8 +54,7 @@ pub struct Derivation {
     pub distinct: bool,
 }
 
-/// A state in one case: normalized determinants with their coefficients.
-type CaseState = BTreeMap<CaseDet, Exact>;
+use crate::spin_operator::CaseState;
 
 fn used_indices(
     program: &Program,
@@ -212,7 +214,7 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
     let (used, closed_spaces, all_indices) = used_indices(program, &[&request.bra, &request.ket]);
     let cases = coincidence::cases(&used, &closed_spaces, options.distinct);
     let mut notes = vec![];
-    let mut parts: Vec<(Case, Expr, Expr)> = vec![];
+    let mut parts: Vec<(Case, Vec<Expr>)> = vec![];
     let mut closed_set = SpaceSet::default();
     for (n, case) in cases.iter().enumerate() {
         let finest = n == 0;
@@ -246,53 +248,78 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
             })
             .unwrap_or_default();
         let s = Expr::constant(overlap(&bra, &ket));
-        let value = match request.kind {
-            RequestKind::Overlap => Some(s.clone()),
-            RequestKind::Element => Some(hamiltonian(&bra, &ket, &closed)),
-            RequestKind::Energy => {
-                let norm = overlap(&bra, &bra);
-                match norm.inverse() {
-                    Some(inverse) => Some(hamiltonian(&bra, &bra, &closed).scaled(&inverse)),
-                    None if finest => {
-                        return Err(Error::at(
-                            ErrorKind::ZeroNorm { state: request.bra_text.clone() },
-                            &request.span,
-                        ));
-                    }
-                    None => {
-                        notes.push(format!(
-                            "the state vanishes when {}; the expression does not apply there",
-                            case_text(program, case)
-                        ));
-                        None
-                    }
+        let vanishes = |notes: &mut Vec<String>| {
+            notes.push(format!(
+                "the state vanishes when {}; the expression does not apply there",
+                case_text(program, case)
+            ));
+        };
+        let zero_norm = || Error::at(ErrorKind::ZeroNorm { state: request.bra_text.clone() }, &request.span);
+        // the value, the overlap and (for spin requests) <S_z> of this case
+        let channels: [Option<Expr>; 3] = match request.kind {
+            RequestKind::Overlap => [Some(s.clone()), Some(s), None],
+            RequestKind::Element => [Some(hamiltonian(&bra, &ket, &closed)), Some(s), None],
+            RequestKind::Energy => match overlap(&bra, &bra).inverse() {
+                Some(inverse) => [Some(hamiltonian(&bra, &bra, &closed).scaled(&inverse)), Some(s), None],
+                None if finest => return Err(zero_norm()),
+                None => {
+                    vanishes(&mut notes);
+                    [None, Some(s), None]
                 }
-            }
+            },
+            RequestKind::Spin => match spin_values(&bra) {
+                Some(v) => {
+                    if !v.eigen_s || !v.eigen_m {
+                        let which = match (v.eigen_s, v.eigen_m) {
+                            (false, false) => "S² or S_z",
+                            (false, true) => "S²",
+                            _ => "S_z",
+                        };
+                        let place = if finest {
+                            String::new()
+                        } else {
+                            format!(" when {}", case_text(program, case))
+                        };
+                        notes.push(format!(
+                            "warning: `{}` is not an eigenfunction of {which}{place}: <S^2> = {}, <S_z> = {}",
+                            request.bra_text, v.s_squared, v.s_z
+                        ));
+                    }
+                    [Some(Expr::constant(v.s_squared)), Some(s), Some(Expr::constant(v.s_z))]
+                }
+                None if finest => return Err(zero_norm()),
+                None => {
+                    vanishes(&mut notes);
+                    [None, Some(s), None]
+                }
+            },
         };
         // Möbius inversion over the coincidence lattice: what this case adds to the finer ones
-        let mut finer_value = Expr::zero();
-        let mut finer_overlap = Expr::zero();
-        for (other, v, o) in &parts {
-            if other.refines(case) {
-                finer_value = finer_value.plus(&v.substitute(&|x| case.orb(x)));
-                finer_overlap = finer_overlap.plus(&o.substitute(&|x| case.orb(x)));
-            }
-        }
-        let own_value = value.map_or(Expr::zero(), |v| v.minus(&finer_value));
-        let own_overlap = s.minus(&finer_overlap);
-        parts.push((case.clone(), own_value, own_overlap));
+        let own: Vec<Expr> = (0..3)
+            .map(|c| {
+                let finer = parts
+                    .iter()
+                    .filter(|(other, _)| other.refines(case))
+                    .fold(Expr::zero(), |acc, (_, own)| acc.plus(&own[c].substitute(&|x| case.orb(x))));
+                channels[c].as_ref().map_or(Expr::zero(), |v| v.minus(&finer))
+            })
+            .collect();
+        parts.push((case.clone(), own));
     }
-    let mut value = Expr::zero();
-    let mut overlap_expr = Expr::zero();
-    for (case, v, o) in &parts {
-        value = value.plus(&v.with_deltas(&case.deltas()));
-        overlap_expr = overlap_expr.plus(&o.with_deltas(&case.deltas()));
-    }
+    let assembled: Vec<Expr> = (0..3)
+        .map(|c| {
+            parts.iter().fold(Expr::zero(), |acc, (case, own)| acc.plus(&own[c].with_deltas(&case.deltas())))
+        })
+        .collect();
+    let [mut value, mut overlap_expr, s_z] = <[Expr; 3]>::try_from(assembled).expect("three channels");
     if options.fock {
         value = fock_form(&value, closed_set);
     }
-    if request.kind == RequestKind::Energy {
-        overlap_expr = Expr::constant(Exact::one());
+    // the factor of the constant energy: 1 for an energy, none for a spin expectation value
+    match request.kind {
+        RequestKind::Energy => overlap_expr = Expr::constant(Exact::one()),
+        RequestKind::Spin => overlap_expr = Expr::zero(),
+        _ => {}
     }
     Ok(Derivation {
         kind: request.kind,
@@ -301,6 +328,7 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         ket: request.ket_text.clone(),
         value,
         overlap: overlap_expr,
+        s_z,
         notes,
         free_indices: all_indices.into_iter().collect(),
         closed: closed_set,

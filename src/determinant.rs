@@ -23,14 +23,14 @@ pub enum Vanishing {
 }
 
 /// Applies a(x) to an ordered list of creators: the sign is (−1)^(position of x).
-fn annihilate(list: &mut Vec<SpinOrbital>, x: SpinOrbital) -> Result<i32, Vanishing> {
+pub(crate) fn annihilate(list: &mut Vec<SpinOrbital>, x: SpinOrbital) -> Result<i32, Vanishing> {
     let position = list.iter().position(|&y| y == x).ok_or(Vanishing::Empty(x))?;
     list.remove(position);
     Ok(if position % 2 == 0 { 1 } else { -1 })
 }
 
 /// Applies a+(y): it goes in front, so no sign.
-fn create(list: &mut Vec<SpinOrbital>, y: SpinOrbital) -> Result<(), Vanishing> {
+pub(crate) fn create(list: &mut Vec<SpinOrbital>, y: SpinOrbital) -> Result<(), Vanishing> {
     if list.contains(&y) {
         return Err(Vanishing::Pauli(y));
     }

@@ -72,6 +72,7 @@ pub enum ErrorKind {
     ClosedSpaces { bra: String, ket: String },
     RequestArity { kind: String, wanted: usize, got: usize },
     TooLarge { what: String, limit: usize },
+    Coupling { why: String },
     Io { path: String, why: String },
     IntegralFile { path: String, line: usize, why: String },
     Binding { why: String },
@@ -165,6 +166,7 @@ impl Error {
                 )
             }
             TooLarge { what, limit } => format!("{what} exceeds the limit of {limit}"),
+            Coupling { why } => format!("this spin coupling cannot be built: {why}"),
             Io { path, why } => format!("cannot use `{path}`: {why}"),
             IntegralFile { path, line, why } => format!("{path}:{line}: {why}"),
             Binding { why } => why.clone(),
@@ -199,6 +201,7 @@ impl Error {
             ElectronCount { .. } => "the Hamiltonian conserves the number of electrons: every determinant of the bra and the ket must have the same count".into(),
             ClosedSpaces { .. } => "write the same closed spaces in every determinant of the bra and the ket; their sizes are unknown".into(),
             RequestArity { .. } => "write `energy X`, `element X Y` or `overlap X Y`".into(),
+            Coupling { .. } => "write `csf X = | core^2 p q r | S=1/2 path=1/2,0,1/2`: the intermediate spin after each open shell, ending at S".into(),
             TooLarge { .. } => "raise the limit with --max-determinants if the machine has the memory".into(),
             IntegralFile { .. } => "the integral file must be in the integral-dump text format described in README.md".into(),
             _ => return None,

@@ -66,3 +66,5 @@ pub use pipeline::{
 };
 pub use program::{Program, Request, RequestKind, State};
 pub use verify::{Comparison, Report, TOLERANCE, compare, verify};
+mod coupling;
+mod spin_operator;

@@ -1,6 +1,7 @@
 //! Reads the input language (grammar/spinfold.pest) and resolves names into a `Program`,
 //! checking every definition as it goes so that errors point at the text that caused them.
 
+use crate::coupling::{Twice, expand, half, path_problem, paths};
 use crate::error::{Error, ErrorKind, Result, Source, Span};
 use crate::exact::Exact;
 use crate::orbital::{Orb, Spin, SpinOrbital};
@@ -25,6 +26,8 @@ enum Symbol {
     Space(u32),
     Index(u32),
     State(u32),
+    /// `csfs X`: the coupled states X.1 .. X.count
+    Family(u32),
 }
 
 /// A piece of a state expression: either a number or a state.
@@ -35,6 +38,11 @@ enum Value {
 
 /// Parses an input text, reported under `name` in errors.
 pub fn parse(name: &str, text: &str) -> Result<Program> {
+    parse_with(name, text, Limits::default())
+}
+
+/// Parses with explicit limits.
+pub fn parse_with(name: &str, text: &str, limits: Limits) -> Result<Program> {
     let source = Source::new(name, text);
     let mut pairs = Grammar::parse(Rule::file, text).map_err(|e| syntax_error(&source, e))?;
     let file = pairs.next().expect("the file rule always matches once");
@@ -48,6 +56,7 @@ pub fn parse(name: &str, text: &str) -> Result<Program> {
             requests: vec![],
         },
         symbols: HashMap::new(),
+        limits,
     };
     for statement in file.into_inner() {
         resolver.statement(statement)?;
@@ -68,8 +77,16 @@ fn describe(rule: &Rule) -> &'static str {
         Rule::EOI => "the end of the input",
         Rule::add_op | Rule::sign => "`+` or `-`",
         Rule::mul_op => "`*` or `/`",
-        Rule::kw_orbitals | Rule::kw_space | Rule::kw_det | Rule::kw_state | Rule::request_kind => {
-            "a statement (`orbitals`, `space`, `det`, `state`, `energy`, `element`, `overlap`)"
+        Rule::reference => "a state name",
+        Rule::csf_option | Rule::option_name => "`S=`, `M=` or `path=`",
+        Rule::spin_value => "a spin such as 1/2",
+        Rule::kw_orbitals
+        | Rule::kw_space
+        | Rule::kw_det
+        | Rule::kw_state
+        | Rule::kw_csf
+        | Rule::request_kind => {
+            "a statement (`orbitals`, `space`, `det`, `state`, `csf`, `csfs`, `energy`, `element`, `overlap`, `spin`)"
         }
         _ => "something else",
     }
@@ -103,6 +120,20 @@ fn syntax_error(source: &Arc<Source>, error: pest::error::Error<Rule>) -> Error 
 struct Resolver {
     program: Program,
     symbols: HashMap<String, (Symbol, Span)>,
+    limits: Limits,
+}
+
+/// Limits that keep a run within memory.
+#[derive(Clone, Copy, Debug)]
+pub struct Limits {
+    /// The largest number of determinants a coupled state may expand to.
+    pub max_determinants: usize,
+}
+
+impl Default for Limits {
+    fn default() -> Limits {
+        Limits { max_determinants: 200_000 }
+    }
 }
 
 impl Resolver {
@@ -141,6 +172,7 @@ impl Resolver {
             Symbol::Index(_) => "a generic index",
             Symbol::State(k) if self.program.states[k as usize].is_determinant => "a determinant",
             Symbol::State(_) => "a state",
+            Symbol::Family(_) => "a family of coupled states",
         };
         Error::at(
             ErrorKind::WrongKind { name: pair.as_str().into(), is: is.into(), wanted: wanted.into() },
@@ -214,14 +246,16 @@ impl Resolver {
                     span: self.span(&name),
                 });
             }
+            Rule::csf_stmt => self.csf(span, inner)?,
             Rule::request_stmt => {
                 let keyword = inner.next().expect("grammar: request keyword");
                 let kind = match keyword.as_str() {
                     "energy" => RequestKind::Energy,
                     "element" => RequestKind::Element,
+                    "spin" => RequestKind::Spin,
                     _ => RequestKind::Overlap,
                 };
-                let wanted = if kind == RequestKind::Energy { 1 } else { 2 };
+                let wanted = if matches!(kind, RequestKind::Energy | RequestKind::Spin) { 1 } else { 2 };
                 let operands: Vec<Pair<Rule>> = inner.collect();
                 if operands.len() != wanted {
                     return Err(Error::at(
@@ -254,6 +288,162 @@ impl Resolver {
             }
             Rule::EOI => {}
             other => unreachable!("grammar: unexpected statement {other:?}"),
+        }
+        Ok(())
+    }
+
+    /// `csf X = | ... | S=.. M=.. path=..` and `csfs X = | ... | S=.. M=..`.
+    fn csf<'a>(&mut self, span: Span, mut inner: impl Iterator<Item = Pair<'a, Rule>>) -> Result<()> {
+        let keyword = inner.next().expect("grammar: csf keyword");
+        let family = keyword.as_str() == "csfs";
+        let name = inner.next().expect("grammar: csf name");
+        let det = inner.next().expect("grammar: csf determinant");
+        let det_span = self.span(&det);
+        let (mut s, mut m, mut path): (Option<Twice>, Option<Twice>, Option<(Vec<Twice>, Span)>) =
+            (None, None, None);
+        for option in inner {
+            let option_span = self.span(&option);
+            let mut parts = option.into_inner();
+            let key = parts.next().expect("grammar: option name");
+            let values = parts
+                .map(|v| {
+                    twice(v.as_str()).ok_or_else(|| {
+                        coupling_error(
+                            &self.span(&v),
+                            format!("`{}` is not a whole or half-integer spin", v.as_str()),
+                        )
+                    })
+                })
+                .collect::<Result<Vec<Twice>>>()?;
+            let single = || {
+                if values.len() == 1 {
+                    Ok(values[0])
+                } else {
+                    Err(coupling_error(&option_span, format!("`{}` takes one value", key.as_str())))
+                }
+            };
+            match key.as_str() {
+                "S" => s = Some(single()?),
+                "M" => m = Some(single()?),
+                _ if family => {
+                    return Err(coupling_error(
+                        &option_span,
+                        "`csfs` makes every path itself: leave out `path=`".into(),
+                    ));
+                }
+                _ => path = Some((values.clone(), option_span.clone())),
+            }
+        }
+        let occupants = match self.inline_det(det)? {
+            State { terms } => {
+                terms.into_iter().next().expect("an inline determinant is one term").1.occupants
+            }
+        };
+        // open shells: the singly occupied orbitals, in the order written
+        let mut open = vec![];
+        for (k, occupant) in occupants.iter().enumerate() {
+            if let Occupant::Electron(so) = occupant {
+                let doubled = occupants
+                    .iter()
+                    .filter(|o| matches!(o, Occupant::Electron(x) if x.orb == so.orb))
+                    .count()
+                    == 2;
+                if doubled {
+                    continue;
+                }
+                if so.spin == Spin::Beta {
+                    return Err(coupling_error(
+                        &det_span,
+                        format!(
+                            "`{}` carries a spin mark; in a csf the coupling sets the spins: write `{}`",
+                            self.program.spin_orbital_name(*so),
+                            self.program.orb_name(so.orb)
+                        ),
+                    ));
+                }
+                open.push(k);
+            }
+        }
+        let n = open.len();
+        let s = s.ok_or_else(|| coupling_error(&span, "a csf needs its total spin: add `S=...`".into()))?;
+        let m = m.unwrap_or(s);
+        if s < 0 || s > n as i64 || (s - n as i64) % 2 != 0 {
+            return Err(coupling_error(&span, format!("{n} open shell(s) cannot couple to S = {}", half(s))));
+        }
+        if m.abs() > s || (m - s) % 2 != 0 {
+            return Err(coupling_error(
+                &span,
+                format!("M = {} is not one of -S, -S+1, ..., S for S = {}", half(m), half(s)),
+            ));
+        }
+        let chosen: Vec<Vec<Twice>> = match (&path, family) {
+            (Some((p, at)), _) => {
+                if let Some(why) = path_problem(p, n, s) {
+                    return Err(coupling_error(at, why));
+                }
+                vec![p.clone()]
+            }
+            (None, true) => paths(n, s),
+            (None, false) => {
+                let all = paths(n, s);
+                if all.len() != 1 {
+                    return Err(coupling_error(
+                        &span,
+                        format!(
+                            "{n} open shells couple to S = {} in {} ways: give `path=` or use `csfs`",
+                            half(s),
+                            all.len()
+                        ),
+                    ));
+                }
+                all
+            }
+        };
+        let count = binomial(n, ((n as i64 + m) / 2) as usize);
+        if count > self.limits.max_determinants {
+            return Err(Error::at(
+                ErrorKind::TooLarge {
+                    what: format!("this coupled state, with up to {count} determinants,"),
+                    limit: self.limits.max_determinants,
+                },
+                &span,
+            ));
+        }
+        let build = |p: &[Twice]| State {
+            terms: expand(p, m)
+                .into_iter()
+                .map(|(spins, coefficient)| {
+                    let mut occ = occupants.clone();
+                    for (&k, alpha) in open.iter().zip(spins) {
+                        if let Occupant::Electron(so) = &mut occ[k] {
+                            so.spin = if alpha { Spin::Alpha } else { Spin::Beta };
+                        }
+                    }
+                    (coefficient, DetSpec { occupants: occ, excitations: vec![] })
+                })
+                .collect(),
+        };
+        if family {
+            self.declare(&name, Symbol::Family(chosen.len() as u32))?;
+        }
+        for (k, p) in chosen.iter().enumerate() {
+            let label =
+                if family { format!("{}.{}", name.as_str(), k + 1) } else { name.as_str().to_string() };
+            let state = build(p);
+            crate::derive::check_definition(&self.program, &state, &label, &span)?;
+            let id = self.program.states.len() as u32;
+            let name_span = self.span(&name);
+            if !family {
+                self.declare(&name, Symbol::State(id))?;
+            } else {
+                self.symbols.insert(label.clone(), (Symbol::State(id), name_span.clone()));
+            }
+            self.program.states.push(NamedState {
+                name: label,
+                state,
+                is_determinant: false,
+                span: name_span,
+            });
         }
         Ok(())
     }
@@ -333,6 +523,16 @@ impl Resolver {
                     Rule::inline_det => self.inline_det(head)?,
                     _ => match self.lookup(&head)? {
                         Symbol::State(k) => self.program.states[k as usize].state.clone(),
+                        Symbol::Family(count) => {
+                            return Err(Error::at(
+                                ErrorKind::WrongKind {
+                                    name: head.as_str().into(),
+                                    is: format!("a family of {count} coupled states"),
+                                    wanted: format!("one of them, `{0}.1` to `{0}.{count}`,", head.as_str()),
+                                },
+                                &self.span(&head),
+                            ));
+                        }
                         other => {
                             return Err(self.wrong_kind(&head, other, "a determinant or state"));
                         }
@@ -453,6 +653,26 @@ impl Resolver {
 /// Source text as a label: a trailing comment cut off, blanks trimmed.
 fn without_comment(text: &str) -> String {
     text.split('#').next().unwrap_or("").trim().to_string()
+}
+
+fn coupling_error(span: &Span, why: String) -> Error {
+    Error::at(ErrorKind::Coupling { why }, span)
+}
+
+/// "1/2" → 1, "3" → 6: a spin value as twice itself, if it is a whole or half integer.
+fn twice(text: &str) -> Option<Twice> {
+    match text.split_once('/') {
+        Some((num, "2")) => num.parse().ok(),
+        Some(_) => None,
+        None => text.parse::<i64>().ok().map(|v| 2 * v),
+    }
+}
+
+fn binomial(n: usize, k: usize) -> usize {
+    if k > n {
+        return 0;
+    }
+    (0..k.min(n - k)).fold(1usize, |acc, i| acc.saturating_mul(n - i) / (i + 1))
 }
 
 fn decimal(text: &str) -> Exact {

@@ -85,6 +85,7 @@ pub enum RequestKind {
     Energy,
     Element,
     Overlap,
+    Spin,
 }
 
 impl RequestKind {
@@ -93,6 +94,7 @@ impl RequestKind {
             RequestKind::Energy => "energy",
             RequestKind::Element => "element",
             RequestKind::Overlap => "overlap",
+            RequestKind::Spin => "spin",
         }
     }
 }

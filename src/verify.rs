@@ -133,30 +133,33 @@ pub fn compare(
     let bra = brute_force::state_vector(&request.bra, binding);
     let ket = brute_force::state_vector(&request.ket, binding);
     let overlap = brute_force::dot(&bra, &ket);
-    let expected = match request.kind {
-        RequestKind::Overlap => overlap,
-        RequestKind::Element => brute_force::dot(&bra, &brute_force::apply_hamiltonian(&ket, ints)),
+    let scale: f64 = request.bra.terms.iter().map(|(c, _)| c.to_f64().powi(2)).sum();
+    // "vanishes" relative to the size of the coefficients, not in absolute terms
+    let norm = brute_force::dot(&bra, &bra);
+    let vanishes = norm.abs() < 1e-12 * scale;
+    let (expected, second) = match request.kind {
+        RequestKind::Overlap => (overlap, None),
+        RequestKind::Element => (
+            brute_force::dot(&bra, &brute_force::apply_hamiltonian(&ket, ints)),
+            Some(("overlap", overlap, &derivation.overlap)),
+        ),
+        RequestKind::Energy if vanishes => return Ok(None),
         RequestKind::Energy => {
-            let norm = brute_force::dot(&bra, &bra);
-            // "vanishes" relative to the size of the coefficients, not in absolute terms
-            let scale: f64 = request.bra.terms.iter().map(|(c, _)| c.to_f64().powi(2)).sum();
-            if norm.abs() < 1e-12 * scale {
-                return Ok(None);
-            }
-            brute_force::dot(&bra, &brute_force::apply_hamiltonian(&bra, ints)) / norm
+            (brute_force::dot(&bra, &brute_force::apply_hamiltonian(&bra, ints)) / norm, None)
         }
+        RequestKind::Spin if vanishes => return Ok(None),
+        RequestKind::Spin => (
+            brute_force::dot(&bra, &brute_force::apply_s_squared(&bra)) / norm,
+            Some(("<S_z>", brute_force::s_z(&bra), &derivation.s_z)),
+        ),
     };
     let mut out = vec![Comparison {
         what: "value",
         brute_force: expected,
         derived: evaluate(&derivation.value, binding, ints),
     }];
-    if request.kind == RequestKind::Element {
-        out.push(Comparison {
-            what: "overlap",
-            brute_force: overlap,
-            derived: evaluate(&derivation.overlap, binding, ints),
-        });
+    if let Some((what, brute_force, expr)) = second {
+        out.push(Comparison { what, brute_force, derived: evaluate(expr, binding, ints) });
     }
     Ok(Some(out))
 }

@@ -27,6 +27,9 @@ struct RequestOut<'a> {
     ket: &'a str,
     terms: Vec<TermOut>,
     overlap: Vec<TermOut>,
+    /// For `spin` requests: <S_z>; `terms` then hold <S²>.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    s_z: Option<Vec<TermOut>>,
     /// The closed spaces that `fock` and `reference_energy` terms sum over.
     closed_spaces: Vec<String>,
     notes: &'a [String],
@@ -117,6 +120,7 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)]) -
                 ket: &d.ket,
                 terms: terms(&d.value, &namer),
                 overlap: terms(&d.overlap, &namer),
+                s_z: (d.kind == RequestKind::Spin).then(|| terms(&d.s_z, &namer)),
                 closed_spaces: d.closed.members().iter().map(|&s| namer.space(s).to_string()).collect(),
                 notes: &d.notes,
                 verification: report.as_ref(),

@@ -152,6 +152,7 @@ fn left_side(d: &Derivation) -> String {
         ),
         RequestKind::Element => format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle"),
         RequestKind::Overlap => format!(r"\langle {b} \vert {k} \rangle"),
+        RequestKind::Spin => format!(r"\langle \hat{{S}}^2 \rangle_{{{b}}}"),
     }
 }
 
@@ -193,6 +194,13 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], s
         out.push_str(&format!("% {}\n", verification_line(report.as_ref())));
         out.push_str("\\begin{align*}\n");
         out.push_str(&format!("  {}\n  {}\n", left_side(d), expression(&d.value, &namer)));
+        if d.kind == RequestKind::Spin {
+            out.push_str(&format!(
+                "  \\\\\n  \\langle \\hat{{S}}_z \\rangle_{{{}}}\n  {}\n",
+                label(&d.bra),
+                expression(&d.s_z, &namer)
+            ));
+        }
         if uses_fock(&d.value) {
             let over = d
                 .closed

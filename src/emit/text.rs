@@ -151,6 +151,7 @@ pub fn request_meaning(d: &Derivation) -> String {
         RequestKind::Energy => format!("<{bra}|H|{bra}> / <{bra}|{bra}>"),
         RequestKind::Element => format!("<{bra}|H|{ket}>"),
         RequestKind::Overlap => format!("<{bra}|{ket}>"),
+        RequestKind::Spin => format!("<S^2> and <S_z> of {bra}"),
     };
     if inline(&d.bra) {
         out.push_str(&format!(", {bra} = {}", d.bra));
@@ -171,8 +172,17 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], a
         }
         let namer = Namer::new(program, &[&d.value]);
         out.push_str(&format!("{}    {}\n", d.text, request_meaning(d)));
-        for line in expression_lines(&d.value, &namer, &style) {
-            out.push_str(&format!("  {line}\n"));
+        if d.kind == RequestKind::Spin {
+            for (label, expr) in [("<S^2>", &d.value), ("<S_z>", &d.s_z)] {
+                for (k, line) in expression_lines(expr, &namer, &style).iter().enumerate() {
+                    let lead = if k == 0 { label } else { "     " };
+                    out.push_str(&format!("  {lead} {line}\n"));
+                }
+            }
+        } else {
+            for line in expression_lines(&d.value, &namer, &style) {
+                out.push_str(&format!("  {line}\n"));
+            }
         }
         if uses_fock(&d.value) {
             let spaces: Vec<&str> = d.closed.members().iter().map(|&s| namer.space(s)).collect();
@@ -183,7 +193,8 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], a
             ));
         }
         for note in &d.notes {
-            out.push_str(&format!("  note: {note}\n"));
+            let note = if note.starts_with("warning:") { note.clone() } else { format!("note: {note}") };
+            out.push_str(&format!("  {note}\n"));
         }
         out.push_str(&format!("  {}\n", verification_line(report.as_ref())));
     }

@@ -1,0 +1,150 @@
+//! Spin eigenfunctions by genealogical coupling: the open shells, in the order written, are
+//! coupled one at a time along a path of intermediate spins, with Condon–Shortley signs.
+
+use crate::exact::Exact;
+use num_bigint::BigInt;
+use num_rational::BigRational;
+
+/// A spin quantum number as twice its value, so 1/2 is 1 and 3/2 is 3.
+pub type Twice = i64;
+
+/// One determinant of a coupled function: the spin of each open shell (true = alpha) and its
+/// coefficient.
+pub type SpinTerm = (Vec<bool>, Exact);
+
+fn root(num: i64, den: i64) -> Exact {
+    Exact::sqrt_of_rational(&BigRational::new(BigInt::from(num), BigInt::from(den)))
+        .expect("Clebsch–Gordan ratios are small and non-negative")
+}
+
+/// The Clebsch–Gordan coefficient <S', M - m; 1/2, m | S, M> for adding one electron of spin m
+/// (alpha: +1/2) to a function of spin S' = S ± 1/2, everything doubled.
+fn clebsch_gordan(s_new: Twice, s_old: Twice, m_new: Twice, alpha: bool) -> Exact {
+    if s_new > s_old {
+        // S = S' + 1/2: sqrt((S ± M)/(2S))
+        let num = if alpha { s_new + m_new } else { s_new - m_new };
+        root(num, 2 * s_new)
+    } else if alpha {
+        // S = S' - 1/2, m = +1/2: -sqrt((S - M + 1)/(2S + 2))
+        -root(s_new - m_new + 2, 2 * s_new + 4)
+    } else {
+        root(s_new + m_new + 2, 2 * s_new + 4)
+    }
+}
+
+/// Every admissible path of intermediate spins for n open shells ending at spin `s`, in
+/// increasing lexicographic order (lower intermediate spins first).
+pub fn paths(n: usize, s: Twice) -> Vec<Vec<Twice>> {
+    fn extend(prefix: &mut Vec<Twice>, n: usize, s: Twice, out: &mut Vec<Vec<Twice>>) {
+        let k = prefix.len();
+        if k == n {
+            if prefix.last().copied().unwrap_or(0) == s {
+                out.push(prefix.clone());
+            }
+            return;
+        }
+        let last = prefix.last().copied().unwrap_or(0);
+        for next in [last - 1, last + 1] {
+            // stay non-negative and able to come back to s with the shells left
+            if next >= 0 && (next - s).abs() <= (n - k - 1) as i64 {
+                prefix.push(next);
+                extend(prefix, n, s, out);
+                prefix.pop();
+            }
+        }
+    }
+    let mut out = vec![];
+    extend(&mut vec![], n, s, &mut out);
+    out
+}
+
+/// Checks a path for n shells ending at s; None if it is admissible, else why not.
+pub fn path_problem(path: &[Twice], n: usize, s: Twice) -> Option<String> {
+    if path.len() != n {
+        return Some(format!("the path has {} intermediate spins but there are {n} open shells", path.len()));
+    }
+    let mut last = 0;
+    for (k, &spin) in path.iter().enumerate() {
+        if spin < 0 || (spin - last).abs() != 1 {
+            return Some(format!(
+                "after open shell {} the spin goes from {} to {}: each shell changes it by 1/2",
+                k + 1,
+                half(last),
+                half(spin)
+            ));
+        }
+        last = spin;
+    }
+    (last != s).then(|| format!("the path ends at {} but S = {}", half(last), half(s)))
+}
+
+/// 2S → "S" as written (1 → "1/2", 2 → "1").
+pub fn half(twice: Twice) -> String {
+    if twice % 2 == 0 { (twice / 2).to_string() } else { format!("{twice}/2") }
+}
+
+/// The determinant expansion of the coupled function with path `path` and M = m/2: for each
+/// spin assignment with total M, the product of Clebsch–Gordan coefficients along the path.
+pub fn expand(path: &[Twice], m: Twice) -> Vec<SpinTerm> {
+    let n = path.len();
+    let mut out = vec![];
+    // depth-first over the shells, carrying M so far and the coefficient so far
+    let mut stack: Vec<(Vec<bool>, Twice, Exact)> = vec![(vec![], 0, Exact::one())];
+    while let Some((spins, m_so_far, coefficient)) = stack.pop() {
+        let k = spins.len();
+        if k == n {
+            if m_so_far == m {
+                out.push((spins, coefficient));
+            }
+            continue;
+        }
+        let s_old = if k == 0 { 0 } else { path[k - 1] };
+        for alpha in [false, true] {
+            let m_new = m_so_far + if alpha { 1 } else { -1 };
+            let left = (n - k - 1) as i64;
+            if m_new.abs() > path[k] || (m - m_new).abs() > left {
+                continue;
+            }
+            let factor = clebsch_gordan(path[k], s_old, m_new, alpha);
+            if factor.is_zero() {
+                continue;
+            }
+            let mut next = spins.clone();
+            next.push(alpha);
+            stack.push((next, m_new, &coefficient * &factor));
+        }
+    }
+    out.sort_by(|a, b| b.0.cmp(&a.0));
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn two_shell_singlet_is_alpha_beta_minus_beta_alpha() {
+        let terms = expand(&[1, 0], 0);
+        let half = Exact::sqrt_of_rational(&BigRational::new(1.into(), 2.into())).unwrap();
+        assert_eq!(terms, vec![(vec![true, false], half.clone()), (vec![false, true], -half)]);
+    }
+
+    #[test]
+    fn path_counts_follow_the_branching_diagram() {
+        assert_eq!(paths(3, 1).len(), 2);
+        assert_eq!(paths(4, 0).len(), 2);
+        assert_eq!(paths(6, 0).len(), 5);
+        assert_eq!(paths(3, 3), vec![vec![1, 2, 3]]);
+        assert_eq!(paths(3, 1), vec![vec![1, 0, 1], vec![1, 2, 1]]);
+    }
+
+    #[test]
+    fn coupled_functions_are_normalized() {
+        for path in paths(6, 2) {
+            for m in [-2, 0, 2] {
+                let norm = expand(&path, m).iter().fold(Exact::zero(), |acc, (_, c)| &acc + &(c * c));
+                assert_eq!(norm, Exact::one(), "{path:?} M={m}");
+            }
+        }
+    }
+}

@@ -1,0 +1,74 @@
+//! Total spin of a state: S² = S₋S₊ + S_z² + S_z applied to its determinants exactly, giving
+//! <S²>, <S_z> and whether the state is an eigenfunction of each.
+
+use crate::determinant::{CaseDet, annihilate, create, sort_with_sign};
+use crate::exact::Exact;
+use crate::orbital::{Spin, SpinOrbital};
+use std::collections::BTreeMap;
+
+pub type CaseState = BTreeMap<CaseDet, Exact>;
+
+/// S_z of one determinant: closed spaces contribute nothing.
+fn s_z(det: &CaseDet) -> Exact {
+    let alpha = det.electrons.iter().filter(|e| e.spin == Spin::Alpha).count() as i64;
+    Exact::fraction(alpha - (det.electrons.len() as i64 - alpha), 2)
+}
+
+/// a+(p flipped) a(p) on a determinant, normal ordered; None when it vanishes.
+fn flip(det: &CaseDet, from: SpinOrbital, to: SpinOrbital) -> Option<(i32, CaseDet)> {
+    let mut list = det.electrons.clone();
+    let sign = annihilate(&mut list, from).ok()?;
+    create(&mut list, to).ok()?;
+    let sign = sign * sort_with_sign(&mut list);
+    Some((sign, CaseDet { closed: det.closed.clone(), electrons: list }))
+}
+
+fn add(out: &mut CaseState, det: CaseDet, amount: Exact) {
+    let entry = out.entry(det).or_default();
+    *entry += &amount;
+}
+
+/// S²|state>.
+pub fn apply_s_squared(state: &CaseState) -> CaseState {
+    let mut out = CaseState::new();
+    for (det, c) in state {
+        let sz = s_z(det);
+        add(&mut out, det.clone(), &(&(&sz * &sz) + &sz) * c);
+        // S₋S₊ = Σ_pq a+(p β) a(p α) a+(q α) a(q β)
+        for q in det.electrons.iter().filter(|e| e.spin == Spin::Beta) {
+            let Some((s1, raised)) = flip(det, *q, SpinOrbital::new(q.orb, Spin::Alpha)) else { continue };
+            for p in raised.electrons.iter().filter(|e| e.spin == Spin::Alpha) {
+                if let Some((s2, lowered)) = flip(&raised, *p, SpinOrbital::new(p.orb, Spin::Beta)) {
+                    add(&mut out, lowered, c * &Exact::integer((s1 * s2) as i64));
+                }
+            }
+        }
+    }
+    out.retain(|_, c| !c.is_zero());
+    out
+}
+
+pub fn inner(a: &CaseState, b: &CaseState) -> Exact {
+    a.iter().filter_map(|(d, x)| b.get(d).map(|y| x * y)).fold(Exact::zero(), |acc, v| &acc + &v)
+}
+
+/// <S²>, <S_z> (normalized) and whether the state is an eigenfunction of S² and of S_z.
+pub struct SpinValues {
+    pub s_squared: Exact,
+    pub s_z: Exact,
+    pub eigen_s: bool,
+    pub eigen_m: bool,
+}
+
+pub fn spin_values(state: &CaseState) -> Option<SpinValues> {
+    let norm = inner(state, state);
+    let inverse = norm.inverse()?;
+    let image = apply_s_squared(state);
+    let expectation = inner(state, &image);
+    let s_squared = &expectation * &inverse;
+    let eigen_s = &inner(&image, &image) * &norm == &expectation * &expectation;
+    let weighted = state.iter().fold(Exact::zero(), |acc, (d, c)| &acc + &(&(c * c) * &s_z(d)));
+    let first = state.keys().next().map(s_z);
+    let eigen_m = state.keys().all(|d| Some(s_z(d)) == first);
+    Some(SpinValues { s_squared, s_z: &weighted * &inverse, eigen_s, eigen_m })
+}

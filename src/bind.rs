@@ -50,7 +50,7 @@ pub fn symbols_of(program: &Program, request: &Request) -> (BTreeSet<u32>, BTree
         }
         Orb::Summed(_) => {}
     };
-    for (_, det) in request.bra.terms.iter().chain(&request.ket.terms) {
+    for (_, det) in request.bra.terms.iter().chain(request.ket.terms.iter()) {
         for occupant in &det.occupants {
             match occupant {
                 Occupant::Closed(s) => {

@@ -56,7 +56,7 @@ fn apply(det: u128, operators: &[(bool, u32)]) -> Option<(f64, u128)> {
 /// a+(y1) .. a+(yn) a(xn) .. a(x1) applied in turn.
 pub fn state_vector(state: &State, binding: &Binding) -> Vector {
     let mut out = Vector::new();
-    for (coeff, det) in &state.terms {
+    for (coeff, det) in state.terms.iter() {
         let mut operators: Vec<(bool, u32)> = vec![];
         for e in det.excitations.iter().rev() {
             operators.extend(e.to.iter().map(|&y| (true, bit(binding, y))));
@@ -173,12 +173,10 @@ mod tests {
     fn closed_shell_energy_matches_the_textbook_formula() {
         // one doubly occupied orbital: E = 2 h_11 + (11|11)
         let ints = DenseIntegrals::random(2, 3);
-        let state = State {
-            terms: vec![(
-                Exact::one(),
-                DetSpec { occupants: vec![Occupant::Closed(0)], excitations: vec![] },
-            )],
-        };
+        let state = State::new(vec![(
+            Exact::one(),
+            DetSpec { occupants: vec![Occupant::Closed(0)], excitations: vec![] },
+        )]);
         let binding = Binding { orbitals: vec![], spaces: vec![vec![0]], indices: vec![] };
         let v = state_vector(&state, &binding);
         let e = dot(&v, &apply_hamiltonian(&v, &ints));

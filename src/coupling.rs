@@ -4,6 +4,7 @@
 use crate::exact::Exact;
 use num_bigint::BigInt;
 use num_rational::BigRational;
+use num_traits::Pow;
 
 /// A spin quantum number as twice its value, so 1/2 is 1 and 3/2 is 3.
 pub type Twice = i64;
@@ -12,23 +13,73 @@ pub type Twice = i64;
 /// coefficient.
 pub type SpinTerm = (Vec<bool>, Exact);
 
-fn root(num: i64, den: i64) -> Exact {
-    Exact::sqrt_of_rational(&BigRational::new(BigInt::from(num), BigInt::from(den)))
-        .expect("Clebsch–Gordan ratios are small and non-negative")
+/// A signed square root of a positive rational, kept as the prime exponents of its square so
+/// that the products along a path cost no big-number arithmetic.
+#[derive(Clone)]
+struct SignedRoot {
+    negative: bool,
+    exponents: Vec<i32>,
+}
+
+fn primes_up_to(n: i64) -> Vec<i64> {
+    (2..=n.max(2)).filter(|&p| (2..p).take_while(|d| d * d <= p).all(|d| p % d != 0)).collect()
+}
+
+impl SignedRoot {
+    fn one(primes: &[i64]) -> SignedRoot {
+        SignedRoot { negative: false, exponents: vec![0; primes.len()] }
+    }
+
+    /// × (−1 if `negative`) √(num/den), for small positive num and den.
+    fn times(&self, primes: &[i64], negative: bool, num: i64, den: i64) -> SignedRoot {
+        let mut out = self.clone();
+        out.negative ^= negative;
+        for (value, sign) in [(num, 1), (den, -1)] {
+            let mut v = value;
+            for (k, &p) in primes.iter().enumerate() {
+                while v % p == 0 {
+                    v /= p;
+                    out.exponents[k] += sign;
+                }
+            }
+            debug_assert_eq!(v, 1, "Clebsch–Gordan ratios factor over the primes listed");
+        }
+        out
+    }
+
+    /// The exact value: Π p^⌊e/2⌋ × √(Π p^(e mod 2)).
+    fn value(&self, primes: &[i64]) -> Exact {
+        let (mut num, mut den, mut radicand) = (BigInt::from(1), BigInt::from(1), 1u64);
+        for (&p, &e) in primes.iter().zip(&self.exponents) {
+            let (whole, odd) = (e.div_euclid(2), e.rem_euclid(2));
+            if whole > 0 {
+                num *= BigInt::from(p).pow(whole as u32);
+            } else if whole < 0 {
+                den *= BigInt::from(p).pow((-whole) as u32);
+            }
+            if odd == 1 {
+                radicand *= p as u64;
+            }
+        }
+        if self.negative {
+            num = -num;
+        }
+        Exact::monomial(BigRational::new_raw(num, den), radicand)
+    }
 }
 
 /// The Clebsch–Gordan coefficient <S', M - m; 1/2, m | S, M> for adding one electron of spin m
-/// (alpha: +1/2) to a function of spin S' = S ± 1/2, everything doubled.
-fn clebsch_gordan(s_new: Twice, s_old: Twice, m_new: Twice, alpha: bool) -> Exact {
+/// (alpha: +1/2) to a function of spin S' = S ± 1/2, everything doubled, as (negative, num, den)
+/// of ±√(num/den).
+fn clebsch_gordan(s_new: Twice, s_old: Twice, m_new: Twice, alpha: bool) -> (bool, i64, i64) {
     if s_new > s_old {
         // S = S' + 1/2: sqrt((S ± M)/(2S))
-        let num = if alpha { s_new + m_new } else { s_new - m_new };
-        root(num, 2 * s_new)
+        (false, if alpha { s_new + m_new } else { s_new - m_new }, 2 * s_new)
     } else if alpha {
         // S = S' - 1/2, m = +1/2: -sqrt((S - M + 1)/(2S + 2))
-        -root(s_new - m_new + 2, 2 * s_new + 4)
+        (true, s_new - m_new + 2, 2 * s_new + 4)
     } else {
-        root(s_new + m_new + 2, 2 * s_new + 4)
+        (false, s_new + m_new + 2, 2 * s_new + 4)
     }
 }
 
@@ -87,14 +138,15 @@ pub fn half(twice: Twice) -> String {
 /// spin assignment with total M, the product of Clebsch–Gordan coefficients along the path.
 pub fn expand(path: &[Twice], m: Twice) -> Vec<SpinTerm> {
     let n = path.len();
+    let primes = primes_up_to(2 * n as i64 + 4);
     let mut out = vec![];
     // depth-first over the shells, carrying M so far and the coefficient so far
-    let mut stack: Vec<(Vec<bool>, Twice, Exact)> = vec![(vec![], 0, Exact::one())];
+    let mut stack: Vec<(Vec<bool>, Twice, SignedRoot)> = vec![(vec![], 0, SignedRoot::one(&primes))];
     while let Some((spins, m_so_far, coefficient)) = stack.pop() {
         let k = spins.len();
         if k == n {
             if m_so_far == m {
-                out.push((spins, coefficient));
+                out.push((spins, coefficient.value(&primes)));
             }
             continue;
         }
@@ -105,13 +157,13 @@ pub fn expand(path: &[Twice], m: Twice) -> Vec<SpinTerm> {
             if m_new.abs() > path[k] || (m - m_new).abs() > left {
                 continue;
             }
-            let factor = clebsch_gordan(path[k], s_old, m_new, alpha);
-            if factor.is_zero() {
+            let (negative, num, den) = clebsch_gordan(path[k], s_old, m_new, alpha);
+            if num == 0 {
                 continue;
             }
             let mut next = spins.clone();
             next.push(alpha);
-            stack.push((next, m_new, &coefficient * &factor));
+            stack.push((next, m_new, coefficient.times(&primes, negative, num, den)));
         }
     }
     out.sort_by(|a, b| b.0.cmp(&a.0));

@@ -9,7 +9,7 @@ use crate::expression::{Expr, RestrictedSum};
 use crate::fock::fock_form;
 use crate::orbital::{Orb, SpaceId, SpaceSet};
 use crate::program::{Occupant, Program, Request, RequestKind, State};
-use crate::slater_condon;
+use crate::slater_condon::{self, BitState, Universe};
 use crate::spin_operator::spin_values;
 use std::collections::{BTreeMap, BTreeSet};
 
@@ -70,7 +70,7 @@ fn used_indices(
         }
     };
     for state in states {
-        for (_, det) in &state.terms {
+        for (_, det) in state.terms.iter() {
             for occupant in &det.occupants {
                 match occupant {
                     Occupant::Closed(s) => {
@@ -103,9 +103,17 @@ fn vanishing_error(program: &Program, request: &Request, why: Vanishing, label: 
 fn case_state(state: &State, case: &Case) -> std::result::Result<CaseState, Vanishing> {
     let mut out = CaseState::new();
     let mut first_vanishing = None;
-    for (coeff, det) in &state.terms {
+    for (coeff, det) in state.terms.iter() {
         match CaseDet::build(det, case) {
-            Ok((sign, d)) => *out.entry(d).or_default() += &(coeff * &Exact::integer(sign as i64)),
+            Ok((sign, d)) => {
+                let c = if sign < 0 { -coeff.clone() } else { coeff.clone() };
+                match out.entry(d) {
+                    std::collections::btree_map::Entry::Vacant(v) => {
+                        v.insert(c);
+                    }
+                    std::collections::btree_map::Entry::Occupied(mut o) => *o.get_mut() += &c,
+                }
+            }
             Err(why) => first_vanishing = first_vanishing.or(Some(why)),
         }
     }
@@ -144,30 +152,6 @@ fn check_comparable(program: &Program, request: &Request, bra: &CaseState, ket: 
         }
     }
     Ok(())
-}
-
-fn overlap(bra: &CaseState, ket: &CaseState) -> Exact {
-    let mut total = Exact::zero();
-    for (d, c) in bra {
-        if let Some(e) = ket.get(d) {
-            total += &(c * e);
-        }
-    }
-    total
-}
-
-fn hamiltonian(bra: &CaseState, ket: &CaseState, closed: &[RestrictedSum]) -> Expr {
-    let mut terms = vec![];
-    for (db, cb) in bra {
-        for (dk, ck) in ket {
-            let weight = cb * ck;
-            for mut raw in slater_condon::hamiltonian(db, dk, closed) {
-                raw.coeff = &raw.coeff * &weight;
-                terms.extend(raw.expand());
-            }
-        }
-    }
-    Expr::from_terms(terms)
 }
 
 fn case_text(program: &Program, case: &Case) -> String {
@@ -247,7 +231,17 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
                     .collect()
             })
             .unwrap_or_default();
-        let s = Expr::constant(overlap(&bra, &ket));
+        let universe = Universe::new(bra.keys().chain(ket.keys()))
+            .map_err(|e| Error { span: Some(request.span.clone()), ..e })?;
+        let with_span = |e: Error| Error { span: Some(request.span.clone()), ..e };
+        let bra_bits = BitState::new(&bra, &universe).map_err(with_span)?;
+        let ket_bits = if request.bra == request.ket {
+            None
+        } else {
+            Some(BitState::new(&ket, &universe).map_err(with_span)?)
+        };
+        let ket_bits = ket_bits.as_ref().unwrap_or(&bra_bits);
+        let s = Expr::constant(slater_condon::overlap(&bra_bits, ket_bits));
         let vanishes = |notes: &mut Vec<String>| {
             notes.push(format!(
                 "the state vanishes when {}; the expression does not apply there",
@@ -258,9 +252,17 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         // the value, the overlap and (for spin requests) <S_z> of this case
         let channels: [Option<Expr>; 3] = match request.kind {
             RequestKind::Overlap => [Some(s.clone()), Some(s), None],
-            RequestKind::Element => [Some(hamiltonian(&bra, &ket, &closed)), Some(s), None],
-            RequestKind::Energy => match overlap(&bra, &bra).inverse() {
-                Some(inverse) => [Some(hamiltonian(&bra, &bra, &closed).scaled(&inverse)), Some(s), None],
+            RequestKind::Element => {
+                [Some(slater_condon::hamiltonian(&bra_bits, ket_bits, &universe, &closed)), Some(s), None]
+            }
+            RequestKind::Energy => match slater_condon::overlap(&bra_bits, &bra_bits).inverse() {
+                Some(inverse) => [
+                    Some(
+                        slater_condon::hamiltonian(&bra_bits, &bra_bits, &universe, &closed).scaled(&inverse),
+                    ),
+                    Some(s),
+                    None,
+                ],
                 None if finest => return Err(zero_norm()),
                 None => {
                     vanishes(&mut notes);

@@ -5,7 +5,6 @@ use num_bigint::BigInt;
 use num_integer::Integer;
 use num_rational::BigRational;
 use num_traits::{One, Signed, ToPrimitive, Zero};
-use std::collections::BTreeMap;
 use std::fmt;
 use std::ops::{Add, AddAssign, Div, Mul, Neg, Sub};
 
@@ -13,7 +12,9 @@ use std::ops::{Add, AddAssign, Div, Mul, Neg, Sub};
 /// The empty sum is zero; radicand 1 holds the rational part.
 #[derive(Clone, PartialEq, Eq, Hash, PartialOrd, Ord, Default)]
 pub struct Exact {
-    parts: BTreeMap<u64, BigRational>,
+    /// (radicand, coefficient), radicands increasing; a sorted vector since most numbers have
+    /// one or two parts.
+    parts: Vec<(u64, BigRational)>,
 }
 
 /// Splits n into (s, f) with n = s^2 * f and f square-free.
@@ -53,20 +54,13 @@ impl Exact {
     }
 
     pub fn rational(q: BigRational) -> Exact {
-        let mut parts = BTreeMap::new();
-        if !q.is_zero() {
-            parts.insert(1, q);
-        }
-        Exact { parts }
+        Exact::monomial(q, 1)
     }
 
-    /// q·√n for a square-free n; callers with arbitrary n go through `sqrt_of_rational`.
-    fn term(q: BigRational, radicand: u64) -> Exact {
-        let mut parts = BTreeMap::new();
-        if !q.is_zero() {
-            parts.insert(radicand, q);
-        }
-        Exact { parts }
+    /// q·√n for a square-free n (the caller guarantees it); arbitrary n go through
+    /// `sqrt_of_rational`.
+    pub fn monomial(q: BigRational, radicand: u64) -> Exact {
+        Exact { parts: if q.is_zero() { vec![] } else { vec![(radicand, q)] } }
     }
 
     /// The positive square root of a non-negative rational, or None if it is negative or
@@ -82,7 +76,7 @@ impl Exact {
         let product = (q.numer() * q.denom()).to_u64()?;
         let (outside, radicand) = square_free_split(product);
         let coefficient = BigRational::new(BigInt::from(outside), q.denom().clone());
-        Some(Exact::term(coefficient, radicand))
+        Some(Exact::monomial(coefficient, radicand))
     }
 
     pub fn is_zero(&self) -> bool {
@@ -93,7 +87,7 @@ impl Exact {
     pub fn as_rational(&self) -> Option<BigRational> {
         match self.parts.len() {
             0 => Some(BigRational::zero()),
-            1 => self.parts.get(&1).cloned(),
+            1 => (self.parts[0].0 == 1).then(|| self.parts[0].1.clone()),
             _ => None,
         }
     }
@@ -102,7 +96,7 @@ impl Exact {
     pub fn as_monomial(&self) -> Option<(BigRational, u64)> {
         match self.parts.len() {
             0 => Some((BigRational::zero(), 1)),
-            1 => self.parts.iter().next().map(|(n, q)| (q.clone(), *n)),
+            1 => Some((self.parts[0].1.clone(), self.parts[0].0)),
             _ => None,
         }
     }
@@ -119,7 +113,7 @@ impl Exact {
     /// True when the leading (smallest-radicand) part is negative: used to print a
     /// term with a minus sign in front.
     pub fn is_negative(&self) -> bool {
-        self.parts.values().next().is_some_and(|q| q.is_negative())
+        self.parts.first().is_some_and(|(_, q)| q.is_negative())
     }
 
     pub fn abs(&self) -> Exact {
@@ -127,10 +121,18 @@ impl Exact {
     }
 
     fn add_part(&mut self, radicand: u64, q: BigRational) {
-        let entry = self.parts.entry(radicand).or_insert_with(BigRational::zero);
-        *entry += q;
-        if entry.is_zero() {
-            self.parts.remove(&radicand);
+        match self.parts.binary_search_by_key(&radicand, |(n, _)| *n) {
+            Ok(k) => {
+                self.parts[k].1 += q;
+                if self.parts[k].1.is_zero() {
+                    self.parts.remove(k);
+                }
+            }
+            Err(k) => {
+                if !q.is_zero() {
+                    self.parts.insert(k, (radicand, q));
+                }
+            }
         }
     }
 
@@ -152,7 +154,7 @@ impl Exact {
     }
 
     fn some_prime_under_root(&self) -> Option<u64> {
-        let n = *self.parts.keys().find(|n| **n > 1)?;
+        let n = self.parts.iter().map(|(n, _)| *n).find(|n| *n > 1)?;
         (2..=n).find(|p| n % p == 0)
     }
 
@@ -160,7 +162,7 @@ impl Exact {
     fn flip_root(&self, prime: u64) -> Exact {
         let mut out = self.clone();
         for (n, q) in out.parts.iter_mut() {
-            if n % prime == 0 {
+            if *n % prime == 0 {
                 *q = -q.clone();
             }
         }
@@ -195,7 +197,7 @@ impl Sub for &Exact {
 impl Neg for Exact {
     type Output = Exact;
     fn neg(mut self) -> Exact {
-        for q in self.parts.values_mut() {
+        for (_, q) in self.parts.iter_mut() {
             *q = -q.clone();
         }
         self
@@ -260,18 +262,18 @@ pub struct ExactDisplay<'a> {
 
 impl fmt::Display for ExactDisplay<'_> {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        let parts: Vec<_> = self.value.parts.iter().collect();
+        let parts: Vec<(u64, &BigRational)> = self.value.parts.iter().map(|(n, q)| (*n, q)).collect();
         match parts.len() {
             0 => write!(f, "0"),
-            1 => write_rational_times_root(f, parts[0].1, *parts[0].0, self.ascii),
+            1 => write_rational_times_root(f, parts[0].1, parts[0].0, self.ascii),
             _ => {
                 write!(f, "(")?;
                 for (k, (n, q)) in parts.iter().enumerate() {
                     if k > 0 {
                         write!(f, "{}", if q.is_negative() { " - " } else { " + " })?;
-                        write_rational_times_root(f, &q.abs(), **n, self.ascii)?;
+                        write_rational_times_root(f, &q.abs(), *n, self.ascii)?;
                     } else {
-                        write_rational_times_root(f, q, **n, self.ascii)?;
+                        write_rational_times_root(f, q, *n, self.ascii)?;
                     }
                 }
                 write!(f, ")")

@@ -334,11 +334,7 @@ impl Resolver {
                 _ => path = Some((values.clone(), option_span.clone())),
             }
         }
-        let occupants = match self.inline_det(det)? {
-            State { terms } => {
-                terms.into_iter().next().expect("an inline determinant is one term").1.occupants
-            }
-        };
+        let occupants = self.inline_det(det)?.terms[0].1.occupants.clone();
         // open shells: the singly occupied orbitals, in the order written
         let mut open = vec![];
         for (k, occupant) in occupants.iter().enumerate() {
@@ -409,19 +405,21 @@ impl Resolver {
                 &span,
             ));
         }
-        let build = |p: &[Twice]| State {
-            terms: expand(p, m)
-                .into_iter()
-                .map(|(spins, coefficient)| {
-                    let mut occ = occupants.clone();
-                    for (&k, alpha) in open.iter().zip(spins) {
-                        if let Occupant::Electron(so) = &mut occ[k] {
-                            so.spin = if alpha { Spin::Alpha } else { Spin::Beta };
+        let build = |p: &[Twice]| {
+            State::new(
+                expand(p, m)
+                    .into_iter()
+                    .map(|(spins, coefficient)| {
+                        let mut occ = occupants.clone();
+                        for (&k, alpha) in open.iter().zip(spins) {
+                            if let Occupant::Electron(so) = &mut occ[k] {
+                                so.spin = if alpha { Spin::Alpha } else { Spin::Beta };
+                            }
                         }
-                    }
-                    (coefficient, DetSpec { occupants: occ, excitations: vec![] })
-                })
-                .collect(),
+                        (coefficient, DetSpec { occupants: occ, excitations: vec![] })
+                    })
+                    .collect(),
+            )
         };
         if family {
             self.declare(&name, Symbol::Family(chosen.len() as u32))?;
@@ -429,8 +427,8 @@ impl Resolver {
         for (k, p) in chosen.iter().enumerate() {
             let label =
                 if family { format!("{}.{}", name.as_str(), k + 1) } else { name.as_str().to_string() };
+            // built from a checked determinant, a coupled state needs no further check
             let state = build(p);
-            crate::derive::check_definition(&self.program, &state, &label, &span)?;
             let id = self.program.states.len() as u32;
             let name_span = self.span(&name);
             if !family {
@@ -646,7 +644,7 @@ impl Resolver {
                 occupants.push(occupant);
             }
         }
-        Ok(State { terms: vec![(Exact::one(), DetSpec { occupants, excitations: vec![] })] })
+        Ok(State::new(vec![(Exact::one(), DetSpec { occupants, excitations: vec![] })]))
     }
 }
 
@@ -691,10 +689,7 @@ fn negated(value: Value) -> Value {
 
 fn added(left: Value, right: Value, span: &Span, right_span: &Span) -> Result<Value> {
     match (left, right) {
-        (Value::State(mut a), Value::State(b)) => {
-            a.terms.extend(b.terms);
-            Ok(Value::State(a))
-        }
+        (Value::State(a), Value::State(b)) => Ok(Value::State(a.joined(&b))),
         (Value::Number(a), Value::Number(b)) => {
             let total = &a + &b;
             if total.as_monomial().is_none() {

@@ -49,24 +49,35 @@ pub struct DetSpec {
     pub excitations: Vec<Excitation>,
 }
 
-/// A linear combination of determinants with exact coefficients.
+/// A linear combination of determinants with exact coefficients. The terms are shared, so a
+/// large coupled state is not copied each time a request names it.
 #[derive(Clone, Debug, PartialEq)]
 pub struct State {
-    pub terms: Vec<(Exact, DetSpec)>,
+    pub terms: Arc<Vec<(Exact, DetSpec)>>,
 }
 
 impl State {
+    pub fn new(terms: Vec<(Exact, DetSpec)>) -> State {
+        State { terms: Arc::new(terms) }
+    }
+
     pub fn scaled(mut self, factor: &Exact) -> State {
-        for (c, _) in &mut self.terms {
+        for (c, _) in Arc::make_mut(&mut self.terms) {
             *c = &*c * factor;
         }
         self
     }
 
     pub fn excited(mut self, excitation: &Excitation) -> State {
-        for (_, det) in &mut self.terms {
+        for (_, det) in Arc::make_mut(&mut self.terms) {
             det.excitations.push(excitation.clone());
         }
+        self
+    }
+
+    /// The combination followed by another's terms.
+    pub fn joined(mut self, other: &State) -> State {
+        Arc::make_mut(&mut self.terms).extend(other.terms.iter().cloned());
         self
     }
 }

@@ -1,166 +1,389 @@
-//! The Slater–Condon rules between two determinants of one coincidence case: maximum
-//! coincidence and its phase, then the zero-, one- and two-difference formulas.
+//! The Slater–Condon rules on bit-string determinants: only pairs that differ by at most two
+//! spin orbitals are visited, their phases come from the bits, and contributions accumulate
+//! in exact integers per spin-orbital integral before spin integration.
 
 use crate::determinant::CaseDet;
+use crate::error::{Error, ErrorKind, Result};
 use crate::exact::Exact;
-use crate::expression::{Factor, RawTerm, RestrictedSum};
+use crate::expression::{Expr, Factor, RawTerm, RestrictedSum};
 use crate::orbital::{Orb, Spin, SpinOrbital};
 use crate::spin_integrate::{antisymmetrized, one_electron};
+use num_bigint::BigInt;
+use num_integer::Integer;
+use num_rational::BigRational;
+use num_traits::{ToPrimitive, Zero};
+use rustc_hash::FxHashMap;
+use std::collections::BTreeMap;
+
+/// The explicit spatial orbitals of a request in one case, in canonical order: bit 2k is the
+/// alpha and bit 2k+1 the beta spin orbital of the k-th, so ascending bits are the normal order.
+pub struct Universe {
+    orbs: Vec<Orb>,
+}
+
+const ALPHA: u128 = 0x5555_5555_5555_5555_5555_5555_5555_5555;
+
+impl Universe {
+    pub fn new<'a>(dets: impl Iterator<Item = &'a CaseDet>) -> Result<Universe> {
+        let mut orbs: Vec<Orb> = dets.flat_map(|d| d.electrons.iter().map(|e| e.orb)).collect();
+        orbs.sort();
+        orbs.dedup();
+        if orbs.len() > 64 {
+            return Err(Error::new(ErrorKind::TooLarge {
+                what: format!("a request with {} explicitly occupied orbitals", orbs.len()),
+                limit: 64,
+            }));
+        }
+        Ok(Universe { orbs })
+    }
+
+    fn bits(&self, det: &CaseDet) -> u128 {
+        det.electrons.iter().fold(0, |acc, e| {
+            let k = self.orbs.binary_search(&e.orb).expect("the universe holds every orbital");
+            acc | 1 << (2 * k + usize::from(e.spin == Spin::Beta))
+        })
+    }
+
+    fn spin_orbital(&self, bit: u32) -> SpinOrbital {
+        let spin = if bit % 2 == 0 { Spin::Alpha } else { Spin::Beta };
+        SpinOrbital::new(self.orbs[(bit / 2) as usize], spin)
+    }
+}
+
+/// One determinant of a state with the coefficient (a / denominator) √r, r square-free.
+struct Entry {
+    bits: u128,
+    a: i128,
+    r: u64,
+}
+
+/// A state over the universe; a determinant whose coefficient has several square roots
+/// stands once per root.
+pub struct BitState {
+    entries: Vec<Entry>,
+    denominator: BigInt,
+    by_alpha: FxHashMap<u128, Vec<usize>>,
+    by_beta: FxHashMap<u128, Vec<usize>>,
+    alpha_union: u128,
+}
+
+impl BitState {
+    pub fn new(state: &BTreeMap<CaseDet, Exact>, universe: &Universe) -> Result<BitState> {
+        let denominator = state
+            .values()
+            .flat_map(|c| c.parts().map(|(q, _)| q.denom().clone()))
+            .fold(BigInt::from(1), |l, d| l.lcm(&d));
+        let mut entries = vec![];
+        // L / d for each denominator d met, so that a = numerator × (L / d)
+        let mut multiplier: FxHashMap<BigInt, BigInt> = FxHashMap::default();
+        for (det, c) in state {
+            let bits = universe.bits(det);
+            for (q, r) in c.parts() {
+                let scale = multiplier.entry(q.denom().clone()).or_insert_with(|| &denominator / q.denom());
+                let a = (q.numer() * &*scale).to_i128().ok_or_else(|| {
+                    Error::new(ErrorKind::TooLarge { what: "a coefficient's numerator".into(), limit: 128 })
+                })?;
+                entries.push(Entry { bits, a, r });
+            }
+        }
+        let (mut by_alpha, mut by_beta) =
+            (FxHashMap::<u128, Vec<usize>>::default(), FxHashMap::<u128, Vec<usize>>::default());
+        let mut alpha_union = 0;
+        for (k, e) in entries.iter().enumerate() {
+            by_alpha.entry(e.bits & ALPHA).or_default().push(k);
+            by_beta.entry(e.bits & !ALPHA).or_default().push(k);
+            alpha_union |= e.bits & ALPHA;
+        }
+        Ok(BitState { entries, denominator, by_alpha, by_beta, alpha_union })
+    }
+
+    /// Every (bra entry, ket entry) pair differing by at most two spin orbitals, each once:
+    /// found through the alpha and beta strings rather than by trying all pairs.
+    fn interacting(&self, ket: &BitState, mut visit: impl FnMut(usize, usize)) {
+        let differ = |x: u128, y: u128| (x ^ y).count_ones() / 2;
+        for (j, e) in ket.entries.iter().enumerate() {
+            let (alpha, beta) = (e.bits & ALPHA, e.bits & !ALPHA);
+            // same alpha string: beta may differ by up to two
+            for &i in self.by_alpha.get(&alpha).into_iter().flatten() {
+                if differ(self.entries[i].bits & !ALPHA, beta) <= 2 {
+                    visit(i, j);
+                }
+            }
+            // alpha strings one replacement away: beta may differ by up to one
+            let mut holes = self.alpha_union & !alpha;
+            while holes != 0 {
+                let p = holes.trailing_zeros();
+                holes &= holes - 1;
+                let mut occupied = alpha;
+                while occupied != 0 {
+                    let m = occupied.trailing_zeros();
+                    occupied &= occupied - 1;
+                    let moved = alpha ^ (1 << m) ^ (1 << p);
+                    for &i in self.by_alpha.get(&moved).into_iter().flatten() {
+                        if differ(self.entries[i].bits & !ALPHA, beta) <= 1 {
+                            visit(i, j);
+                        }
+                    }
+                }
+            }
+            // alpha strings two replacements away: beta must be the same
+            for &i in self.by_beta.get(&beta).into_iter().flatten() {
+                if differ(self.entries[i].bits & ALPHA, alpha) == 2 {
+                    visit(i, j);
+                }
+            }
+        }
+    }
+}
+
+/// (−1)^(number of occupied bits below `bit`).
+fn parity_below(det: u128, bit: u32) -> i128 {
+    if (det & ((1u128 << bit) - 1)).count_ones() % 2 == 0 { 1 } else { -1 }
+}
+
+/// An exact integer sum that spills into a big integer only when 128 bits overflow.
+#[derive(Default, Clone)]
+struct Sum {
+    fast: i128,
+    spill: BigInt,
+}
+
+impl Sum {
+    fn add(&mut self, x: i128) {
+        match self.fast.checked_add(x) {
+            Some(v) => self.fast = v,
+            None => {
+                self.spill += BigInt::from(self.fast) + BigInt::from(x);
+                self.fast = 0;
+            }
+        }
+    }
+
+    fn add_product(&mut self, factors: [i128; 3]) {
+        match factors[0].checked_mul(factors[1]).and_then(|v| v.checked_mul(factors[2])) {
+            Some(v) => self.add(v),
+            None => self.spill += factors.iter().map(|&f| BigInt::from(f)).product::<BigInt>(),
+        }
+    }
+
+    fn total(&self) -> BigInt {
+        &self.spill + BigInt::from(self.fast)
+    }
+}
+
+/// A spin-orbital contribution, in universe bits.
+#[derive(Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+enum Key {
+    /// h between spin orbitals m (bra) and p (ket)
+    One(u32, u32),
+    /// <mn||pq>
+    Two(u32, u32, u32, u32),
+    /// Σ over closed spin orbitals c of <mc||pc>
+    ClosedOne(u32, u32),
+    /// the closed spaces' own energy
+    Core,
+}
+
+/// Sums of weights per key and square root; the diagonal, the hot path of large states, goes
+/// to dense arrays by spin orbital and pair of spin orbitals.
+struct Accumulator {
+    keyed: FxHashMap<(Key, u64), Sum>,
+    core: Sum,
+    single: Vec<Sum>,
+    pair: Vec<Sum>,
+}
+
+const BITS: usize = 128;
+
+impl Accumulator {
+    fn new() -> Accumulator {
+        Accumulator {
+            keyed: FxHashMap::default(),
+            core: Sum::default(),
+            single: vec![Sum::default(); BITS],
+            pair: vec![Sum::default(); BITS * BITS],
+        }
+    }
+
+    fn add(&mut self, key: Key, root: u64, weight: [i128; 3]) {
+        self.keyed.entry((key, root)).or_default().add_product(weight);
+    }
+}
+
+/// The weight of a pair, c_i c_j = (a_i a_j g / (L_bra L_ket)) √(r_i r_j / g²), as its integer
+/// factors and the square-free root.
+fn pair_weight(bra: &Entry, ket: &Entry) -> ([i128; 2], i128, u64) {
+    let g = bra.r.gcd(&ket.r);
+    ([bra.a, ket.a], g as i128, (bra.r / g) * (ket.r / g))
+}
+
+/// <bra|H|ket> (electronic part) for states over the same closed spaces `closed`.
+pub fn hamiltonian(bra: &BitState, ket: &BitState, universe: &Universe, closed: &[RestrictedSum]) -> Expr {
+    let mut acc = Accumulator::new();
+    bra.interacting(ket, |i, j| {
+        let (b, k) = (&bra.entries[i], &ket.entries[j]);
+        let ([x, y], g, root) = pair_weight(b, k);
+        let (only_bra, only_ket) = (b.bits & !k.bits, k.bits & !b.bits);
+        match only_bra.count_ones() {
+            0 if root == 1 => {
+                let w = [x, y, g];
+                acc.core.add_product(w);
+                let mut m_bits = b.bits;
+                while m_bits != 0 {
+                    let m = m_bits.trailing_zeros();
+                    m_bits &= m_bits - 1;
+                    acc.single[m as usize].add_product(w);
+                    let mut n_bits = m_bits;
+                    while n_bits != 0 {
+                        let n = n_bits.trailing_zeros();
+                        n_bits &= n_bits - 1;
+                        acc.pair[m as usize * BITS + n as usize].add_product(w);
+                    }
+                }
+            }
+            0 => {
+                let w = [x, y, g];
+                acc.add(Key::Core, root, w);
+                let bits: Vec<u32> = (0..BITS as u32).filter(|&m| b.bits & (1 << m) != 0).collect();
+                for (s, &m) in bits.iter().enumerate() {
+                    acc.add(Key::One(m, m), root, w);
+                    acc.add(Key::ClosedOne(m, m), root, w);
+                    for &n in &bits[s + 1..] {
+                        acc.add(Key::Two(m, n, m, n), root, w);
+                    }
+                }
+            }
+            1 => {
+                let (m, p) = (only_bra.trailing_zeros(), only_ket.trailing_zeros());
+                // |bra> = s a+(m) a(p) |ket>
+                let s = parity_below(k.bits, p) * parity_below(k.bits & !(1 << p), m);
+                let w = [x * s, y, g];
+                acc.add(Key::One(m, p), root, w);
+                acc.add(Key::ClosedOne(m, p), root, w);
+                let mut common = b.bits & k.bits;
+                while common != 0 {
+                    let n = common.trailing_zeros();
+                    common &= common - 1;
+                    acc.add(Key::Two(m, n, p, n), root, w);
+                }
+            }
+            2 => {
+                let (m, n) = (only_bra.trailing_zeros(), 127 - only_bra.leading_zeros());
+                let (p, q) = (only_ket.trailing_zeros(), 127 - only_ket.leading_zeros());
+                // |bra> = s a+(m) a+(n) a(q) a(p) |ket>: m replaces p and n replaces q in place
+                let k1 = k.bits & !(1 << p);
+                let k2 = k1 & !(1 << q);
+                let k3 = k2 | (1 << n);
+                let s =
+                    parity_below(k.bits, p) * parity_below(k1, q) * parity_below(k2, n) * parity_below(k3, m);
+                acc.add(Key::Two(m, n, p, q), root, [x * s, y, g]);
+            }
+            _ => {}
+        }
+    });
+    let scale = BigRational::new(BigInt::from(1), &bra.denominator * &ket.denominator);
+    let mut terms = vec![];
+    let mut emit = |key: Key, root: u64, total: BigInt| {
+        if total.is_zero() {
+            return;
+        }
+        let root = Exact::sqrt_of_rational(&BigRational::from_integer(root.into()))
+            .expect("square-free roots are small");
+        let weight = &Exact::rational(BigRational::from_integer(total) * &scale) * &root;
+        for raw in contributions(key, universe, closed) {
+            terms.extend(RawTerm { coeff: &raw.coeff * &weight, ..raw }.expand());
+        }
+    };
+    emit(Key::Core, 1, acc.core.total());
+    for m in 0..BITS as u32 {
+        let total = acc.single[m as usize].total();
+        emit(Key::One(m, m), 1, total.clone());
+        emit(Key::ClosedOne(m, m), 1, total);
+        for n in m + 1..BITS as u32 {
+            emit(Key::Two(m, n, m, n), 1, acc.pair[m as usize * BITS + n as usize].total());
+        }
+    }
+    let mut keyed: Vec<_> = acc.keyed.into_iter().collect();
+    keyed.sort_by_key(|((key, root), _)| (*key, *root));
+    for ((key, root), sum) in keyed {
+        emit(key, root, sum.total());
+    }
+    Expr::from_terms(terms)
+}
+
+/// <bra|ket>.
+pub fn overlap(bra: &BitState, ket: &BitState) -> Exact {
+    let mut sums: BTreeMap<u64, Sum> = BTreeMap::new();
+    for (j, k) in ket.entries.iter().enumerate() {
+        for &i in bra.by_alpha.get(&(k.bits & ALPHA)).into_iter().flatten() {
+            let b = &bra.entries[i];
+            if b.bits == k.bits {
+                let ([x, y], g, root) = pair_weight(b, &ket.entries[j]);
+                sums.entry(root).or_default().add_product([x, y, g]);
+            }
+        }
+    }
+    let scale = BigRational::new(BigInt::from(1), &bra.denominator * &ket.denominator);
+    sums.into_iter().fold(Exact::zero(), |acc, (root, sum)| {
+        let root = Exact::sqrt_of_rational(&BigRational::from_integer(root.into()))
+            .expect("square-free roots are small");
+        &acc + &(&Exact::rational(BigRational::from_integer(sum.total()) * &scale) * &root)
+    })
+}
 
 /// The two spin orbitals every member k of a closed space brings.
 fn closed_pair(k: Orb) -> [SpinOrbital; 2] {
     [SpinOrbital::new(k, Spin::Alpha), SpinOrbital::new(k, Spin::Beta)]
 }
 
-/// The bra and ket in maximum coincidence: the phase of the permutation that lines the ket
-/// up with the bra, the differing bra and ket spin orbitals pairwise, and the common ones.
-pub struct Coincidence {
-    pub phase: i32,
-    pub from: Vec<SpinOrbital>,
-    pub to: Vec<SpinOrbital>,
-    pub common: Vec<SpinOrbital>,
-}
-
-pub fn coincidence(bra: &[SpinOrbital], ket: &[SpinOrbital]) -> Coincidence {
-    // ket entries in the bra's positions where shared, unshared ones filling the gaps in order
-    let mut unshared = ket.iter().enumerate().filter(|(_, k)| !bra.contains(k)).map(|(i, _)| i);
-    let order: Vec<usize> = bra
-        .iter()
-        .map(|b| match ket.iter().position(|k| k == b) {
-            Some(i) => i,
-            None => unshared.next().expect("equal electron counts"),
-        })
-        .collect();
-    let mut inversions = 0;
-    for i in 0..order.len() {
-        for j in i + 1..order.len() {
-            if order[i] > order[j] {
-                inversions += 1;
-            }
-        }
-    }
-    let mut c = Coincidence {
-        phase: if inversions % 2 == 0 { 1 } else { -1 },
-        from: vec![],
-        to: vec![],
-        common: vec![],
-    };
-    for (b, &i) in bra.iter().zip(&order) {
-        if *b == ket[i] {
-            c.common.push(*b);
-        } else {
-            c.from.push(*b);
-            c.to.push(ket[i]);
-        }
-    }
-    c
-}
-
-/// Collects signed integrals into raw terms.
-struct Collector {
-    terms: Vec<RawTerm>,
-    scale: Exact,
-}
-
-impl Collector {
-    fn push(&mut self, coeff: Exact, factor: Option<Factor>, sums: &[RestrictedSum]) {
+/// The spatial terms of one spin-orbital contribution with unit weight: the rules themselves.
+/// Closed members enter as the pair k, k' of a summation index, through the same formulas
+/// as explicit electrons.
+fn contributions(key: Key, universe: &Universe, closed: &[RestrictedSum]) -> Vec<RawTerm> {
+    let so = |b: u32| universe.spin_orbital(b);
+    let mut out = vec![];
+    let mut push = |coeff: Exact, factor: Option<Factor>, sums: &[RestrictedSum]| {
         if let Some(factor) = factor {
-            self.terms.push(RawTerm { coeff: &coeff * &self.scale, sums: sums.to_vec(), factor });
+            out.push(RawTerm { coeff, sums: sums.to_vec(), factor });
         }
-    }
-
-    fn push_antisymmetrized(
-        &mut self,
-        weight: &Exact,
-        integrals: Vec<(i64, Factor)>,
-        sums: &[RestrictedSum],
-    ) {
-        for (sign, factor) in integrals {
-            self.push(weight * &Exact::integer(sign), Some(factor), sums);
-        }
-    }
-}
-
-/// <bra|H|ket> (electronic part) for determinants sharing the closed spaces `closed`.
-/// Every closed member k contributes its pair k, k' through the same spin-orbital formulas
-/// as an explicit electron, summed over the space.
-pub fn hamiltonian(bra: &CaseDet, ket: &CaseDet, closed: &[RestrictedSum]) -> Vec<RawTerm> {
-    let c = coincidence(&bra.electrons, &ket.electrons);
-    let mut out = Collector { terms: vec![], scale: Exact::integer(c.phase as i64) };
-    let one = Exact::one();
-    let half = Exact::fraction(1, 2);
+    };
+    let signed = |integrals: Vec<(i64, Factor)>, weight: &Exact| -> Vec<(Exact, Factor)> {
+        integrals.into_iter().map(|(s, f)| (weight * &Exact::integer(s), f)).collect()
+    };
     let (k, l) = (Orb::Summed(0), Orb::Summed(1));
-    match c.from.len() {
-        0 => {
-            let electrons = &bra.electrons;
-            for &m in electrons {
-                out.push(one.clone(), one_electron(m, m), &[]);
+    match key {
+        Key::One(m, p) => push(Exact::one(), one_electron(so(m), so(p)), &[]),
+        Key::Two(m, n, p, q) => {
+            for (c, f) in signed(antisymmetrized(so(m), so(n), so(p), so(q)), &Exact::one()) {
+                push(c, Some(f), &[]);
             }
-            for (i, &m) in electrons.iter().enumerate() {
-                for &n in &electrons[i + 1..] {
-                    out.push_antisymmetrized(&one, antisymmetrized(m, n, m, n), &[]);
-                }
-            }
+        }
+        Key::ClosedOne(m, p) => {
             for space in closed {
-                let one_space = std::slice::from_ref(space);
                 for kk in closed_pair(k) {
-                    out.push(one.clone(), one_electron(kk, kk), one_space);
-                    for &m in electrons {
-                        out.push_antisymmetrized(&one, antisymmetrized(m, kk, m, kk), one_space);
+                    for (c, f) in signed(antisymmetrized(so(m), kk, so(p), kk), &Exact::one()) {
+                        push(c, Some(f), std::slice::from_ref(space));
                     }
                 }
+            }
+        }
+        Key::Core => {
+            let half = Exact::fraction(1, 2);
+            for space in closed {
+                for kk in closed_pair(k) {
+                    push(Exact::one(), one_electron(kk, kk), std::slice::from_ref(space));
+                }
                 for other in closed {
-                    let both = [space.clone(), other.clone()];
                     for kk in closed_pair(k) {
                         for ll in closed_pair(l) {
-                            out.push_antisymmetrized(&half, antisymmetrized(kk, ll, kk, ll), &both);
+                            for (c, f) in signed(antisymmetrized(kk, ll, kk, ll), &half) {
+                                push(c, Some(f), &[space.clone(), other.clone()]);
+                            }
                         }
                     }
                 }
             }
         }
-        1 => {
-            let (m, p) = (c.from[0], c.to[0]);
-            out.push(one.clone(), one_electron(m, p), &[]);
-            for &n in &c.common {
-                out.push_antisymmetrized(&one, antisymmetrized(m, n, p, n), &[]);
-            }
-            for space in closed {
-                for kk in closed_pair(k) {
-                    out.push_antisymmetrized(
-                        &one,
-                        antisymmetrized(m, kk, p, kk),
-                        std::slice::from_ref(space),
-                    );
-                }
-            }
-        }
-        2 => {
-            let (m, n, p, q) = (c.from[0], c.from[1], c.to[0], c.to[1]);
-            out.push_antisymmetrized(&one, antisymmetrized(m, n, p, q), &[]);
-        }
-        _ => {}
     }
-    out.terms
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    fn so(k: u32, spin: Spin) -> SpinOrbital {
-        SpinOrbital::new(Orb::Named(k), spin)
-    }
-
-    #[test]
-    fn phase_counts_the_permutation_to_coincidence() {
-        let (a, b, c) = (so(0, Spin::Alpha), so(1, Spin::Alpha), so(2, Spin::Alpha));
-        // |a b| vs |b c|: line up b, then a -> c; the ket becomes (c b) from (b c): one swap
-        let co = coincidence(&[a, b], &[b, c]);
-        assert_eq!(co.phase, -1);
-        assert_eq!((co.from, co.to, co.common), (vec![a], vec![c], vec![b]));
-        let same = coincidence(&[a, b], &[b, a]);
-        assert_eq!(same.phase, -1);
-        assert!(same.from.is_empty());
-    }
+    out
 }

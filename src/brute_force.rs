@@ -88,17 +88,21 @@ fn bits(det: u128) -> Vec<u32> {
     (0..128).filter(|b| det & (1 << b) != 0).collect()
 }
 
-/// H|v> with H = Σ h_pq a+p aq + ½ Σ <pq|rs> a+p a+q as ar, electronic part only.
-pub fn apply_hamiltonian(v: &Vector, ints: &dyn Integrals) -> Vector {
-    let n = ints.orbital_count() as u32;
-    let mut out = Vector::new();
-    let mut add = |d: u128, x: f64| *out.entry(d).or_insert(0.0) += x;
-    for (&det, &amp) in v {
+/// <bra|H|ket> with H = Σ h_pq a+p aq + ½ Σ <pq|rs> a+p a+q as ar, electronic part only.
+/// Creation operators run only over spin orbitals some bra determinant occupies: others
+/// cannot reach the bra, so the sum is the same with or without them.
+pub fn matrix_element(bra: &Vector, ket: &Vector, ints: &dyn Integrals) -> f64 {
+    let reach: u128 = bra.keys().fold(0, |acc, d| acc | d);
+    let targets = |free: u128, spin: u32| bits(reach & !free).into_iter().filter(move |b| b % 2 == spin);
+    let mut total = 0.0;
+    let overlap = |d: u128| bra.get(&d).copied().unwrap_or(0.0);
+    for (&det, &amp) in ket {
         let occupied = bits(det);
         for &q in &occupied {
-            for p in (q % 2..2 * n).step_by(2) {
-                if let Some((s, d)) = apply(det, &[(true, p), (false, q)]) {
-                    add(d, amp * s * ints.h((p / 2) as usize, (q / 2) as usize));
+            let Some((s1, after)) = apply(det, &[(false, q)]) else { continue };
+            for p in targets(after, q % 2) {
+                if let Some((s2, d)) = apply(after, &[(true, p)]) {
+                    total += overlap(d) * amp * s1 * s2 * ints.h((p / 2) as usize, (q / 2) as usize);
                 }
             }
         }
@@ -107,24 +111,25 @@ pub fn apply_hamiltonian(v: &Vector, ints: &dyn Integrals) -> Vector {
                 if r == s {
                     continue;
                 }
-                for p in (r % 2..2 * n).step_by(2) {
-                    for q in (s % 2..2 * n).step_by(2) {
+                let Some((s1, after)) = apply(det, &[(false, s), (false, r)]) else { continue };
+                for p in targets(after, r % 2) {
+                    for q in targets(after, s % 2) {
                         // <pq|rs> = (pr|qs) for spatial orbitals, spins matched by the loops
-                        if let Some((sign, d)) = apply(det, &[(true, p), (true, q), (false, s), (false, r)]) {
+                        if let Some((s2, d)) = apply(after, &[(true, p), (true, q)]) {
                             let g = ints.eri(
                                 (p / 2) as usize,
                                 (r / 2) as usize,
                                 (q / 2) as usize,
                                 (s / 2) as usize,
                             );
-                            add(d, 0.5 * amp * sign * g);
+                            total += 0.5 * overlap(d) * amp * s1 * s2 * g;
                         }
                     }
                 }
             }
         }
     }
-    out
+    total
 }
 
 /// S²|v> = (S₋S₊ + S_z² + S_z)|v>, with S₊ = Σ_p a+(p α) a(p β).
@@ -179,7 +184,7 @@ mod tests {
         )]);
         let binding = Binding { orbitals: vec![], spaces: vec![vec![0]], indices: vec![] };
         let v = state_vector(&state, &binding);
-        let e = dot(&v, &apply_hamiltonian(&v, &ints));
+        let e = matrix_element(&v, &v, &ints);
         assert!((e - (2.0 * ints.h(0, 0) + ints.eri(0, 0, 0, 0))).abs() < 1e-12);
     }
 }

@@ -29,21 +29,21 @@ pub struct Index {
 }
 
 /// One entry of a determinant as written: a doubly occupied space or one electron.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 pub enum Occupant {
     Closed(SpaceId),
     Electron(SpinOrbital),
 }
 
 /// `D[x1 .. xn -> y1 .. yn]` = a+(y1) .. a+(yn) a(xn) .. a(x1) |D>.
-#[derive(Clone, Debug, PartialEq, Eq)]
+#[derive(Clone, Debug, PartialEq, Eq, Hash)]
 pub struct Excitation {
     pub from: Vec<SpinOrbital>,
     pub to: Vec<SpinOrbital>,
 }
 
 /// A determinant as written, with the excitations applied to it in order.
-#[derive(Clone, Debug, PartialEq, Eq)]
+#[derive(Clone, Debug, PartialEq, Eq, Hash)]
 pub struct DetSpec {
     pub occupants: Vec<Occupant>,
     pub excitations: Vec<Excitation>,

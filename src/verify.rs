@@ -3,14 +3,16 @@
 
 use crate::bind::symbols_of;
 use crate::brute_force;
-use crate::derive::Derivation;
+use crate::derive::{Derivation, Options, derive};
 use crate::error::{Error, ErrorKind, Result};
 use crate::evaluate::{Binding, evaluate};
+use crate::exact::Exact;
 use crate::integrals::{DenseIntegrals, Integrals};
-use crate::program::{Program, Request, RequestKind};
+use crate::orbital::Spin;
+use crate::program::{DetSpec, Occupant, Program, Request, RequestKind, State};
 use itertools::Itertools;
-use rand::SeedableRng;
 use rand::seq::SliceRandom;
+use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
 
@@ -34,6 +36,8 @@ pub struct Report {
     pub indices: bool,
     /// True when index assignments were sampled rather than all checked.
     pub sampled: bool,
+    /// For states too large to check whole: how many determinant pairs were checked.
+    pub determinant_pairs: Option<usize>,
 }
 
 impl Report {
@@ -43,8 +47,14 @@ impl Report {
         } else {
             format!(" with spaces sized {}", self.configurations.iter().map(|c| format!("({c})")).join(", "))
         };
+        let what = match self.determinant_pairs {
+            Some(n) => format!(
+                " of a seeded sample of {n} determinant pairs (the state is too large to check whole)"
+            ),
+            None => String::new(),
+        };
         format!(
-            "verified against brute-force determinant algebra: {} check(s) on random integrals (seed {}){}{}, all within {:.0e} relative",
+            "verified against brute-force determinant algebra: {} check(s){what} on random integrals (seed {}){}{}, all within {:.0e} relative",
             self.checks,
             self.seed,
             sizes,
@@ -139,14 +149,11 @@ pub fn compare(
     let vanishes = norm.abs() < 1e-12 * scale;
     let (expected, second) = match request.kind {
         RequestKind::Overlap => (overlap, None),
-        RequestKind::Element => (
-            brute_force::dot(&bra, &brute_force::apply_hamiltonian(&ket, ints)),
-            Some(("overlap", overlap, &derivation.overlap)),
-        ),
-        RequestKind::Energy if vanishes => return Ok(None),
-        RequestKind::Energy => {
-            (brute_force::dot(&bra, &brute_force::apply_hamiltonian(&bra, ints)) / norm, None)
+        RequestKind::Element => {
+            (brute_force::matrix_element(&bra, &ket, ints), Some(("overlap", overlap, &derivation.overlap)))
         }
+        RequestKind::Energy if vanishes => return Ok(None),
+        RequestKind::Energy => (brute_force::matrix_element(&bra, &bra, ints) / norm, None),
         RequestKind::Spin if vanishes => return Ok(None),
         RequestKind::Spin => (
             brute_force::dot(&bra, &brute_force::apply_s_squared(&bra)) / norm,
@@ -164,6 +171,99 @@ pub fn compare(
     Ok(Some(out))
 }
 
+/// Past this many determinants in bra and ket together the check samples determinant pairs.
+pub const FULL_CHECK_LIMIT: usize = 300;
+
+/// How many determinant pairs a sampled check takes.
+const SAMPLED_PAIRS: usize = 40;
+
+/// The check of a large request: a seeded sample of determinant pairs, half of them chosen to
+/// interact (a spin exchange between two open shells, or the same determinant), each derived
+/// alone by the engine and checked whole against brute force.
+fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, seed: u64) -> Result<Report> {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0xda7a);
+    let ket_index: std::collections::HashMap<&DetSpec, usize> =
+        request.ket.terms.iter().enumerate().map(|(k, (_, d))| (d, k)).collect();
+    let mut pairs = vec![];
+    for n in 0..SAMPLED_PAIRS {
+        let i = rng.random_range(0..request.bra.terms.len());
+        let bra = &request.bra.terms[i].1;
+        let partner = match n % 4 {
+            0 => ket_index.get(bra).copied(),
+            1 | 2 => spin_exchanged(bra, &mut rng).and_then(|d| ket_index.get(&d).copied()),
+            _ => None,
+        };
+        pairs.push((i, partner.unwrap_or_else(|| rng.random_range(0..request.ket.terms.len()))));
+    }
+    let mut report = Report {
+        checks: 0,
+        configurations: vec![],
+        seed,
+        max_deviation: 0.0,
+        indices: !derivation.free_indices.is_empty(),
+        sampled: false,
+        determinant_pairs: Some(pairs.len()),
+    };
+    let options = Options { distinct: derivation.distinct, ..Options::default() };
+    for (i, j) in pairs {
+        let single = |d: &DetSpec| State::new(vec![(Exact::one(), d.clone())]);
+        let pair = Request {
+            kind: RequestKind::Element,
+            text: format!("{} (determinants {} and {})", request.text, i + 1, j + 1),
+            bra: single(&request.bra.terms[i].1),
+            ket: single(&request.ket.terms[j].1),
+            bra_text: request.bra_text.clone(),
+            ket_text: request.ket_text.clone(),
+            span: request.span.clone(),
+        };
+        let d = derive(program, &pair, &options)?;
+        let r = verify(program, &pair, &d, seed)?;
+        report.checks += r.checks;
+        report.max_deviation = report.max_deviation.max(r.max_deviation);
+        report.sampled |= r.sampled;
+        report.configurations = r.configurations;
+    }
+    Ok(report)
+}
+
+/// The determinant with the spins of one alpha and one beta open shell exchanged, if it has both.
+fn spin_exchanged(det: &DetSpec, rng: &mut ChaCha8Rng) -> Option<DetSpec> {
+    let open: Vec<usize> = det
+        .occupants
+        .iter()
+        .enumerate()
+        .filter_map(|(k, o)| match o {
+            Occupant::Electron(so) => {
+                let doubled = det
+                    .occupants
+                    .iter()
+                    .filter(|x| matches!(x, Occupant::Electron(y) if y.orb == so.orb))
+                    .count()
+                    == 2;
+                (!doubled).then_some(k)
+            }
+            Occupant::Closed(_) => None,
+        })
+        .collect();
+    let spin = |k: usize| match det.occupants[k] {
+        Occupant::Electron(so) => so.spin,
+        Occupant::Closed(_) => Spin::Alpha,
+    };
+    let alphas: Vec<usize> = open.iter().copied().filter(|&k| spin(k) == Spin::Alpha).collect();
+    let betas: Vec<usize> = open.iter().copied().filter(|&k| spin(k) == Spin::Beta).collect();
+    if alphas.is_empty() || betas.is_empty() {
+        return None;
+    }
+    let (a, b) = (alphas[rng.random_range(0..alphas.len())], betas[rng.random_range(0..betas.len())]);
+    let mut out = det.clone();
+    for (k, to) in [(a, Spin::Beta), (b, Spin::Alpha)] {
+        if let Occupant::Electron(so) = &mut out.occupants[k] {
+            so.spin = to;
+        }
+    }
+    Some(out)
+}
+
 /// Checks one derivation of `request`; returns the report or a verification failure.
 pub fn verify(program: &Program, request: &Request, derivation: &Derivation, seed: u64) -> Result<Report> {
     let mut report = Report {
@@ -173,7 +273,11 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
         max_deviation: 0.0,
         indices: !derivation.free_indices.is_empty(),
         sampled: false,
+        determinant_pairs: None,
     };
+    if request.bra.terms.len() + request.ket.terms.len() > FULL_CHECK_LIMIT {
+        return verify_pairs(program, request, derivation, seed);
+    }
     for (c, sizes) in size_configurations(program, derivation).into_iter().enumerate() {
         let mut next = program.orbitals.len();
         let spaces: Vec<Vec<usize>> = sizes

@@ -3,8 +3,9 @@
 
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
-    Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Options, Program, Result, derive_checked,
-    evaluate_all, parse, read_dump, render, results_json, results_text, write_output,
+    Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, Options, Program, Result,
+    derive_checked, evaluate_all, parse_with, read_dump, render, render_states, results_json, results_text,
+    write_output,
 };
 use std::io::Read;
 
@@ -68,6 +69,20 @@ enum Command {
         #[arg(short, long)]
         output: Option<String>,
     },
+    /// List every named state of FILE with its determinants and exact coefficients.
+    States {
+        /// Input file (`-` reads standard input).
+        file: String,
+        /// Print {"states": [...]} as JSON.
+        #[arg(long)]
+        json: bool,
+        /// Largest number of determinants a state may expand to.
+        #[arg(long, default_value_t = 200_000)]
+        max_determinants: usize,
+        /// Write to this file instead of standard output.
+        #[arg(short, long)]
+        output: Option<String>,
+    },
     /// Evaluate every request of FILE with the integrals of an integral-dump file (hartree).
     Eval {
         #[command(flatten)]
@@ -100,7 +115,7 @@ fn read_input(file: &str) -> Result<(String, String)> {
 
 fn derived(common: &Derivation) -> Result<(Program, Vec<Checked>)> {
     let (name, text) = read_input(&common.file)?;
-    let program = parse(&name, &text)?;
+    let program = parse_with(&name, &text, Limits { max_determinants: common.max_determinants })?;
     let options =
         Options { distinct: common.distinct, max_determinants: common.max_determinants, fock: common.fock };
     let checked = derive_checked(&program, &options, (!common.no_verify).then_some(common.seed))?;
@@ -117,6 +132,11 @@ fn run(cli: Cli) -> Result<()> {
                 To::Json => Format::Json,
             };
             write_output(output.as_deref(), &render(&program, &checked, format))
+        }
+        Command::States { file, json, max_determinants, output } => {
+            let (name, text) = read_input(&file)?;
+            let program = parse_with(&name, &text, Limits { max_determinants })?;
+            write_output(output.as_deref(), &render_states(&program, json))
         }
         Command::Eval { common, integrals, bind, json, output } => {
             let dump = read_dump(&integrals)?;

@@ -47,6 +47,11 @@ pub fn render(program: &Program, derivations: &[Checked], format: Format) -> Str
     }
 }
 
+/// The determinant expansion of every named state, as text or JSON.
+pub fn render_states(program: &Program, json: bool) -> String {
+    if json { emit::states::render_json(program) } else { emit::states::render_text(program) }
+}
+
 /// One number: the value of a request for one assignment of its unbound indices.
 #[derive(Clone, Debug, Serialize, PartialEq)]
 pub struct Entry {

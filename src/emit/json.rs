@@ -43,7 +43,7 @@ struct Part {
 }
 
 #[derive(Serialize)]
-struct CoefficientOut {
+pub(super) struct CoefficientOut {
     exact: String,
     parts: Vec<Part>,
     value: f64,
@@ -69,7 +69,7 @@ struct TermOut {
     integral: IntegralOut,
 }
 
-fn coefficient(c: &Exact) -> CoefficientOut {
+pub(super) fn coefficient(c: &Exact) -> CoefficientOut {
     CoefficientOut {
         exact: c.to_string(),
         parts: c.parts().map(|(q, n)| Part { rational: q.to_string(), radicand: n }).collect(),

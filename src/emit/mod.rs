@@ -3,6 +3,7 @@
 
 pub mod json;
 pub mod latex;
+pub mod states;
 pub mod text;
 
 use crate::expression::{Expr, Factor, IntegralKind, Term};

@@ -1,0 +1,113 @@
+//! The determinant expansion of every named state, as text or JSON: what a coupled state or a
+//! combination is made of, with exact coefficients, for inspection or for other programs.
+
+use crate::exact::ExactDisplay;
+use crate::orbital::Spin;
+use crate::program::{DetSpec, Occupant, Program};
+use serde::Serialize;
+
+fn det_text(program: &Program, det: &DetSpec) -> String {
+    let mut parts = vec![];
+    for occupant in &det.occupants {
+        parts.push(match *occupant {
+            Occupant::Closed(s) => format!("{}^2", program.spaces[s as usize].name),
+            Occupant::Electron(so) => program.spin_orbital_name(so),
+        });
+    }
+    let mut out = format!("| {} |", parts.join(" "));
+    for e in &det.excitations {
+        let list = |v: &[crate::orbital::SpinOrbital]| {
+            v.iter().map(|&so| program.spin_orbital_name(so)).collect::<Vec<_>>().join(" ")
+        };
+        out.push_str(&format!("[{} -> {}]", list(&e.from), list(&e.to)));
+    }
+    out
+}
+
+/// Every named state with its determinants, one per line.
+pub fn render_text(program: &Program) -> String {
+    let mut out = String::new();
+    for s in &program.states {
+        out.push_str(&format!("{}  ({} determinant(s))\n", s.name, s.state.terms.len()));
+        for (c, det) in s.state.terms.iter() {
+            out.push_str(&format!(
+                "  {:>12}  {}\n",
+                ExactDisplay { value: c, ascii: true }.to_string(),
+                det_text(program, det)
+            ));
+        }
+    }
+    out
+}
+
+#[derive(Serialize)]
+struct OccupantOut {
+    #[serde(skip_serializing_if = "Option::is_none")]
+    space: Option<String>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    orbital: Option<String>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    spin: Option<Spin>,
+}
+
+#[derive(Serialize)]
+struct DetOut {
+    coefficient: super::json::CoefficientOut,
+    /// In creation order, as written.
+    occupants: Vec<OccupantOut>,
+    /// Applied after the occupants, in order; `from` and `to` as spin-orbital names.
+    excitations: Vec<(Vec<String>, Vec<String>)>,
+}
+
+#[derive(Serialize)]
+struct StateOut {
+    name: String,
+    determinants: Vec<DetOut>,
+}
+
+/// `{"states": [{"name", "determinants": [{"coefficient", "occupants", "excitations"}]}]}`.
+pub fn render_json(program: &Program) -> String {
+    let states: Vec<StateOut> = program
+        .states
+        .iter()
+        .map(|s| StateOut {
+            name: s.name.clone(),
+            determinants: s
+                .state
+                .terms
+                .iter()
+                .map(|(c, det)| DetOut {
+                    coefficient: super::json::coefficient(c),
+                    occupants: det
+                        .occupants
+                        .iter()
+                        .map(|o| match *o {
+                            Occupant::Closed(k) => OccupantOut {
+                                space: Some(program.spaces[k as usize].name.clone()),
+                                orbital: None,
+                                spin: None,
+                            },
+                            Occupant::Electron(so) => OccupantOut {
+                                space: None,
+                                orbital: Some(program.orb_name(so.orb)),
+                                spin: Some(so.spin),
+                            },
+                        })
+                        .collect(),
+                    excitations: det
+                        .excitations
+                        .iter()
+                        .map(|e| {
+                            let names = |v: &[crate::orbital::SpinOrbital]| {
+                                v.iter().map(|&so| program.spin_orbital_name(so)).collect()
+                            };
+                            (names(&e.from), names(&e.to))
+                        })
+                        .collect(),
+                })
+                .collect(),
+        })
+        .collect();
+    serde_json::to_string_pretty(&serde_json::json!({ "states": states })).expect("plain data serializes")
+        + "\n"
+}

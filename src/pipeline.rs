@@ -122,7 +122,7 @@ pub fn results_text(results: &[Evaluated]) -> String {
     let mut out = String::new();
     for r in results {
         if !r.tabulated {
-            out.push_str(&format!("{:<32} {:>22.12}\n", r.request, r.entries[0].value));
+            out.push_str(&format!("{:<32} {:>22.12}\n", r.request, r.entries[0].value + 0.0));
             continue;
         }
         out.push_str(&format!("{}\n", r.request));

@@ -1,0 +1,145 @@
+//! Spin-adapted configurations built by genealogical coupling: their energies against hand-built
+//! combinations, closed forms for three open shells (derived by hand), exact spin, and clear
+//! errors for couplings that cannot exist.
+
+use spinfold::{
+    DEFAULT_SEED, Exact, Expr, Format, Limits, Options, derive, derive_checked, parse, parse_with, render,
+};
+
+fn derived_values(input: &str) -> Vec<Expr> {
+    let program = parse("t.sf", input).unwrap();
+    derive_checked(&program, &Options::default(), Some(DEFAULT_SEED))
+        .unwrap()
+        .into_iter()
+        .map(|(d, _)| d.value)
+        .collect()
+}
+
+fn text_lines(input: &str) -> Vec<String> {
+    let program = parse("t.sf", input).unwrap();
+    let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED)).unwrap();
+    derived
+        .iter()
+        .map(|one| {
+            render(&program, std::slice::from_ref(one), Format::Text { ascii: true })
+                .lines()
+                .nth(1)
+                .unwrap()
+                .trim()
+                .to_string()
+        })
+        .collect()
+}
+
+#[test]
+fn two_open_shells_from_csfs_equal_the_hand_built_states() {
+    let v = derived_values(
+        "orbitals a b\nspace core\n\
+         csf S = | core^2 a b | S=0\ncsf T = | core^2 a b | S=1 M=0\n\
+         state S2 = (| core^2 a b' | - | core^2 a' b |)/sqrt(2)\nstate T2 = (| core^2 a b' | + | core^2 a' b |)/sqrt(2)\n\
+         energy S\nenergy S2\nenergy T\nenergy T2\nenergy | core^2 a b |\n",
+    );
+    assert_eq!(v[0], v[1], "singlet: J_ab + K_ab");
+    assert_eq!(v[2], v[3], "triplet M = 0: J_ab - K_ab");
+    assert_eq!(v[2], v[4], "every triplet component has the same energy");
+    assert_ne!(v[0], v[2]);
+}
+
+const THREE: &str = "orbitals p q r\nspace core\n\
+    csf D1 = | core^2 p q r | S=1/2 path=1/2,0,1/2\n\
+    csf D2 = | core^2 p q r | S=1/2 path=1/2,1,1/2\n\
+    csf Q  = | core^2 p q r | S=3/2 M=1/2\n\
+    csfs all = | core^2 p q r | S=1/2\n";
+
+#[test]
+fn three_open_shell_doublets_in_closed_form() {
+    let lines =
+        text_lines(&format!("{THREE}energy D1\nenergy D2\nelement D1 D2\nenergy Q\nelement all.1 all.2\n"));
+    // the common h and J terms, then the couplings (derived by hand, common practice)
+    assert_eq!(lines[0], "= h_pp + h_qq + h_rr + J_pq + J_pr + J_qr + K_pq - 1/2 K_pr - 1/2 K_qr");
+    assert_eq!(lines[1], "= h_pp + h_qq + h_rr + J_pq + J_pr + J_qr - K_pq + 1/2 K_pr + 1/2 K_qr");
+    // |<D1|H|D2>| = (sqrt(3)/2) |K_pr - K_qr|
+    assert_eq!(lines[2], "= sqrt(3)/2 K_pr - sqrt(3)/2 K_qr");
+    // quartet: every open pair J - K
+    assert_eq!(lines[3], "= h_pp + h_qq + h_rr + J_pq + J_pr + J_qr - K_pq - K_pr - K_qr");
+    // csfs numbers the paths with the lower intermediate spins first
+    assert_eq!(lines[4], lines[2]);
+}
+
+#[test]
+fn every_coupled_state_has_exact_spin() {
+    // <S^2> = S(S+1) and <S_z> = M exactly, for every path of up to eight open shells
+    for n in 1..=8usize {
+        let names: Vec<String> = (1..=n).map(|k| format!("o{k}")).collect();
+        for twice_s in (0..=n).rev().step_by(2) {
+            let s = |t: i64| if t % 2 == 0 { format!("{}", t / 2) } else { format!("{t}/2") };
+            for twice_m in [twice_s as i64, -(twice_s as i64)] {
+                let input = format!(
+                    "orbitals {0}\nspace core\ncsfs F = | core^2 {0} | S={1} M={2}\n",
+                    names.join(" "),
+                    s(twice_s as i64),
+                    s(twice_m)
+                );
+                let mut program = parse("spin.sf", &input).unwrap();
+                let count = program.states.len();
+                let requests: String = (1..=count).map(|k| format!("spin F.{k}\n")).collect();
+                program = parse("spin.sf", &format!("{input}{requests}")).unwrap();
+                let expected = Exact::fraction((twice_s * (twice_s + 2)) as i64, 4);
+                for request in &program.requests {
+                    let d = derive(&program, request, &Options::default()).unwrap();
+                    assert_eq!(d.value, Expr::constant(expected.clone()), "{input}{}", request.text);
+                    assert_eq!(d.s_z, Expr::constant(Exact::fraction(twice_m, 2)));
+                    assert!(d.notes.is_empty(), "an eigenfunction draws no warning");
+                }
+            }
+        }
+    }
+}
+
+#[test]
+fn a_single_determinant_of_mixed_spin_is_flagged_but_still_derived() {
+    let program = parse("mixed.sf", "orbitals a b\nspin | a b' |\nenergy | a b' |\n").unwrap();
+    let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED)).unwrap();
+    assert_eq!(derived[0].0.value, Expr::constant(Exact::one()), "<S^2> = 1: half singlet, half triplet");
+    assert!(derived[0].0.notes[0].starts_with("warning:"));
+    assert!(!derived[1].0.value.is_zero());
+}
+
+fn error_of(input: &str) -> String {
+    parse("bad.sf", input).unwrap_err().render()
+}
+
+#[test]
+fn couplings_that_cannot_exist_are_refused_with_a_reason() {
+    let base = "orbitals p q r\nspace core\n";
+    let cases = [
+        ("csf X = | core^2 p q r | S=1", "3 open shell(s) cannot couple to S = 1"),
+        ("csf X = | core^2 p q r | S=1/2", "in 2 ways: give `path=` or use `csfs`"),
+        ("csf X = | core^2 p q r | S=1/2 path=1/2,1", "2 intermediate spins but there are 3 open shells"),
+        ("csf X = | core^2 p q r | S=1/2 path=1/2,3/2,1/2", "each shell changes it by 1/2"),
+        ("csf X = | core^2 p q r | S=1/2 path=1/2,1,3/2", "ends at 3/2 but S = 1/2"),
+        ("csf X = | core^2 p q r | S=3/2 M=5/2", "M = 5/2 is not one of"),
+        ("csf X = | core^2 p q' r | S=1/2 path=1/2,0,1/2", "carries a spin mark"),
+        ("csf X = | core^2 p q r |", "needs its total spin"),
+        ("csfs X = | core^2 p q r | S=1/2 path=1/2,0,1/2", "leave out `path=`"),
+        ("csfs X = | core^2 p q r | S=1/2\nenergy X", "a family of 2 coupled states"),
+    ];
+    for (line, message) in cases {
+        let report = error_of(&format!("{base}{line}\n"));
+        assert!(report.contains(message), "{line}\n{report}");
+        let line_number = 2 + line.lines().count();
+        assert!(report.contains(&format!("bad.sf:{line_number}:")), "{report}");
+    }
+}
+
+#[test]
+fn a_coupling_past_the_size_limit_stops_with_a_clear_error() {
+    let names: Vec<String> = (1..=16).map(|k| format!("o{k}")).collect();
+    let input = format!(
+        "orbitals {0}\nspace core\ncsf X = | core^2 {0} | S=0 path=1/2,1,3/2,2,5/2,3,7/2,4,7/2,3,5/2,2,3/2,1,1/2,0\n",
+        names.join(" ")
+    );
+    let error = parse_with("big.sf", &input, Limits { max_determinants: 10_000 }).unwrap_err();
+    assert!(error.render().contains("12870 determinants"), "{}", error.render());
+    assert!(parse_with("big.sf", &input, Limits { max_determinants: 20_000 }).is_ok());
+}

@@ -87,6 +87,47 @@ impl Integrals for DenseIntegrals {
     }
 }
 
+/// Integrals defined by a formula anyone can reproduce, so that generated code can check itself
+/// without carrying tables: the canonical index of an integral under the 8-fold symmetry is
+/// hashed with splitmix64 and mapped to [-0.5, 0.5). h_pq uses key 2·pair(p,q), (pq|rs) key
+/// 2·pair(pair(p,q), pair(r,s)) + 1, with pair(x,y) = max·(max+1)/2 + min.
+#[derive(Clone, Copy, Debug)]
+pub struct HashedIntegrals {
+    pub seed: u64,
+    pub orbitals: usize,
+}
+
+/// The pair index of the 8-fold symmetry: max(x,y)(max(x,y)+1)/2 + min(x,y).
+pub fn pair_index(x: u64, y: u64) -> u64 {
+    let (hi, lo) = if x >= y { (x, y) } else { (y, x) };
+    hi * (hi + 1) / 2 + lo
+}
+
+/// splitmix64 of key ^ seed, as a float in [-0.5, 0.5).
+pub fn hashed_value(key: u64, seed: u64) -> f64 {
+    let mut z = (key ^ seed).wrapping_add(0x9e37_79b9_7f4a_7c15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+    z ^= z >> 31;
+    (z >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+}
+
+impl Integrals for HashedIntegrals {
+    fn orbital_count(&self) -> usize {
+        self.orbitals
+    }
+    fn h(&self, p: usize, q: usize) -> f64 {
+        hashed_value(2 * pair_index(p as u64, q as u64), self.seed)
+    }
+    fn eri(&self, p: usize, q: usize, r: usize, s: usize) -> f64 {
+        let key = pair_index(pair_index(p as u64, q as u64), pair_index(r as u64, s as u64));
+        hashed_value(2 * key + 1, self.seed)
+    }
+    fn constant(&self) -> f64 {
+        0.0
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

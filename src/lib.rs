@@ -17,7 +17,7 @@
 //! let program = parse("singlet.sf", input).unwrap();
 //! // derive every request and verify it against brute force (seeded random integrals)
 //! let derived = derive_checked(&program, &Options::default(), Some(7)).unwrap();
-//! let text = render(&program, &derived, Format::Text { ascii: true });
+//! let text = render(&program, &derived, Format::Text { ascii: true }).unwrap();
 //! assert!(text.contains("= h_aa + h_bb + J_ab + K_ab"));
 //! assert!(text.contains("sum_{k,l in core} (2 J_kl - K_kl)"));
 //! ```

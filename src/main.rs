@@ -26,6 +26,8 @@ enum To {
     Text,
     Latex,
     Json,
+    Rust,
+    Python,
 }
 
 #[derive(clap::Args)]
@@ -130,8 +132,10 @@ fn run(cli: Cli) -> Result<()> {
                 To::Text => Format::Text { ascii },
                 To::Latex => Format::Latex { standalone },
                 To::Json => Format::Json,
+                To::Rust => Format::Rust,
+                To::Python => Format::Python,
             };
-            write_output(output.as_deref(), &render(&program, &checked, format))
+            write_output(output.as_deref(), &render(&program, &checked, format)?)
         }
         Command::States { file, json, max_determinants, output } => {
             let (name, text) = read_input(&file)?;

@@ -34,17 +34,29 @@ pub fn derive_checked(program: &Program, options: &Options, seed: Option<u64>) -
 /// The output formats of `derive`.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Format {
-    Text { ascii: bool },
-    Latex { standalone: bool },
+    Text {
+        ascii: bool,
+    },
+    Latex {
+        standalone: bool,
+    },
     Json,
+    /// A std-only Rust module with a self-checking test.
+    Rust,
+    /// A NumPy module with a self-checking test function.
+    Python,
 }
 
-pub fn render(program: &Program, derivations: &[Checked], format: Format) -> String {
-    match format {
+/// The derivations in one output format. Code formats compute their embedded test vectors by
+/// brute force, which is why this can fail.
+pub fn render(program: &Program, derivations: &[Checked], format: Format) -> Result<String> {
+    Ok(match format {
         Format::Text { ascii } => emit::text::render(program, derivations, ascii),
         Format::Latex { standalone } => emit::latex::render(program, derivations, standalone),
         Format::Json => emit::json::render(program, derivations),
-    }
+        Format::Rust => emit::rust::render(program, derivations)?,
+        Format::Python => emit::python::render(program, derivations)?,
+    })
 }
 
 /// The determinant expansion of every named state, as text or JSON.

@@ -11,7 +11,7 @@ const INPUT: &str = "space occ\ndet ground = | occ^2 |\nenergy ground\n";
 fn the_formula_comes_out_exactly() {
     let program = parse("closed.sf", INPUT).unwrap();
     let derived = derive_checked(&program, &Options::default(), Some(1)).unwrap();
-    let text = render(&program, &derived, Format::Text { ascii: true });
+    let text = render(&program, &derived, Format::Text { ascii: true }).unwrap();
     let body: Vec<&str> = text.lines().skip(1).take(2).map(str::trim).collect();
     assert_eq!(body, ["= 2 sum_{k in occ} h_kk", "+ sum_{k,l in occ} (2 J_kl - K_kl)"]);
     assert_eq!(derived[0].0.value.terms.len(), 3);

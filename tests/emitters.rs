@@ -45,16 +45,19 @@ fn every_example_in_every_format() {
             (Format::Latex { standalone: true }, "tex"),
             (Format::Json, "json"),
         ] {
-            snapshot(&format!("{stem}.{suffix}"), &render(&program, &derived, format));
+            snapshot(&format!("{stem}.{suffix}"), &render(&program, &derived, format).unwrap());
         }
         // the Fock-operator presentation, as text and LaTeX
         let fock = Options { fock: true, ..Options::default() };
         let derived =
             derive_checked(&program, &fock, Some(DEFAULT_SEED)).unwrap_or_else(|e| panic!("{stem}: {e}"));
-        snapshot(&format!("{stem}.fock.txt"), &render(&program, &derived, Format::Text { ascii: false }));
+        snapshot(
+            &format!("{stem}.fock.txt"),
+            &render(&program, &derived, Format::Text { ascii: false }).unwrap(),
+        );
         snapshot(
             &format!("{stem}.fock.tex"),
-            &render(&program, &derived, Format::Latex { standalone: false }),
+            &render(&program, &derived, Format::Latex { standalone: false }).unwrap(),
         );
     }
 }

@@ -24,6 +24,7 @@ fn lines(program: &Program, options: &Options) -> Vec<String> {
         .iter()
         .map(|one| {
             render(program, std::slice::from_ref(one), Format::Text { ascii: true })
+                .unwrap()
                 .lines()
                 .skip(1)
                 .filter(|l| !l.contains("verified") && !l.trim_start().starts_with("with "))

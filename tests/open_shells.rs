@@ -12,6 +12,7 @@ fn bodies(input: &str) -> Vec<String> {
         .iter()
         .map(|one| {
             render(&program, std::slice::from_ref(one), Format::Text { ascii: true })
+                .unwrap()
                 .lines()
                 .skip(1)
                 .filter(|l| !l.contains("verified"))

@@ -22,6 +22,7 @@ fn text_lines(input: &str) -> Vec<String> {
         .iter()
         .map(|one| {
             render(&program, std::slice::from_ref(one), Format::Text { ascii: true })
+                .unwrap()
                 .lines()
                 .nth(1)
                 .unwrap()

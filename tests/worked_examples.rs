@@ -133,7 +133,7 @@ fn derived_formulas_are_the_textbook_ones() {
     assert_eq!(checked[1].0.overlap, Expr::constant(Exact::one()));
 
     // The same three formulas as text.
-    let text = render(&program, &checked, Format::Text { ascii: true });
+    let text = render(&program, &checked, Format::Text { ascii: true }).unwrap();
     assert!(text.contains("energy ground"), "{text}");
     assert!(text.contains("= 2 h_gg + J_gg\n"), "{text}");
     assert!(text.contains("= 2 h_uu + J_uu\n"), "{text}");

@@ -3,6 +3,8 @@
 
 pub mod json;
 pub mod latex;
+pub mod python;
+pub mod rust;
 pub mod states;
 pub mod text;
 
@@ -126,5 +128,121 @@ pub fn verification_line(report: Option<&crate::verify::Report>) -> String {
     match report {
         Some(r) => r.summary(),
         None => "not verified (--no-verify)".to_string(),
+    }
+}
+
+/// One self-check of generated code: a binding of every symbol to 0-based orbitals of a
+/// `HashedIntegrals` table, and the value brute-force determinant algebra gives there.
+#[derive(Clone, Debug, PartialEq)]
+pub struct TestVector {
+    pub binding: crate::evaluate::Binding,
+    pub orbitals: usize,
+    pub expected: f64,
+    /// "brute force", or for states too large for it, "verified expression".
+    pub source: &'static str,
+}
+
+/// The seed of the integrals that generated code checks itself on.
+pub const TEST_SEED: u64 = 0x5eed_2026;
+
+/// Test vectors for one derivation: the spaces sized 2 and 3 (more where generic indices need
+/// room), generic indices at their first assignment and, where two indices share a space, also
+/// where they coincide.
+pub fn test_vectors(
+    program: &Program,
+    request: &crate::program::Request,
+    derivation: &crate::derive::Derivation,
+) -> crate::error::Result<Vec<TestVector>> {
+    use crate::evaluate::{Binding, evaluate};
+    use crate::integrals::HashedIntegrals;
+    let mut out = vec![];
+    for base in [2usize, 3] {
+        let mut next = program.orbitals.len();
+        let spaces: Vec<Vec<usize>> = program
+            .spaces
+            .iter()
+            .enumerate()
+            .map(|(s, _)| {
+                let needed = derivation
+                    .free_indices
+                    .iter()
+                    .filter(|&&k| program.indices[k as usize].space == s as u32)
+                    .count();
+                let n = base.max(needed + 1);
+                next += n;
+                (next - n..next).collect()
+            })
+            .collect();
+        let ints = HashedIntegrals { seed: TEST_SEED, orbitals: next };
+        for coincide in [false, true] {
+            if coincide && (derivation.distinct || base == 3) {
+                continue;
+            }
+            let mut binding = Binding {
+                orbitals: (0..program.orbitals.len()).collect(),
+                spaces: spaces.clone(),
+                indices: vec![None; program.indices.len()],
+            };
+            let mut used_in_space = vec![0usize; program.spaces.len()];
+            for &k in &derivation.free_indices {
+                let s = program.indices[k as usize].space as usize;
+                let slot = if coincide { 0 } else { used_in_space[s] };
+                binding.indices[k as usize] = Some(spaces[s][slot.min(spaces[s].len() - 1)]);
+                used_in_space[s] += 1;
+            }
+            if coincide && used_in_space.iter().all(|&n| n < 2) {
+                continue;
+            }
+            let small = request.bra.terms.len() + request.ket.terms.len() <= crate::verify::FULL_CHECK_LIMIT;
+            let (expected, source) = if small {
+                match crate::verify::compare(program, request, derivation, &binding, &ints)? {
+                    Some(c) => (c[0].brute_force, "brute force"),
+                    None => continue,
+                }
+            } else {
+                (evaluate(&derivation.value, &binding, &ints), "verified expression")
+            };
+            out.push(TestVector { binding, orbitals: next, expected, source });
+        }
+    }
+    Ok(out)
+}
+
+/// Identifiers for generated code: input names made valid, keywords and clashes avoided.
+pub struct Identifiers {
+    taken: BTreeSet<String>,
+    keywords: &'static [&'static str],
+}
+
+impl Identifiers {
+    pub fn new(keywords: &'static [&'static str], reserved: &[&str]) -> Identifiers {
+        Identifiers { taken: reserved.iter().map(|s| s.to_string()).collect(), keywords }
+    }
+
+    /// A fresh identifier from `wanted`: letters, digits and `_` only, lower case, not starting
+    /// with a digit, not a keyword, not given out before.
+    pub fn fresh(&mut self, wanted: &str) -> String {
+        let mut base: String = wanted
+            .chars()
+            .map(|c| if c.is_ascii_alphanumeric() { c.to_ascii_lowercase() } else { '_' })
+            .collect();
+        while base.contains("__") {
+            base = base.replace("__", "_");
+        }
+        let base = base.trim_matches('_').to_string();
+        let base = if base.is_empty() || base.starts_with(|c: char| c.is_ascii_digit()) {
+            format!("x_{base}")
+        } else {
+            base
+        };
+        let base = if self.keywords.contains(&base.as_str()) { format!("{base}_") } else { base };
+        let mut name = base.clone();
+        let mut n = 2;
+        while self.taken.contains(&name) {
+            name = format!("{base}_{n}");
+            n += 1;
+        }
+        self.taken.insert(name.clone());
+        name
     }
 }

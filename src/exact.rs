@@ -110,6 +110,22 @@ impl Exact {
         self.parts.iter().map(|(n, q)| q.to_f64().unwrap_or(f64::NAN) * (*n as f64).sqrt()).sum()
     }
 
+    /// The nearest f64 (ties to even) for a rational times one square root; a sum of several
+    /// roots is the sum of its correctly rounded parts.
+    pub fn to_f64_rounded(&self) -> f64 {
+        self.parts
+            .iter()
+            .map(|(n, q)| {
+                let magnitude = if *n == 1 {
+                    q.abs().to_f64().unwrap_or(f64::NAN)
+                } else {
+                    sqrt_correctly_rounded(&(q * q * BigRational::from_integer(BigInt::from(*n))))
+                };
+                if q.is_negative() { -magnitude } else { magnitude }
+            })
+            .sum()
+    }
+
     /// True when the leading (smallest-radicand) part is negative: used to print a
     /// term with a minus sign in front.
     pub fn is_negative(&self) -> bool {
@@ -168,6 +184,27 @@ impl Exact {
         }
         out
     }
+}
+
+/// √x for a positive rational x, rounded to the nearest f64 with ties to even: the root is found
+/// to 57 bits with big integers, and whether anything is left below them decides halfway cases.
+fn sqrt_correctly_rounded(x: &BigRational) -> f64 {
+    let (n, d) = (x.numer().clone(), x.denom().clone());
+    let log2 = n.bits() as i64 - d.bits() as i64;
+    let k = (114 - log2) / 2 + 1;
+    let (num, den) = if k >= 0 { (n << (2 * k) as usize, d) } else { (n, d << (-2 * k) as usize) };
+    let r = &num / &den;
+    let root = r.sqrt();
+    let exact = &r * &den == num && &root * &root == r;
+    let drop = root.bits() as i64 - 53;
+    let mut mantissa = &root >> drop as usize;
+    let remainder = &root - (&mantissa << drop as usize);
+    let half = BigInt::from(1) << (drop - 1) as usize;
+    let odd = &mantissa % 2 == BigInt::from(1);
+    if remainder > half || (remainder == half && (!exact || odd)) {
+        mantissa += 1;
+    }
+    mantissa.to_f64().unwrap_or(f64::NAN) * 2f64.powi((drop - k) as i32)
 }
 
 impl Add for &Exact {
@@ -316,6 +353,15 @@ mod tests {
         assert_eq!(format!("{}", root(1, 2)), "sqrt(2)/2");
         assert_eq!(format!("{}", root(12, 1)), "2sqrt(3)");
         assert_eq!(root(9, 4), Exact::fraction(3, 2));
+    }
+
+    #[test]
+    fn roots_round_to_the_nearest_double() {
+        assert_eq!(root(1, 2).to_f64_rounded(), 0.5f64.sqrt());
+        assert_eq!(root(3, 4).to_f64_rounded(), 3f64.sqrt() / 2.0);
+        assert_eq!(root(2, 1).to_f64_rounded(), std::f64::consts::SQRT_2);
+        assert_eq!((-root(1, 6)).to_f64_rounded(), -(1.0f64 / 6.0).sqrt());
+        assert_eq!(Exact::fraction(1, 3).to_f64_rounded(), 1.0 / 3.0);
     }
 
     #[test]

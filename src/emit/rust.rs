@@ -1,10 +1,345 @@
 //! Rust source for derived expressions: a std-only module with an integral-access trait, one
 //! documented function per request with loops for the sums, and a self-checking test.
 
+use super::{Group, Identifiers, Namer, TEST_SEED, groups, test_vectors};
 use crate::error::Result;
+use crate::exact::Exact;
+use crate::expression::{Expr, Factor, IntegralKind};
+use crate::orbital::{Orb, SpaceId, SpaceSet};
 use crate::pipeline::Checked;
-use crate::program::Program;
+use crate::program::{Program, RequestKind};
+use std::fmt::Write;
 
-pub fn render(_program: &Program, _derivations: &[Checked]) -> Result<String> {
-    Ok(String::new())
+const KEYWORDS: &[&str] = &[
+    "as", "async", "await", "break", "const", "continue", "crate", "dyn", "else", "enum", "extern", "false",
+    "fn", "for", "gen", "if", "impl", "in", "let", "loop", "match", "mod", "move", "mut", "pub", "ref",
+    "return", "self", "static", "struct", "super", "trait", "true", "type", "unsafe", "use", "where",
+    "while", "abstract", "become", "box", "do", "final", "macro", "override", "priv", "try", "typeof",
+    "unsized", "virtual", "yield", "union", "Self",
+];
+
+/// Names every generated function must leave alone.
+const RESERVED: &[&str] =
+    &["Integrals", "ints", "value", "fock", "reference_energy", "space", "other", "close", "Hashed"];
+
+/// What a function takes: the free orbitals and the spaces its expression sums over.
+struct Signature {
+    name: String,
+    orbitals: Vec<(Orb, String)>,
+    spaces: Vec<(SpaceId, String)>,
+}
+
+impl Signature {
+    fn new(program: &Program, expr: &Expr, name: String) -> Signature {
+        let mut local = Identifiers::new(KEYWORDS, RESERVED);
+        let orbitals = expr.free_orbs().into_iter().map(|o| (o, local.fresh(&program.orb_name(o)))).collect();
+        let mut spaces: Vec<SpaceId> = expr
+            .terms
+            .iter()
+            .flat_map(|t| {
+                let closed = match t.factor {
+                    Factor::Fock(_, _, c) | Factor::RefEnergy(c) => c.members(),
+                    _ => vec![],
+                };
+                t.sums.iter().copied().chain(closed)
+            })
+            .collect();
+        spaces.sort();
+        spaces.dedup();
+        let spaces = spaces.into_iter().map(|s| (s, local.fresh(&program.spaces[s as usize].name))).collect();
+        Signature { name, orbitals, spaces }
+    }
+
+    fn orbital(&self, o: Orb) -> &str {
+        &self.orbitals.iter().find(|(x, _)| *x == o).expect("every free orbital is a parameter").1
+    }
+
+    fn space(&self, s: SpaceId) -> &str {
+        &self.spaces.iter().find(|(x, _)| *x == s).expect("every summed space is a parameter").1
+    }
+
+    fn parameters(&self, uses_integrals: bool) -> Vec<String> {
+        let mut out = vec![if uses_integrals { "ints: &I" } else { "_ints: &I" }.to_string()];
+        out.extend(self.orbitals.iter().map(|(_, n)| format!("{n}: usize")));
+        out.extend(self.spaces.iter().map(|(_, n)| format!("{n}: &[usize]")));
+        out
+    }
+}
+
+/// An f64 literal for an exact coefficient's magnitude, correctly rounded.
+fn literal(c: &Exact) -> String {
+    let v = c.abs().to_f64_rounded();
+    // the standard library's constants are the same correctly rounded values
+    if v == std::f64::consts::SQRT_2 {
+        return "std::f64::consts::SQRT_2".into();
+    }
+    if v == std::f64::consts::FRAC_1_SQRT_2 {
+        return "std::f64::consts::FRAC_1_SQRT_2".into();
+    }
+    let text = format!("{v:?}");
+    if text.contains('.') || text.contains('e') { text } else { format!("{text}.0") }
+}
+
+/// `fn name<I: ...>(params) -> f64 {` in the layout rustfmt gives it.
+fn header(name: &str, parameters: &[String]) -> String {
+    let one_line = format!("pub fn {name}<I: Integrals + ?Sized>({}) -> f64 {{", parameters.join(", "));
+    if one_line.len() <= 100 {
+        return one_line + "\n";
+    }
+    let mut out = format!("pub fn {name}<I: Integrals + ?Sized>(\n");
+    for p in parameters {
+        out.push_str(&format!("    {p},\n"));
+    }
+    out + ") -> f64 {\n"
+}
+
+/// A call `f(a, b, ...)` at `indent`, vertical when rustfmt would make it so.
+fn call(f: &str, arguments: &[String], indent: usize) -> String {
+    let one_line = format!("{f}({})", arguments.join(", "));
+    if arguments.join(", ").len() <= 60 {
+        return one_line;
+    }
+    let pad = " ".repeat(indent + 4);
+    let mut out = format!("{f}(\n");
+    for a in arguments {
+        out.push_str(&format!("{pad}{a},\n"));
+    }
+    out + &" ".repeat(indent) + ")"
+}
+
+fn closed_argument(sig: &Signature, closed: SpaceSet) -> String {
+    format!("&[{}]", closed.members().iter().map(|&s| sig.space(s)).collect::<Vec<_>>().join(", "))
+}
+
+/// The integral of a term as a Rust expression.
+fn integral(factor: &Factor, sig: &Signature, summed: &[String]) -> String {
+    let o = |x: Orb| match x {
+        Orb::Summed(d) => summed[d as usize].clone(),
+        other => sig.orbital(other).to_string(),
+    };
+    match *factor {
+        Factor::One => "1.0".into(),
+        Factor::H(p, q) => format!("ints.h({}, {})", o(p), o(q)),
+        Factor::Eri(p, q, r, s) => format!("ints.eri({}, {}, {}, {})", o(p), o(q), o(r), o(s)),
+        Factor::Fock(p, q, c) => format!("fock(ints, {}, {}, {})", o(p), o(q), closed_argument(sig, c)),
+        Factor::RefEnergy(c) => format!("reference_energy(ints, {})", closed_argument(sig, c)),
+    }
+}
+
+fn group_code(group: &Group, namer: &Namer, sig: &Signature, out: &mut String) {
+    let mut local = Identifiers::new(KEYWORDS, RESERVED);
+    for n in sig.orbitals.iter().map(|(_, n)| n).chain(sig.spaces.iter().map(|(_, n)| n)) {
+        local.fresh(n);
+    }
+    let summed: Vec<String> = namer.summed_names(group.sums).iter().map(|n| local.fresh(n)).collect();
+    let mut depth = 1;
+    let pad = |d: usize| "    ".repeat(d);
+    if !group.deltas.is_empty() {
+        let conditions: Vec<String> =
+            group.deltas.iter().map(|&(a, b)| format!("{} == {}", sig.orbital(a), sig.orbital(b))).collect();
+        writeln!(out, "{}if {} {{", pad(depth), conditions.join(" && ")).ok();
+        depth += 1;
+    }
+    for (d, &space) in group.sums.iter().enumerate() {
+        writeln!(out, "{}for &{} in {} {{", pad(depth), summed[d], sig.space(space)).ok();
+        depth += 1;
+    }
+    for term in &group.terms {
+        let op = if term.coeff.is_negative() { "-=" } else { "+=" };
+        let body = integral(&term.factor, sig, &summed);
+        let value = if term.coeff.abs() == Exact::one() {
+            body
+        } else if body == "1.0" {
+            literal(&term.coeff)
+        } else {
+            format!("{} * {body}", literal(&term.coeff))
+        };
+        writeln!(out, "{}value {op} {value};", pad(depth)).ok();
+    }
+    while depth > 1 {
+        depth -= 1;
+        writeln!(out, "{}}}", pad(depth)).ok();
+    }
+}
+
+const PREAMBLE: &str = r#"/// Integral access for the functions of this module: 0-based orbital numbers, real orbitals.
+pub trait Integrals {
+    /// The one-electron integral h_pq.
+    fn h(&self, p: usize, q: usize) -> f64;
+    /// The two-electron integral (pq|rs) in chemists' notation.
+    fn eri(&self, p: usize, q: usize, r: usize, s: usize) -> f64;
+}
+"#;
+
+const FOCK: &str = r#"
+/// The Fock matrix of the closed spaces: f_pq = h_pq + sum over k in them of 2 (pq|kk) - (pk|kq).
+pub fn fock<I: Integrals + ?Sized>(ints: &I, p: usize, q: usize, closed: &[&[usize]]) -> f64 {
+    let mut value = ints.h(p, q);
+    for space in closed {
+        for &k in space.iter() {
+            value += 2.0 * ints.eri(p, q, k, k) - ints.eri(p, k, k, q);
+        }
+    }
+    value
+}
+"#;
+
+const REFERENCE: &str = r#"
+/// The energy of the closed spaces alone: sum of 2 h_kk + sum over k, l of 2 J_kl - K_kl.
+pub fn reference_energy<I: Integrals + ?Sized>(ints: &I, closed: &[&[usize]]) -> f64 {
+    let mut value = 0.0;
+    for space in closed {
+        for &k in space.iter() {
+            value += 2.0 * ints.h(k, k);
+            for other in closed {
+                for &l in other.iter() {
+                    value += 2.0 * ints.eri(k, k, l, l) - ints.eri(k, l, l, k);
+                }
+            }
+        }
+    }
+    value
+}
+"#;
+
+const TEST_PREAMBLE: &str = r#"
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The integrals the expected values were computed on: each canonical integral's key
+    /// (h_pq: 2 pair(p, q); (pq|rs): 2 pair(pair(p, q), pair(r, s)) + 1) through splitmix64.
+    struct Hashed;
+
+    fn pair(x: usize, y: usize) -> u64 {
+        let (hi, lo) = if x >= y {
+            (x as u64, y as u64)
+        } else {
+            (y as u64, x as u64)
+        };
+        hi * (hi + 1) / 2 + lo
+    }
+
+    fn hashed(key: u64) -> f64 {
+        let mut z = (key ^ SEED).wrapping_add(0x9e37_79b9_7f4a_7c15);
+        z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+        z ^= z >> 31;
+        (z >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+    }
+
+    impl Integrals for Hashed {
+        fn h(&self, p: usize, q: usize) -> f64 {
+            hashed(2 * pair(p, q))
+        }
+        fn eri(&self, p: usize, q: usize, r: usize, s: usize) -> f64 {
+            hashed(2 * pair(pair(p, q) as usize, pair(r, s) as usize) + 1)
+        }
+    }
+
+    fn close(derived: f64, expected: f64) -> bool {
+        (derived - expected).abs() <= 1e-10 * expected.abs().max(1.0)
+    }
+"#;
+
+/// A function name for a request: its keyword and operand names, or its number when an
+/// operand is written out.
+fn function_name(kind: RequestKind, operands: &[&str], number: usize) -> String {
+    let simple =
+        operands.iter().all(|o| o.chars().all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '.'));
+    if simple {
+        format!("{}_{}", kind.keyword(), operands.join("_"))
+    } else {
+        format!("{}_{number}", kind.keyword())
+    }
+}
+
+pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
+    let mut out = format!(
+        "//! Closed formulas derived by spinfold from `{}`, verified against brute-force\n//! determinant algebra. Regenerate rather than edit.\n\n",
+        program.source.name.replace(['\n', '\r'], " ")
+    );
+    out.push_str(PREAMBLE);
+    let uses =
+        |kind: IntegralKind| derivations.iter().any(|(d, _)| d.value.terms.iter().any(|t| t.kind() == kind));
+    if uses(IntegralKind::Fock) {
+        out.push_str(FOCK);
+    }
+    if uses(IntegralKind::RefEnergy) {
+        out.push_str(REFERENCE);
+    }
+    let mut names = Identifiers::new(KEYWORDS, RESERVED);
+    let mut tests = String::new();
+    for (n, (request, (d, _))) in program.requests.iter().zip(derivations).enumerate() {
+        let operands: Vec<&str> = if matches!(d.kind, RequestKind::Energy | RequestKind::Spin) {
+            vec![&d.bra]
+        } else {
+            vec![&d.bra, &d.ket]
+        };
+        let name = names.fresh(&function_name(d.kind, &operands, n + 1));
+        let sig = Signature::new(program, &d.value, name);
+        let namer = Namer::new(program, &[&d.value]);
+        out.push('\n');
+        writeln!(out, "/// `{}`: {}.", d.text.replace('`', "'"), meaning(d.kind)).ok();
+        out.push_str("///\n/// ```text\n");
+        let formula = super::text::render(program, std::slice::from_ref(&(d.clone(), None)), true);
+        for line in formula.lines().skip(1).filter(|l| !l.contains("not verified")) {
+            writeln!(out, "/// {}", line.trim_end()).ok();
+        }
+        out.push_str("/// ```\n");
+        let uses_integrals = d.value.terms.iter().any(|t| t.factor != Factor::One);
+        let parameters = sig.parameters(uses_integrals);
+        if parameters.len() > 7 {
+            out.push_str("#[allow(clippy::too_many_arguments)]\n");
+        }
+        out.push_str(&header(&sig.name, &parameters));
+        if d.value.is_zero() {
+            out.push_str("    0.0\n}\n");
+        } else {
+            out.push_str("    let mut value = 0.0;\n");
+            for group in groups(&d.value) {
+                group_code(&group, &namer, &sig, &mut out);
+            }
+            out.push_str("    value\n}\n");
+        }
+        for (k, v) in test_vectors(program, request, d)?.iter().enumerate() {
+            let mut arguments = vec!["&Hashed".to_string()];
+            arguments.extend(sig.orbitals.iter().map(|(o, _)| {
+                match *o {
+                    Orb::Named(x) => v.binding.orbitals[x as usize],
+                    Orb::Index(x) => v.binding.indices[x as usize].unwrap_or(0),
+                    Orb::Summed(_) => 0,
+                }
+                .to_string()
+            }));
+            arguments.extend(sig.spaces.iter().map(|(s, _)| {
+                format!(
+                    "&[{}]",
+                    v.binding.spaces[*s as usize]
+                        .iter()
+                        .map(|m| m.to_string())
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                )
+            }));
+            write!(tests, "\n    #[test]\n    fn check_{}_{}() {{\n", sig.name, k + 1).ok();
+            writeln!(tests, "        // expected value: {}", v.source).ok();
+            writeln!(tests, "        let derived = {};", call(&sig.name, &arguments, 8)).ok();
+            writeln!(tests, "        assert!(close(derived, {:?}), \"{{derived}}\");", v.expected).ok();
+            tests.push_str("    }\n");
+        }
+    }
+    out.push_str(TEST_PREAMBLE.replace("SEED", &format!("0x{TEST_SEED:x}")).as_str());
+    out.push_str(&tests);
+    out.push_str("}\n");
+    Ok(out)
+}
+
+fn meaning(kind: RequestKind) -> &'static str {
+    match kind {
+        RequestKind::Energy => "the energy <X|H|X>/<X|X>, electronic part (add the constant energy)",
+        RequestKind::Element => "the matrix element <X|H|Y>, electronic part (add the constant times <X|Y>)",
+        RequestKind::Overlap => "the overlap <X|Y>",
+        RequestKind::Spin => "the expectation value <S^2>",
+    }
 }

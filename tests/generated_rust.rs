@@ -1,0 +1,62 @@
+//! The Rust emitter's output for every bundled example, plain and in Fock form, is gathered
+//! into one scratch crate that must be rustfmt-clean, compile and pass clippy with warnings
+//! denied, and pass the tests embedded in each module.
+
+use std::path::Path;
+use std::process::Command;
+
+fn run(command: &mut Command) -> String {
+    let out = command.output().unwrap_or_else(|e| panic!("{command:?} could not start: {e}"));
+    let text = format!("{}{}", String::from_utf8_lossy(&out.stdout), String::from_utf8_lossy(&out.stderr));
+    assert!(out.status.success(), "{command:?} failed:\n{text}");
+    text
+}
+
+#[test]
+fn generated_modules_are_clean_and_prove_themselves() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let scratch = tempfile::tempdir().unwrap();
+    let src = scratch.path().join("src");
+    std::fs::create_dir_all(&src).unwrap();
+    std::fs::write(
+        scratch.path().join("Cargo.toml"),
+        "[package]\nname = \"generated\"\nversion = \"0.0.0\"\nedition = \"2021\"\n\n[dependencies]\n",
+    )
+    .unwrap();
+    let mut modules = vec![];
+    let mut examples: Vec<_> = std::fs::read_dir(root.join("examples"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|x| x == "sf"))
+        .collect();
+    examples.sort();
+    for example in &examples {
+        let stem = example.file_stem().unwrap().to_string_lossy().to_string();
+        for (suffix, extra) in [("", None), ("_fock", Some("--fock"))] {
+            let module = format!("{stem}{suffix}");
+            let path = src.join(format!("{module}.rs"));
+            let mut command = Command::new(env!("CARGO_BIN_EXE_spinfold"));
+            command.args(["derive", "--to", "rust", "-o"]).arg(&path).arg(example);
+            command.args(extra);
+            run(&mut command);
+            run(Command::new("rustfmt").args(["--edition", "2021", "--check"]).arg(&path));
+            modules.push(module);
+        }
+    }
+    let lib: String = modules.iter().map(|m| format!("pub mod {m};\n")).collect();
+    std::fs::write(src.join("lib.rs"), lib).unwrap();
+    let target = scratch.path().join("target");
+    let cargo = || {
+        let mut c = Command::new(env!("CARGO"));
+        c.current_dir(scratch.path()).env("CARGO_TARGET_DIR", &target).env("RUSTFLAGS", "-D warnings");
+        c
+    };
+    run(cargo().args(["clippy", "--offline", "--quiet", "--all-targets", "--", "-D", "warnings"]));
+    let report = run(cargo().args(["test", "--offline", "--quiet"]));
+    let passed: usize = report
+        .lines()
+        .filter_map(|l| l.strip_prefix("test result: ok. "))
+        .filter_map(|l| l.split_whitespace().next()?.parse::<usize>().ok())
+        .sum();
+    assert!(passed >= modules.len() * 2, "every module checks itself: {report}");
+}

@@ -60,3 +60,19 @@ fn generated_modules_are_clean_and_prove_themselves() {
         .sum();
     assert!(passed >= modules.len() * 2, "every module checks itself: {report}");
 }
+
+#[test]
+fn the_benchmarked_module_is_the_emitters_current_output() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let out = run(Command::new(env!("CARGO_BIN_EXE_spinfold")).current_dir(root).args([
+        "derive",
+        "--to",
+        "rust",
+        "benches/generated/energies.sf",
+    ]));
+    let committed = std::fs::read_to_string(root.join("benches/generated/energies.rs")).unwrap();
+    assert_eq!(
+        out, committed,
+        "regenerate with: spinfold derive --to rust benches/generated/energies.sf -o benches/generated/energies.rs"
+    );
+}

@@ -5,7 +5,7 @@ use crate::evaluate::Binding;
 use crate::integrals::Integrals;
 use crate::orbital::{Orb, Spin, SpinOrbital};
 use crate::program::{Occupant, State};
-use std::collections::HashMap;
+use rustc_hash::FxHashMap;
 
 /// Spatial orbitals a bit string can hold.
 pub const MAX_ORBITALS: usize = 64;
@@ -13,7 +13,7 @@ pub const MAX_ORBITALS: usize = 64;
 /// A vector in the determinant space: occupation bit string → amplitude.
 /// Bit 2p is p-alpha, bit 2p+1 is p-beta; a basis string means its creators in ascending
 /// bit order applied to the vacuum, the lowest leftmost.
-pub type Vector = HashMap<u128, f64>;
+pub type Vector = FxHashMap<u128, f64>;
 
 fn bit(binding: &Binding, so: SpinOrbital) -> u32 {
     let p = match so.orb {
@@ -55,7 +55,7 @@ fn apply(det: u128, operators: &[(bool, u32)]) -> Option<(f64, u128)> {
 /// closed spaces as k-alpha k-beta for every member, then each excitation
 /// a+(y1) .. a+(yn) a(xn) .. a(x1) applied in turn.
 pub fn state_vector(state: &State, binding: &Binding) -> Vector {
-    let mut out = Vector::new();
+    let mut out = Vector::default();
     for (coeff, det) in state.terms.iter() {
         let mut operators: Vec<(bool, u32)> = vec![];
         for e in det.excitations.iter().rev() {
@@ -134,7 +134,7 @@ pub fn matrix_element(bra: &Vector, ket: &Vector, ints: &dyn Integrals) -> f64 {
 
 /// S²|v> = (S₋S₊ + S_z² + S_z)|v>, with S₊ = Σ_p a+(p α) a(p β).
 pub fn apply_s_squared(v: &Vector) -> Vector {
-    let mut out = Vector::new();
+    let mut out = Vector::default();
     for (&det, &amp) in v {
         let alpha = (det & ALPHA_BITS).count_ones() as f64;
         let beta = (det & !ALPHA_BITS).count_ones() as f64;

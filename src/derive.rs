@@ -22,11 +22,25 @@ pub struct Options {
     pub max_determinants: usize,
     /// Present results with the closed-space Fock matrix f_pq and the reference energy E_ref.
     pub fock: bool,
+    /// How the energy of a single coupled state is found.
+    pub route: Route,
+}
+
+/// The way to the energy of one configuration state function.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum Route {
+    /// Determinants when the state is expanded, spin-coupling algebra when it is too large.
+    #[default]
+    Auto,
+    Determinants,
+    /// Spin-coupling algebra: the all-alpha determinant's energy plus exchange corrections
+    /// from <s_i·s_j> along the coupling path.
+    SpinAlgebra,
 }
 
 impl Default for Options {
     fn default() -> Options {
-        Options { distinct: false, max_determinants: 200_000, fock: false }
+        Options { distinct: false, max_determinants: 200_000, fock: false, route: Route::Auto }
     }
 }
 
@@ -162,6 +176,30 @@ fn case_text(program: &Program, case: &Case) -> String {
         .join(", ")
 }
 
+/// The energy of one coupled state: the all-alpha determinant's energy, derived as any other,
+/// plus the exchange corrections of spin-coupling algebra.
+fn by_spin_algebra(
+    program: &Program,
+    request: &Request,
+    coupling: &crate::program::Coupling,
+    options: &Options,
+) -> Result<Derivation> {
+    let reference = State::new(vec![(Exact::one(), coupling.reference.clone())]);
+    let high_spin = Request { bra: reference.clone(), ket: reference, ..request.clone() };
+    let mut d = derive(program, &high_spin, &Options { fock: false, ..options.clone() })?;
+    d.value = d.value.plus(&crate::coupling_energy::exchange_corrections(coupling));
+    if options.fock {
+        d.value = fock_form(&d.value, d.closed);
+    }
+    d.bra = request.bra_text.clone();
+    d.ket = request.ket_text.clone();
+    d.notes.push(format!(
+        "derived by spin-coupling algebra, without expanding the {} determinants of `{}`",
+        coupling.determinants, request.bra_text
+    ));
+    Ok(d)
+}
+
 /// Checks a state where it is defined: it must keep a determinant once equal determinants are
 /// combined, every determinant must exist, and all must share closed spaces and electron count.
 pub fn check_definition(
@@ -184,6 +222,31 @@ pub fn check_definition(
 
 /// Derives one request.
 pub fn derive(program: &Program, request: &Request, options: &Options) -> Result<Derivation> {
+    if let Some(coupling) = request.bra.coupling.as_ref().filter(|_| request.kind == RequestKind::Energy) {
+        let named = coupling.open.iter().all(|o| matches!(o, Orb::Named(_)));
+        let wanted = match options.route {
+            Route::Auto => request.bra.is_unexpanded(),
+            Route::Determinants => false,
+            Route::SpinAlgebra => true,
+        };
+        if named && wanted {
+            return by_spin_algebra(program, request, coupling, options);
+        }
+    }
+    for (state, label) in [(&request.bra, &request.bra_text), (&request.ket, &request.ket_text)] {
+        if state.is_unexpanded() {
+            let n = state.coupling.as_ref().map_or(0, |c| c.determinants);
+            return Err(Error::at(
+                ErrorKind::TooLarge {
+                    what: format!(
+                        "`{label}` spans {n} determinants; only its energy can be had without them (by spin algebra), and"
+                    ),
+                    limit: options.max_determinants,
+                },
+                &request.span,
+            ));
+        }
+    }
     for (state, label) in [(&request.bra, &request.bra_text), (&request.ket, &request.ket_text)] {
         if state.terms.len() > options.max_determinants {
             return Err(Error::at(

@@ -50,7 +50,7 @@ mod spin_integrate;
 mod verify;
 
 pub use bind::Bindings;
-pub use derive::{Derivation, Options, derive};
+pub use derive::{Derivation, Options, Route, derive};
 pub use error::{Error, ErrorKind, Result, Source, Span};
 pub use evaluate::{Binding, evaluate};
 pub use exact::Exact;
@@ -64,7 +64,8 @@ pub use pipeline::{
     Checked, DEFAULT_SEED, Entry, Evaluated, Format, derive_checked, evaluate_all, render, render_states,
     results_json, results_text,
 };
-pub use program::{Program, Request, RequestKind, State};
+pub use program::{Coupling, Program, Request, RequestKind, State};
 pub use verify::{Comparison, Report, TOLERANCE, compare, verify};
 mod coupling;
+mod coupling_energy;
 mod spin_operator;

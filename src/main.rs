@@ -3,7 +3,7 @@
 
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
-    Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, Options, Program, Result,
+    Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, Options, Program, Result, Route,
     derive_checked, evaluate_all, parse_with, read_dump, render, render_states, results_json, results_text,
     write_output,
 };
@@ -50,6 +50,17 @@ struct Derivation {
     /// Largest number of determinants a state may expand to.
     #[arg(long, default_value_t = 200_000)]
     max_determinants: usize,
+    /// How the energy of one coupled state is derived: auto (determinants when it can be
+    /// expanded), determinants, or spin-algebra.
+    #[arg(long, value_enum, default_value = "auto")]
+    route: RouteArg,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum RouteArg {
+    Auto,
+    Determinants,
+    SpinAlgebra,
 }
 
 #[derive(Subcommand)]
@@ -118,8 +129,16 @@ fn read_input(file: &str) -> Result<(String, String)> {
 fn derived(common: &Derivation) -> Result<(Program, Vec<Checked>)> {
     let (name, text) = read_input(&common.file)?;
     let program = parse_with(&name, &text, Limits { max_determinants: common.max_determinants })?;
-    let options =
-        Options { distinct: common.distinct, max_determinants: common.max_determinants, fock: common.fock };
+    let options = Options {
+        distinct: common.distinct,
+        max_determinants: common.max_determinants,
+        fock: common.fock,
+        route: match common.route {
+            RouteArg::Auto => Route::Auto,
+            RouteArg::Determinants => Route::Determinants,
+            RouteArg::SpinAlgebra => Route::SpinAlgebra,
+        },
+    };
     let checked = derive_checked(&program, &options, (!common.no_verify).then_some(common.seed))?;
     Ok((program, checked))
 }

@@ -6,7 +6,8 @@ use crate::error::{Error, ErrorKind, Result, Source, Span};
 use crate::exact::Exact;
 use crate::orbital::{Orb, Spin, SpinOrbital};
 use crate::program::{
-    DetSpec, Excitation, Index, NamedState, Occupant, Orbital, Program, Request, RequestKind, Space, State,
+    Coupling, DetSpec, Excitation, Index, NamedState, Occupant, Orbital, Program, Request, RequestKind,
+    Space, State,
 };
 use num_bigint::BigInt;
 use num_rational::BigRational;
@@ -396,7 +397,9 @@ impl Resolver {
             }
         };
         let count = binomial(n, ((n as i64 + m) / 2) as usize);
-        if count > self.limits.max_determinants {
+        // one function too large to expand keeps only its coupling: its energy comes from spin algebra
+        let lazy = count > self.limits.max_determinants && chosen.len() == 1;
+        if count > self.limits.max_determinants && !lazy {
             return Err(Error::at(
                 ErrorKind::TooLarge {
                     what: format!("this coupled state, with up to {count} determinants,"),
@@ -405,8 +408,33 @@ impl Resolver {
                 &span,
             ));
         }
+        let reference_occupants: Vec<Occupant> = occupants
+            .iter()
+            .map(|o| match *o {
+                Occupant::Electron(so) => Occupant::Electron(SpinOrbital::new(so.orb, Spin::Alpha)),
+                closed => closed,
+            })
+            .collect();
+        let coupling = |p: &[Twice]| Coupling {
+            path: p.to_vec(),
+            open: open
+                .iter()
+                .map(|&k| match occupants[k] {
+                    Occupant::Electron(so) => so.orb,
+                    Occupant::Closed(_) => unreachable!("open shells are electrons"),
+                })
+                .collect(),
+            reference: DetSpec { occupants: reference_occupants.clone(), excitations: vec![] },
+            determinants: count,
+        };
         let build = |p: &[Twice]| {
-            State::new(
+            if lazy {
+                return State {
+                    terms: std::sync::Arc::new(vec![]),
+                    coupling: Some(std::sync::Arc::new(coupling(p))),
+                };
+            }
+            let mut state = State::new(
                 expand(p, m)
                     .into_iter()
                     .map(|(spins, coefficient)| {
@@ -419,7 +447,9 @@ impl Resolver {
                         (coefficient, DetSpec { occupants: occ, excitations: vec![] })
                     })
                     .collect(),
-            )
+            );
+            state.coupling = Some(std::sync::Arc::new(coupling(p)));
+            state
         };
         if family {
             self.declare(&name, Symbol::Family(chosen.len() as u32))?;

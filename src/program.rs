@@ -54,11 +54,31 @@ pub struct DetSpec {
 #[derive(Clone, Debug, PartialEq)]
 pub struct State {
     pub terms: Arc<Vec<(Exact, DetSpec)>>,
+    /// For a configuration state function (up to a constant factor): how it was coupled. Its
+    /// energy can then be had from spin algebra; `terms` is empty when it has too many
+    /// determinants to expand.
+    pub coupling: Option<Arc<Coupling>>,
+}
+
+/// A genealogically coupled function: the open shells of `reference` (its singly occupied
+/// orbitals, all alpha there) coupled in order along `path` (twice the spins).
+#[derive(Clone, Debug, PartialEq)]
+pub struct Coupling {
+    pub path: Vec<i64>,
+    pub open: Vec<Orb>,
+    pub reference: DetSpec,
+    /// The number of determinants the function spans.
+    pub determinants: usize,
 }
 
 impl State {
     pub fn new(terms: Vec<(Exact, DetSpec)>) -> State {
-        State { terms: Arc::new(terms) }
+        State { terms: Arc::new(terms), coupling: None }
+    }
+
+    /// Too large to expand: only its coupling is known.
+    pub fn is_unexpanded(&self) -> bool {
+        self.terms.is_empty() && self.coupling.is_some()
     }
 
     pub fn scaled(mut self, factor: &Exact) -> State {
@@ -72,12 +92,14 @@ impl State {
         for (_, det) in Arc::make_mut(&mut self.terms) {
             det.excitations.push(excitation.clone());
         }
+        self.coupling = None;
         self
     }
 
     /// The combination followed by another's terms.
     pub fn joined(mut self, other: &State) -> State {
         Arc::make_mut(&mut self.terms).extend(other.terms.iter().cloned());
+        self.coupling = None;
         self
     }
 }

@@ -38,10 +38,15 @@ pub struct Report {
     pub sampled: bool,
     /// For states too large to check whole: how many determinant pairs were checked.
     pub determinant_pairs: Option<usize>,
+    /// Why nothing could be checked by brute force, when that is so.
+    pub not_checked: Option<String>,
 }
 
 impl Report {
     pub fn summary(&self) -> String {
+        if let Some(why) = &self.not_checked {
+            return format!("not checked by brute force: {why}");
+        }
         let sizes = if self.configurations.iter().all(|c| c.is_empty()) {
             String::new()
         } else {
@@ -203,6 +208,7 @@ fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, s
         indices: !derivation.free_indices.is_empty(),
         sampled: false,
         determinant_pairs: Some(pairs.len()),
+        not_checked: None,
     };
     let options = Options { distinct: derivation.distinct, ..Options::default() };
     for (i, j) in pairs {
@@ -274,7 +280,15 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
         indices: !derivation.free_indices.is_empty(),
         sampled: false,
         determinant_pairs: None,
+        not_checked: None,
     };
+    if request.bra.is_unexpanded() {
+        report.not_checked = Some(format!(
+            "`{}` has too many determinants to expand; the spin-coupling route is tested against determinants in the test suite",
+            request.bra_text
+        ));
+        return Ok(report);
+    }
     if request.bra.terms.len() + request.ket.terms.len() > FULL_CHECK_LIMIT {
         return verify_pairs(program, request, derivation, seed);
     }

@@ -35,7 +35,8 @@ fn lines(program: &Program, options: &Options) -> Vec<String> {
         .collect()
 }
 
-const FOCK: Options = Options { distinct: false, max_determinants: 200_000, fock: true };
+const FOCK: Options =
+    Options { distinct: false, max_determinants: 200_000, fock: true, route: spinfold::Route::Auto };
 
 #[test]
 fn cis_blocks_come_out_in_the_textbook_form() {

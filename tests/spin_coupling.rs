@@ -134,13 +134,91 @@ fn couplings_that_cannot_exist_are_refused_with_a_reason() {
 }
 
 #[test]
-fn a_coupling_past_the_size_limit_stops_with_a_clear_error() {
+fn a_request_past_the_size_limit_stops_with_a_clear_error() {
     let names: Vec<String> = (1..=16).map(|k| format!("o{k}")).collect();
     let input = format!(
-        "orbitals {0}\nspace core\ncsf X = | core^2 {0} | S=0 path=1/2,1,3/2,2,5/2,3,7/2,4,7/2,3,5/2,2,3/2,1,1/2,0\n",
+        "orbitals {0}\nspace core\ncsf X = | core^2 {0} | S=0 path=1/2,1,3/2,2,5/2,3,7/2,4,7/2,3,5/2,2,3/2,1,1/2,0\n\
+         element X X\n",
         names.join(" ")
     );
-    let error = parse_with("big.sf", &input, Limits { max_determinants: 10_000 }).unwrap_err();
+    let small = Limits { max_determinants: 10_000 };
+    // past the limit the function is kept unexpanded: its energy still comes from spin algebra,
+    // but a request that needs its 12870 determinants stops
+    let program = parse_with("big.sf", &input, small).unwrap();
+    assert!(program.states[0].state.is_unexpanded());
+    let error =
+        derive(&program, &program.requests[0], &Options { max_determinants: 10_000, ..Options::default() })
+            .unwrap_err();
     assert!(error.render().contains("12870 determinants"), "{}", error.render());
-    assert!(parse_with("big.sf", &input, Limits { max_determinants: 20_000 }).is_ok());
+    assert_eq!(error.exit_code(), 2);
+    // so does a family of coupled states past the limit, where it is defined
+    let family = format!("orbitals {0}\nspace core\ncsfs F = | core^2 {0} | S=0\n", names.join(" "));
+    assert!(
+        parse_with("big.sf", &family, small).unwrap_err().render().contains("exceeds the limit of 10000")
+    );
+    assert!(
+        parse_with("big.sf", &input, Limits { max_determinants: 20_000 }).unwrap().states[0]
+            .state
+            .terms
+            .len()
+            == 12870
+    );
+}
+
+#[test]
+fn spin_algebra_and_determinants_agree_for_every_path_up_to_ten_open_shells() {
+    // the exchange coefficients from <s_i·s_j> along the path against the full determinant route
+    let mut compared = 0;
+    for n in 2..=10usize {
+        let names: Vec<String> = (1..=n).map(|k| format!("o{k}")).collect();
+        for twice_s in (0..=n).rev().step_by(2) {
+            let s = if twice_s % 2 == 0 { format!("{}", twice_s / 2) } else { format!("{twice_s}/2") };
+            let base = format!("orbitals {0}\nspace core\ncsfs F = | core^2 {0} | S={s}\n", names.join(" "));
+            let count = parse("routes.sf", &base).unwrap().states.len();
+            let requests: String = (1..=count).map(|k| format!("energy F.{k}\n")).collect();
+            let program = parse("routes.sf", &format!("{base}{requests}")).unwrap();
+            for request in &program.requests {
+                let by = |route| {
+                    derive(&program, request, &Options { route, ..Options::default() }).unwrap().value
+                };
+                assert_eq!(
+                    by(spinfold::Route::SpinAlgebra),
+                    by(spinfold::Route::Determinants),
+                    "n={n} S={s} {}",
+                    request.text
+                );
+                compared += 1;
+            }
+        }
+    }
+    assert!(compared > 400, "{compared} paths compared");
+}
+
+#[test]
+fn forty_open_shells_come_from_spin_algebra_without_expansion() {
+    let names: Vec<String> = (1..=40).map(|k| format!("o{k}")).collect();
+    let path: Vec<String> = (1..=20)
+        .chain((0..20).rev())
+        .map(|t| if t % 2 == 0 { format!("{}", t / 2) } else { format!("{t}/2") })
+        .collect();
+    let input = format!(
+        "orbitals {0}\nspace core\ncsf X = | core^2 {0} | S=0 path={1}\nenergy X\n",
+        names.join(" "),
+        path.join(",")
+    );
+    let program = parse("forty.sf", &input).unwrap();
+    assert!(program.states[0].state.is_unexpanded());
+    let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED)).unwrap();
+    let (d, report) = &derived[0];
+    assert!(d.notes[0].contains("137846528820 determinants"));
+    assert!(
+        report.as_ref().is_some_and(|r| r.not_checked.is_some()),
+        "says that brute force was not possible"
+    );
+    // 40 h, 780 J and 780 K terms among the open shells, and the core terms
+    assert_eq!(d.value.terms.iter().filter(|t| t.sums.is_empty()).count(), 40 + 780 + 780);
+    // asking for more than its energy needs the determinants
+    let more = parse("forty.sf", &format!("{input}spin X\n")).unwrap();
+    let error = derive(&more, &more.requests[1], &Options::default()).unwrap_err();
+    assert!(error.render().contains("137846528820 determinants"));
 }

@@ -212,11 +212,7 @@ mod tests {
     struct Hashed;
 
     fn pair(x: usize, y: usize) -> u64 {
-        let (hi, lo) = if x >= y {
-            (x as u64, y as u64)
-        } else {
-            (y as u64, x as u64)
-        };
+        let (hi, lo) = (x.max(y) as u64, x.min(y) as u64);
         hi * (hi + 1) / 2 + lo
     }
 

@@ -43,6 +43,20 @@ pub struct Report {
 }
 
 impl Report {
+    /// Nothing checked yet.
+    fn empty(derivation: &Derivation, seed: u64) -> Report {
+        Report {
+            checks: 0,
+            configurations: vec![],
+            seed,
+            max_deviation: 0.0,
+            indices: !derivation.free_indices.is_empty(),
+            sampled: false,
+            determinant_pairs: None,
+            not_checked: None,
+        }
+    }
+
     pub fn summary(&self) -> String {
         if let Some(why) = &self.not_checked {
             return format!("not checked by brute force: {why}");
@@ -200,16 +214,7 @@ fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, s
         };
         pairs.push((i, partner.unwrap_or_else(|| rng.random_range(0..request.ket.terms.len()))));
     }
-    let mut report = Report {
-        checks: 0,
-        configurations: vec![],
-        seed,
-        max_deviation: 0.0,
-        indices: !derivation.free_indices.is_empty(),
-        sampled: false,
-        determinant_pairs: Some(pairs.len()),
-        not_checked: None,
-    };
+    let mut report = Report { determinant_pairs: Some(pairs.len()), ..Report::empty(derivation, seed) };
     let options = Options { distinct: derivation.distinct, ..Options::default() };
     for (i, j) in pairs {
         let single = |d: &DetSpec| State::new(vec![(Exact::one(), d.clone())]);
@@ -272,16 +277,7 @@ fn spin_exchanged(det: &DetSpec, rng: &mut ChaCha8Rng) -> Option<DetSpec> {
 
 /// Checks one derivation of `request`; returns the report or a verification failure.
 pub fn verify(program: &Program, request: &Request, derivation: &Derivation, seed: u64) -> Result<Report> {
-    let mut report = Report {
-        checks: 0,
-        configurations: vec![],
-        seed,
-        max_deviation: 0.0,
-        indices: !derivation.free_indices.is_empty(),
-        sampled: false,
-        determinant_pairs: None,
-        not_checked: None,
-    };
+    let mut report = Report::empty(derivation, seed);
     if request.bra.is_unexpanded() {
         report.not_checked = Some(format!(
             "`{}` has too many determinants to expand; the spin-coupling route is tested against determinants in the test suite",

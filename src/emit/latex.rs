@@ -1,7 +1,8 @@
-//! The LaTeX form of derivations (amsmath): one `align*` per request, sums labelled with their
-//! spaces, exact fractions and radicals, and names escaped so input text cannot inject TeX.
+//! The LaTeX form of derivations (amsmath): one `align*` per request, broken into lines by the
+//! printed width of what they hold, sums labelled with their spaces, exact fractions and
+//! radicals, and every piece of the input rendered so that it cannot inject TeX.
 
-use super::{Group, Namer, groups, integral_parts, join_signed, uses_fock, verification_line};
+use super::{Group, Namer, groups, integral_parts, uses_fock, verification_line};
 use crate::derive::Derivation;
 use crate::exact::Exact;
 use crate::expression::{Expr, Factor, IntegralKind, Term};
@@ -9,19 +10,66 @@ use crate::program::{Program, RequestKind};
 use crate::verify::Report;
 use num_traits::{One, Signed};
 
-/// A name in math mode: a single letter stays italic, longer names go upright, digits after
-/// letters become a subscript-free suffix; anything outside [A-Za-z0-9_] is dropped by the
-/// grammar already, and `_` is escaped.
+/// The printed width, in em of the 10 pt text font, that one display line may take. The text
+/// block of a 10 pt article is 34.5 em wide; the estimate of `width` is within a few per cent,
+/// and the rest is margin.
+const MEASURE: f32 = 32.0;
+
+/// A left-hand side wider than this stands on a line of its own with the right-hand side
+/// below it where that takes fewer lines in all, so that long labels do not squeeze an
+/// expression into a narrow column.
+const WIDE_LEFT: f32 = 11.0;
+
+/// The width of a binary `+` or `−` with its spacing.
+const SIGN: f32 = 1.22;
+
+// ---------------------------------------------------------------------------------------------
+// Names
+
+/// One letter, optionally followed by digits: `p`, `o12`.
+fn is_simple(n: &str) -> bool {
+    let mut chars = n.chars();
+    chars.next().is_some_and(|c| c.is_ascii_alphabetic()) && chars.all(|c| c.is_ascii_digit())
+}
+
+/// A name from the input in math mode: one letter stays italic (`p`), one letter followed by
+/// digits takes them as a subscript (`o12` → o₁₂), anything else is upright with `_` escaped
+/// (`core`, `pair_singlet`). Names are `[A-Za-z_][A-Za-z0-9_]*` by the grammar; any other
+/// character would be dropped rather than passed to TeX.
 fn name(n: &str) -> String {
-    let escaped = n.replace('_', r"\_");
-    if n.chars().count() == 1 { escaped } else { format!(r"\mathrm{{{escaped}}}") }
+    if is_simple(n) {
+        let (letter, digits) = n.split_at(1);
+        if digits.is_empty() { letter.to_string() } else { format!("{letter}_{{{digits}}}") }
+    } else {
+        upright(n)
+    }
+}
+
+/// `\mathrm{…}` of a name, `_` escaped, nothing outside `[A-Za-z0-9_]` kept.
+fn upright(n: &str) -> String {
+    let mut body = String::new();
+    for c in n.chars() {
+        match c {
+            '_' => body.push_str(r"\_"),
+            c if c.is_ascii_alphanumeric() => body.push(c),
+            _ => {}
+        }
+    }
+    format!(r"\mathrm{{{body}}}")
+}
+
+/// Index names side by side when each is one letter (with digits), else separated by `sep`.
+fn indices(names: &[String], sep: &str) -> String {
+    let joint = if names.iter().all(|n| is_simple(n)) { "" } else { sep };
+    names.iter().map(|n| name(n)).collect::<Vec<_>>().join(joint)
 }
 
 fn subscript(names: &[String]) -> String {
-    let single = names.iter().all(|n| n.chars().count() == 1);
-    let body = names.iter().map(|n| name(n)).collect::<Vec<_>>().join(if single { "" } else { "," });
-    format!("_{{{body}}}")
+    format!("_{{{}}}", indices(names, ","))
 }
+
+// ---------------------------------------------------------------------------------------------
+// Numbers and terms
 
 /// |c| as TeX: `2`, `\frac{1}{2}`, `\frac{\sqrt{3}}{2}`, `\left(1 + \sqrt{2}\right)`.
 fn magnitude(c: &Exact) -> String {
@@ -57,26 +105,37 @@ fn factor(f: &Factor, namer: &Namer, summed: &[String]) -> String {
         IntegralKind::Coulomb => format!("J{}", subscript(&n)),
         IntegralKind::Exchange => format!("K{}", subscript(&n)),
         IntegralKind::General => {
-            let sep = if n.iter().all(|x| x.chars().count() == 1) { "" } else { r"\," };
-            let m: Vec<String> = n.iter().map(|x| name(x)).collect();
-            format!(r"({}{sep}{}\vert {}{sep}{})", m[0], m[1], m[2], m[3])
+            format!(r"({}\vert {})", indices(&n[..2], r"\,"), indices(&n[2..], r"\,"))
         }
     }
 }
 
+/// |c| times `body`: `J_{ab}`, `2 J_{ab}`, `\frac{1}{2} K_{pr}`, `\sqrt{2}\, f_{ia}` (a thin
+/// space after a radical, as usual); the sign is the caller's.
 fn times(c: &Exact, body: &str) -> String {
     if c.abs() == Exact::one() {
         body.to_string()
     } else if body == "1" {
         magnitude(c)
     } else {
-        format!(r"{}\,{body}", magnitude(c))
+        let m = magnitude(c);
+        let gap = if m.ends_with('}') && !m.starts_with(r"\frac") { r"\, " } else { " " };
+        format!("{m}{gap}{body}")
     }
 }
 
-fn group(g: &Group, namer: &Namer) -> (bool, String) {
-    let summed = namer.summed_names(g.sums);
-    let o = |x| namer.orb(x, &summed);
+/// One piece of an expression line: a term, with the sign before it.
+/// A line may break before any piece; `inside` marks a piece within a parenthesised group, so
+/// that a break there is indented further.
+struct Piece {
+    negative: bool,
+    text: String,
+    inside: bool,
+}
+
+/// The deltas and sums in front of a group: `\delta_{ij}\sum_{k,l \in \mathrm{occ}}`.
+fn prefix(g: &Group, namer: &Namer, summed: &[String]) -> String {
+    let o = |x| namer.orb(x, summed);
     let mut prefix = String::new();
     for &(a, b) in g.deltas {
         prefix.push_str(&format!(r"\delta{}", subscript(&[o(a), o(b)])));
@@ -88,14 +147,24 @@ fn group(g: &Group, namer: &Namer) -> (bool, String) {
             k += 1;
             names.push(name(&summed[k]));
         }
-        prefix.push_str(&format!(
-            r"\sum_{{{} \in \mathrm{{{}}}}}",
-            names.join(","),
-            namer.space(g.sums[k]).replace('_', r"\_")
-        ));
+        if !prefix.is_empty() {
+            prefix.push(' ');
+        }
+        prefix.push_str(&format!(r"\sum_{{{} \in {}}}", names.join(","), upright(namer.space(g.sums[k]))));
         k += 1;
     }
+    prefix
+}
+
+/// The pieces of one group. A group of several terms behind deltas or sums is
+/// `prefix \bigl( t1 ± t2 … \bigr)`, one piece per term (the first carries the prefix and the
+/// opening parenthesis, the last the closing one); `\bigl`/`\bigr` rather than `\left`/`\right`
+/// so that the parenthesis may span lines.
+fn group_pieces(g: &Group, namer: &Namer) -> Vec<Piece> {
+    let summed = namer.summed_names(g.sums);
+    let prefix = prefix(g, namer, &summed);
     let body = |t: &Term| factor(&t.factor, namer, &summed);
+    let term = |t: &Term| (t.coeff.is_negative(), times(&t.coeff, &body(t)));
     if g.terms.len() == 1 {
         let t = g.terms[0];
         let inner = body(t);
@@ -106,120 +175,684 @@ fn group(g: &Group, namer: &Namer) -> (bool, String) {
         } else {
             times(&t.coeff, &format!("{prefix} {inner}"))
         };
-        return (t.coeff.is_negative(), text);
+        return vec![Piece { negative: t.coeff.is_negative(), text, inside: false }];
     }
-    let items = g.terms.iter().map(|t| (t.coeff.is_negative(), times(&t.coeff, &body(t))));
-    let (negative, inner) = join_signed(items, "-");
+    let terms: Vec<(bool, String)> = g.terms.iter().map(|t| term(t)).collect();
     if prefix.is_empty() {
-        (negative, inner)
-    } else {
-        let inner = if negative { format!("-{inner}") } else { inner };
-        (false, format!(r"{prefix} \left( {inner} \right)"))
+        return terms.into_iter().map(|(negative, text)| Piece { negative, text, inside: false }).collect();
+    }
+    let tall = terms.iter().any(|(_, t)| t.contains(r"\frac"));
+    let (open, close) = if tall { (r"\Bigl(", r"\Bigr)") } else { (r"\bigl(", r"\bigr)") };
+    let last = terms.len() - 1;
+    terms
+        .into_iter()
+        .enumerate()
+        .map(|(k, (negative, text))| {
+            let text = if k == last { format!(r"{text} {close}") } else { text };
+            if k == 0 {
+                let sign = if negative { "-" } else { "" };
+                Piece { negative: false, text: format!("{prefix} {open} {sign}{text}"), inside: false }
+            } else {
+                Piece { negative, text, inside: true }
+            }
+        })
+        .collect()
+}
+
+// ---------------------------------------------------------------------------------------------
+// Line breaking
+
+/// One line of an expression: its TeX (a continuation starts with `{} + ` so the sign stays
+/// binary) and whether it continues inside a parenthesis.
+struct Line {
+    text: String,
+    inside: bool,
+}
+
+/// The room of the lines of one expression: the first line, a continuation, and a
+/// continuation inside a parenthesis.
+#[derive(Clone, Copy)]
+struct Room {
+    first: f32,
+    rest: f32,
+    inside: f32,
+}
+
+impl Room {
+    fn scaled(self, f: f32) -> Room {
+        Room { first: self.first * f, rest: self.rest * f, inside: self.inside * f }
     }
 }
 
-/// Text from the input (state labels) shown verbatim and safely.
-fn verbatim(text: &str) -> String {
+/// Breaks an expression into lines by printed width, as evenly as its number of lines allows:
+/// the room is narrowed for as long as that adds no line and breaks no more parenthesised
+/// groups, so that a last line does not hold a single stray term.
+fn layout(expr: &Expr, namer: &Namer, room: Room) -> Vec<Line> {
+    if expr.is_zero() {
+        return vec![Line { text: "0".into(), inside: false }];
+    }
+    let measured: Vec<Vec<(Piece, f32)>> = groups(expr)
+        .iter()
+        .map(|g| {
+            group_pieces(g, namer)
+                .into_iter()
+                .map(|p| {
+                    let w = width(&p.text) + SIGN;
+                    (p, w)
+                })
+                .collect()
+        })
+        .collect();
+    let mut lines = fill(&measured, room);
+    let mut f = 0.95;
+    while lines.len() > 1 && f > 0.5 {
+        let narrower = fill(&measured, room.scaled(f));
+        let split = |lines: &[Line]| lines.iter().filter(|l| l.inside).count();
+        if narrower.len() > lines.len() || split(&narrower) > split(&lines) {
+            break;
+        }
+        lines = narrower;
+        f -= 0.05;
+    }
+    lines
+}
+
+/// Fills lines greedily: terms fill a line while they fit; a parenthesised group goes whole
+/// onto the current line if it fits, else whole onto a new line if it fits there, and only a
+/// group longer than a line is broken between its terms. A line holds at least one piece,
+/// however wide.
+fn fill(groups: &[Vec<(Piece, f32)>], room: Room) -> Vec<Line> {
+    let mut lines = vec![];
+    let mut line = Line { text: String::new(), inside: false };
+    let (mut used, mut capacity, mut first) = (0.0f32, room.first, true);
+    let fresh = |lines: &mut Vec<Line>, line: &mut Line, used: &mut f32, capacity: &mut f32, inside| {
+        lines.push(std::mem::replace(line, Line { text: String::new(), inside }));
+        *used = 0.0;
+        *capacity = if inside { room.inside } else { room.rest };
+    };
+    for pieces in groups {
+        let total: f32 = pieces.iter().map(|(_, w)| w).sum();
+        let bracketed = pieces.iter().any(|(p, _)| p.inside);
+        if bracketed && !line.text.is_empty() && used + total > capacity && total <= room.rest {
+            fresh(&mut lines, &mut line, &mut used, &mut capacity, false);
+        }
+        for (piece, w) in pieces {
+            if !line.text.is_empty() && used + w > capacity {
+                fresh(&mut lines, &mut line, &mut used, &mut capacity, piece.inside);
+            }
+            let sign = match (first, line.text.is_empty(), piece.negative) {
+                (true, _, false) => "",
+                (true, _, true) => "-",
+                (false, true, false) => "{} + ",
+                (false, true, true) => "{} - ",
+                (false, false, false) => " + ",
+                (false, false, true) => " - ",
+            };
+            line.text.push_str(sign);
+            line.text.push_str(&piece.text);
+            used += w;
+            first = false;
+        }
+    }
+    lines.push(line);
+    lines
+}
+
+// ---------------------------------------------------------------------------------------------
+// Printed width
+
+/// Whether characters are set as math, as roman text or in typewriter type.
+#[derive(Clone, Copy, PartialEq)]
+enum Mode {
+    Math,
+    Text,
+    Typewriter,
+}
+
+/// The printed width of TeX that this emitter writes, in em, in display style: enough of the
+/// Computer Modern metrics and of TeX's math spacing for the constructions used here.
+fn width(tex: &str) -> f32 {
+    let chars: Vec<char> = tex.chars().collect();
+    let mut pos = 0;
+    let mut total = 0.0;
+    while pos < chars.len() {
+        total += atom(&chars, &mut pos, 1.0, Mode::Math);
+    }
+    total
+}
+
+/// The space TeX puts after a sub- or superscript.
+const SCRIPT_SPACE: f32 = 0.05;
+
+/// The size of a script relative to the text font: Computer Modern's 7 pt and 5 pt designs
+/// are wider for their size than the 10 pt one.
+fn smaller(scale: f32) -> f32 {
+    if scale >= 1.0 { 0.8 } else { 0.65 }
+}
+
+/// The width of everything up to the `}` that closes the group opened just before `pos`.
+fn group_width(s: &[char], pos: &mut usize, scale: f32, mode: Mode) -> f32 {
+    let mut total = 0.0;
+    while *pos < s.len() {
+        if s[*pos] == '}' {
+            *pos += 1;
+            return total;
+        }
+        total += atom(s, pos, scale, mode);
+    }
+    total
+}
+
+/// The width of one argument: a braced group or a single atom.
+fn argument(s: &[char], pos: &mut usize, scale: f32, mode: Mode) -> f32 {
+    while s.get(*pos) == Some(&' ') {
+        *pos += 1;
+    }
+    if *pos >= s.len() { 0.0 } else { atom(s, pos, scale, mode) }
+}
+
+fn atom(s: &[char], pos: &mut usize, scale: f32, mode: Mode) -> f32 {
+    let c = s[*pos];
+    *pos += 1;
+    let script = scale < 1.0;
+    match (c, mode) {
+        ('{', _) => group_width(s, pos, scale, mode),
+        ('}', _) => 0.0,
+        ('\\', _) => command(s, pos, scale, mode),
+        ('_' | '^', Mode::Math) => {
+            let mut w = argument(s, pos, smaller(scale), mode);
+            let other = if c == '_' { '^' } else { '_' };
+            if s.get(*pos) == Some(&other) {
+                *pos += 1;
+                w = w.max(argument(s, pos, smaller(scale), mode));
+            }
+            w + SCRIPT_SPACE
+        }
+        (_, Mode::Typewriter) => 0.525 * scale,
+        (' ' | '\n', Mode::Text) => 0.33 * scale,
+        (' ' | '\n' | '&' | '~', Mode::Math) => 0.0,
+        ('+' | '-', Mode::Math) => scale * if script { 0.78 } else { SIGN },
+        ('=', Mode::Math) => scale * if script { 0.78 } else { 1.34 },
+        ('(' | ')' | '[' | ']', _) => 0.39 * scale,
+        ('|' | '.' | '\'' | ';' | ':', _) => 0.28 * scale,
+        (',', _) => scale * if script { 0.28 } else { 0.45 },
+        ('m' | 'w' | 'H' | 'K' | 'M' | 'N' | 'W' | 'X', _) => 0.9 * scale,
+        ('i' | 'j' | 'l' | 't', _) => 0.36 * scale,
+        ('A'..='Z', _) => 0.78 * scale,
+        ('0'..='9', _) => 0.5 * scale,
+        _ => 0.52 * scale,
+    }
+}
+
+/// The width of the command whose backslash was just read, with its arguments.
+fn command(s: &[char], pos: &mut usize, scale: f32, mode: Mode) -> f32 {
+    let start = *pos;
+    while *pos < s.len() && s[*pos].is_ascii_alphabetic() {
+        *pos += 1;
+    }
+    if *pos == start && *pos < s.len() {
+        *pos += 1;
+    }
+    let cmd: String = s[start..*pos].iter().collect();
+    let script = scale < 1.0;
+    match cmd.as_str() {
+        "frac" => {
+            let top = argument(s, pos, scale, mode);
+            let bottom = argument(s, pos, scale, mode);
+            top.max(bottom) + 0.24 * scale
+        }
+        "sqrt" => argument(s, pos, scale, mode) + 0.83 * scale,
+        "mathrm" | "mathit" => argument(s, pos, scale, Mode::Math),
+        "text" => argument(s, pos, scale, Mode::Text),
+        "texttt" => argument(s, pos, scale, Mode::Typewriter),
+        "hat" | "bar" => argument(s, pos, scale, mode),
+        "sum" => {
+            let mut w = 1.44 * scale;
+            while s.get(*pos) == Some(&' ') {
+                *pos += 1;
+            }
+            while matches!(s.get(*pos), Some('_' | '^')) {
+                *pos += 1;
+                w = w.max(argument(s, pos, smaller(scale), mode) + SCRIPT_SPACE);
+            }
+            w + 0.34 * scale
+        }
+        "left" | "right" | "bigl" | "bigr" | "Bigl" | "Bigr" => {
+            argument(s, pos, scale, mode);
+            0.47 * scale
+        }
+        "langle" | "rangle" => 0.39 * scale,
+        "vert" | "lvert" | "rvert" => 0.28 * scale,
+        "delta" => 0.45 * scale,
+        "in" => scale * if script { 0.67 } else { 1.23 },
+        "cup" => scale * if script { 0.67 } else { 1.11 },
+        "to" => scale * if script { 1.0 } else { 1.56 },
+        "cdot" => scale * if script { 0.28 } else { 0.72 },
+        "," => 0.17 * scale,
+        ";" => 0.28 * scale,
+        " " => 0.33 * scale,
+        "quad" => scale,
+        "qquad" => 2.0 * scale,
+        "_" => 0.36 * scale,
+        "{" | "}" | "$" | "&" | "#" | "%" | "^" | "~" => 0.5 * scale,
+        "textbackslash" | "textbar" | "textless" | "textgreater" => 0.5 * scale,
+        _ => scale,
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// State labels
+
+/// The tokens of a request operand as the input wrote it.
+#[derive(Clone, Debug, PartialEq)]
+enum Tok {
+    /// A name, with the `N` of `X.N` for a member of a coupled-state family.
+    Name(String, Option<String>),
+    Prime,
+    Square,
+    Number(String),
+    Arrow,
+    Symbol(char),
+}
+
+/// The tokens of an operand, or None if it holds anything the grammar does not produce there.
+fn tokens(text: &str) -> Option<Vec<Tok>> {
+    let s: Vec<char> = text.chars().collect();
+    let mut out = vec![];
+    let mut i = 0;
+    let run = |i: &mut usize, ok: &dyn Fn(char) -> bool| {
+        let start = *i;
+        while *i < s.len() && ok(s[*i]) {
+            *i += 1;
+        }
+        s[start..*i].iter().collect::<String>()
+    };
+    while i < s.len() {
+        let c = s[i];
+        match c {
+            ' ' | '\t' => i += 1,
+            c if c.is_ascii_alphabetic() || c == '_' => {
+                let n = run(&mut i, &|c| c.is_ascii_alphanumeric() || c == '_');
+                let family = if s.get(i) == Some(&'.') && s.get(i + 1).is_some_and(|c| c.is_ascii_digit()) {
+                    i += 1;
+                    Some(run(&mut i, &|c| c.is_ascii_digit()))
+                } else {
+                    None
+                };
+                out.push(Tok::Name(n, family));
+            }
+            c if c.is_ascii_digit() => {
+                let mut n = run(&mut i, &|c| c.is_ascii_digit());
+                if s.get(i) == Some(&'.') && s.get(i + 1).is_some_and(|c| c.is_ascii_digit()) {
+                    i += 1;
+                    n.push('.');
+                    n.push_str(&run(&mut i, &|c| c.is_ascii_digit()));
+                }
+                out.push(Tok::Number(n));
+            }
+            '\'' => {
+                out.push(Tok::Prime);
+                i += 1;
+            }
+            '^' if s.get(i + 1) == Some(&'2') => {
+                out.push(Tok::Square);
+                i += 2;
+            }
+            '-' if s.get(i + 1) == Some(&'>') => {
+                out.push(Tok::Arrow);
+                i += 2;
+            }
+            '|' | '[' | ']' | '(' | ')' | '+' | '-' | '*' | '/' => {
+                out.push(Tok::Symbol(c));
+                i += 1;
+            }
+            _ => return None,
+        }
+    }
+    Some(out)
+}
+
+/// A state or determinant name: `S_{1}`, `\mathrm{singlet}.1`.
+fn reference(n: &str, family: &Option<String>) -> String {
+    match family {
+        Some(k) => format!("{}.{k}", name(n)),
+        None => name(n),
+    }
+}
+
+/// Spin orbitals (`a`, `b'`, `core^2`) in math: `a`, `\bar{b}`, `\mathrm{core}^{2}`; None if
+/// the tokens are anything else.
+fn spin_orbitals(toks: &[Tok]) -> Option<(Vec<String>, bool)> {
+    let mut out = vec![];
+    let mut simple = true;
+    let mut i = 0;
+    while i < toks.len() {
+        let Tok::Name(n, None) = &toks[i] else { return None };
+        simple &= is_simple(n);
+        let text = match toks.get(i + 1) {
+            Some(Tok::Prime) => {
+                i += 1;
+                format!(r"\bar{{{}}}", name(n))
+            }
+            Some(Tok::Square) => {
+                i += 1;
+                format!("{}^{{2}}", name(n))
+            }
+            _ => name(n),
+        };
+        out.push(text);
+        i += 1;
+    }
+    Some((out, simple))
+}
+
+/// A request operand in math. A determinant written inline is its occupants (the bra or ket
+/// supplies the bars): `\mathrm{core}^{2}\, a\, \bar{b}`. One excitation of a named state is
+/// written with the orbitals left below and the ones entered above: `\mathrm{ref}_{i\bar{j}}^{a\bar{b}}`.
+/// Anything else goes token by token: names, a beta spin orbital barred, an inline determinant
+/// between bars, an excitation in brackets with an arrow, `sqrt(…)` as a radical.
+fn math_label(toks: &[Tok]) -> Option<String> {
+    if let [Tok::Symbol('|'), inner @ .., Tok::Symbol('|')] = toks
+        && let Some((occupants, _)) = spin_orbitals(inner)
+    {
+        return Some(if occupants.is_empty() { r"\mathrm{vac}".into() } else { occupants.join(r"\, ") });
+    }
+    if let [Tok::Name(n, family), Tok::Symbol('['), inner @ .., Tok::Symbol(']')] = toks
+        && n != "sqrt"
+        && let Some(arrow) = inner.iter().position(|t| *t == Tok::Arrow)
+        && let (Some((from, a)), Some((to, b))) =
+            (spin_orbitals(&inner[..arrow]), spin_orbitals(&inner[arrow + 1..]))
+        && !from.is_empty()
+        && !to.is_empty()
+    {
+        let joint = if a && b { "" } else { r"\," };
+        return Some(format!("{{{}}}_{{{}}}^{{{}}}", reference(n, family), from.join(joint), to.join(joint)));
+    }
+    let mut out = String::new();
+    let mut parens: Vec<bool> = vec![];
+    let mut in_det = false;
+    let mut after_operand = false;
+    let mut i = 0;
+    while i < toks.len() {
+        let gap = |out: &mut String, after: bool| {
+            if after {
+                out.push_str(r"\, ");
+            }
+        };
+        match &toks[i] {
+            Tok::Name(n, None) if n == "sqrt" && toks.get(i + 1) == Some(&Tok::Symbol('(')) => {
+                gap(&mut out, after_operand);
+                out.push_str(r"\sqrt{");
+                parens.push(true);
+                after_operand = false;
+                i += 1;
+            }
+            Tok::Name(n, family) => {
+                gap(&mut out, after_operand);
+                let base = reference(n, family);
+                match toks.get(i + 1) {
+                    Some(Tok::Prime) if family.is_none() => {
+                        out.push_str(&format!(r"\bar{{{base}}}"));
+                        i += 1;
+                    }
+                    Some(Tok::Square) if family.is_none() => {
+                        out.push_str(&format!("{base}^{{2}}"));
+                        i += 1;
+                    }
+                    _ => out.push_str(&base),
+                }
+                after_operand = true;
+            }
+            Tok::Number(x) => {
+                gap(&mut out, after_operand);
+                out.push_str(x);
+                after_operand = true;
+            }
+            Tok::Symbol('(') => {
+                gap(&mut out, after_operand);
+                out.push('(');
+                parens.push(false);
+                after_operand = false;
+            }
+            Tok::Symbol(')') => {
+                out.push(if parens.pop()? { '}' } else { ')' });
+                after_operand = true;
+            }
+            Tok::Symbol('|') if in_det => {
+                out.push_str(r"\rvert ");
+                in_det = false;
+                after_operand = true;
+            }
+            Tok::Symbol('|') => {
+                gap(&mut out, after_operand);
+                out.push_str(r"\lvert ");
+                in_det = true;
+                after_operand = false;
+            }
+            Tok::Symbol('[') => {
+                out.push('[');
+                after_operand = false;
+            }
+            Tok::Symbol(']') => {
+                out.push(']');
+                after_operand = true;
+            }
+            Tok::Arrow => {
+                out.push_str(r" \to ");
+                after_operand = false;
+            }
+            Tok::Symbol(c @ ('+' | '-')) => {
+                out.push_str(&format!(" {c} "));
+                after_operand = false;
+            }
+            Tok::Symbol('*') => {
+                out.push_str(r" \cdot ");
+                after_operand = false;
+            }
+            Tok::Symbol('/') => {
+                out.push('/');
+                after_operand = false;
+            }
+            _ => return None,
+        }
+        i += 1;
+    }
+    (parens.is_empty() && !in_det && !out.is_empty()).then_some(out)
+}
+
+/// Text from the input for typewriter type (`\texttt`), shown verbatim and safely: a
+/// character special to TeX is written by its code (`{\char92}` for a backslash), which the
+/// typewriter fonts hold at its ASCII position, and anything outside printable ASCII is `?`.
+fn typewriter(text: &str) -> String {
     let mut out = String::new();
     for c in text.chars() {
         match c {
-            '\\' => out.push_str(r"\textbackslash{}"),
-            '{' | '}' | '$' | '&' | '#' | '_' | '%' => {
-                out.push('\\');
-                out.push(c);
-            }
-            '^' => out.push_str(r"\^{}"),
-            '~' => out.push_str(r"\~{}"),
-            '|' => out.push_str(r"\textbar{}"),
-            '<' => out.push_str(r"\textless{}"),
-            '>' => out.push_str(r"\textgreater{}"),
-            '\'' => out.push_str(r"\textquotesingle{}"),
-            _ => out.push(c),
+            '\\' | '{' | '}' | '$' | '&' | '#' | '_' | '%' | '^' | '~' | '|' | '<' | '>' | '"' | '-'
+            | '`' => out.push_str(&format!("{{\\char{}}}", c as u32)),
+            ' '..='~' => out.push(c),
+            _ => out.push('?'),
         }
     }
     out
 }
 
-fn label(state: &str) -> String {
-    format!(r"\text{{\texttt{{{}}}}}", verbatim(state))
+/// Text from the input in a TeX comment: on one line, printable ASCII only, and no `^^`
+/// (which TeX would read as a character code before it sees the comment).
+fn comment(text: &str) -> String {
+    let line: String = text.chars().map(|c| if (' '..='~').contains(&c) { c } else { ' ' }).collect();
+    line.replace("^^", "^ ^")
 }
 
-fn left_side(d: &Derivation) -> String {
+/// A request operand as a label in math mode: see `math_label`; what it cannot read is set
+/// in typewriter type as it was written.
+fn label(operand: &str) -> String {
+    tokens(operand)
+        .and_then(|t| math_label(&t))
+        .unwrap_or_else(|| format!(r"\text{{\texttt{{{}}}}}", typewriter(operand)))
+}
+
+// ---------------------------------------------------------------------------------------------
+// Requests
+
+/// The left-hand sides of a request, one per expression (two for `spin`: ⟨S²⟩ and ⟨S_z⟩).
+fn left_sides(d: &Derivation) -> Vec<String> {
     let (b, k) = (label(&d.bra), label(&d.ket));
     match d.kind {
-        RequestKind::Energy => format!(
+        RequestKind::Energy => vec![format!(
             r"\frac{{\langle {b} \vert \hat{{H}} \vert {b} \rangle}}{{\langle {b} \vert {b} \rangle}}"
-        ),
-        RequestKind::Element => format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle"),
-        RequestKind::Overlap => format!(r"\langle {b} \vert {k} \rangle"),
-        RequestKind::Spin => format!(r"\langle \hat{{S}}^2 \rangle_{{{b}}}"),
+        )],
+        RequestKind::Element => vec![format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle")],
+        RequestKind::Overlap => vec![format!(r"\langle {b} \vert {k} \rangle")],
+        RequestKind::Spin => vec![
+            format!(r"\langle \hat{{S}}^2 \rangle_{{{b}}}"),
+            format!(r"\langle \hat{{S}}_z \rangle_{{{b}}}"),
+        ],
     }
 }
 
-/// The `align*` body lines: at most three groups per line, so long expressions break.
-fn expression(expr: &Expr, namer: &Namer) -> String {
-    if expr.is_zero() {
-        return "&= 0".into();
-    }
-    let mut out = String::from("&= ");
-    for (k, g) in groups(expr).iter().enumerate() {
-        let (negative, text) = group(g, namer);
-        if k > 0 && k % 3 == 0 {
-            out.push_str(r" \\");
-            out.push_str("\n  &\\quad ");
+/// The definitions of f_pq and E_ref over the closed spaces, as (left side, right side).
+fn fock_legend(d: &Derivation, namer: &Namer) -> [(String, String); 2] {
+    let over =
+        d.closed.members().iter().map(|&s| upright(namer.space(s))).collect::<Vec<_>>().join(r" \cup ");
+    [
+        (
+            "f_{pq}".into(),
+            format!(r"h_{{pq}} + \sum_{{k \in {over}}} \bigl( 2 (pq\vert kk) - (pk\vert kq) \bigr)"),
+        ),
+        (
+            r"E_{\mathrm{ref}}".into(),
+            format!(
+                r"2 \sum_{{k \in {over}}} h_{{kk}} + \sum_{{k,l \in {over}}} \bigl( 2 J_{{kl}} - K_{{kl}} \bigr)"
+            ),
+        ),
+    ]
+}
+
+/// The `align*` of one request. A left side that fits beside its expression stands in the
+/// first column (`lhs &= …`, continuations `&\quad {} + …`); a wider one (see `WIDE_LEFT`)
+/// takes a line of its own (`&lhs \\ &\quad = …`, continuations `&\qquad {} + …`). With `legend`, the
+/// definitions of f_pq and E_ref follow under the expression.
+fn environment(d: &Derivation, namer: &Namer, legend: bool) -> String {
+    let left = left_sides(d);
+    let left_width = left.iter().map(|l| width(l)).fold(0.0, f32::max);
+    let expressions = if d.kind == RequestKind::Spin { vec![&d.value, &d.s_z] } else { vec![&d.value] };
+    let arrange = |wide: bool| -> Vec<Vec<Line>> {
+        let (column, indent) = if wide { (0.0, 1.0) } else { (left_width, 0.0) };
+        let room = Room {
+            first: MEASURE - column - indent - 1.34,
+            rest: MEASURE - column - indent - 1.0,
+            inside: MEASURE - column - indent - 2.0,
+        };
+        expressions.iter().map(|e| layout(e, namer, room)).collect()
+    };
+    // a wide left side keeps its column unless a line of its own saves lines
+    let beside = arrange(false);
+    let rows = |a: &Vec<Vec<Line>>| a.iter().map(|lines| lines.len()).sum::<usize>();
+    let below =
+        (left_width > WIDE_LEFT).then(|| arrange(true)).filter(|b| rows(b) + left.len() < rows(&beside));
+    let wide = below.is_some();
+    let arranged = below.unwrap_or(beside);
+    let quads = |depth: u32| match depth {
+        1 => r"\quad",
+        2 => r"\qquad",
+        _ => r"\qquad\quad",
+    };
+    let mut rows: Vec<String> = vec![];
+    for (lhs, lines) in left.iter().zip(arranged) {
+        for (k, line) in lines.iter().enumerate() {
+            let depth = u32::from(wide) + 1 + u32::from(line.inside);
+            rows.push(match (k, wide) {
+                (0, false) => format!("{lhs}\n  &= {}", line.text),
+                (0, true) => format!("&{lhs} \\\\\n  &\\quad = {}", line.text),
+                (_, _) => format!("&{} {}", quads(depth), line.text),
+            });
         }
-        out.push_str(match (k, negative) {
-            (0, false) => "",
-            (0, true) => "-",
-            (_, false) => " + ",
-            (_, true) => " - ",
-        });
-        out.push_str(&text);
     }
+    let mut out = String::from("\\begin{align*}\n  ");
+    out.push_str(&rows.join(" \\\\\n  "));
+    if legend {
+        out.push_str(" \\\\\n\\intertext{with}\n  ");
+        let legend: Vec<String> = fock_legend(d, namer)
+            .iter()
+            .map(|(l, r)| if wide { format!("&{l} = {r}") } else { format!("{l} &= {r}") })
+            .collect();
+        out.push_str(&legend.join(" \\\\\n  "));
+    }
+    out.push_str("\n\\end{align*}\n");
     out
 }
 
-/// The LaTeX of every derivation; with `standalone`, a complete document.
+/// The LaTeX of every derivation; with `standalone`, a complete document that needs nothing
+/// beyond amsmath.
 pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], standalone: bool) -> String {
     let mut out = String::new();
     if standalone {
         out.push_str(
-            "\\documentclass{article}\n\\usepackage{amsmath}\n\\usepackage[T1]{fontenc}\n\\begin{document}\n",
+            "\\documentclass{article}\n\\usepackage{amsmath}\n\\allowdisplaybreaks\n\\begin{document}\n",
         );
-        out.push_str(&format!("\\section*{{\\texttt{{{}}}}}\n", verbatim(&program.source.name)));
+        out.push_str(&format!("\\section*{{\\texttt{{{}}}}}\n", typewriter(&program.source.name)));
     }
+    // f_pq and E_ref are defined where they first appear over a set of closed spaces
+    let mut defined = vec![];
     for (d, report) in derivations {
         let namer = Namer::new(program, &[&d.value]);
-        out.push_str(&format!("% {}\n", d.text.replace('\n', " ")));
-        out.push_str(&format!("% {}\n", verification_line(report.as_ref())));
-        out.push_str("\\begin{align*}\n");
-        out.push_str(&format!("  {}\n  {}\n", left_side(d), expression(&d.value, &namer)));
-        if d.kind == RequestKind::Spin {
-            out.push_str(&format!(
-                "  \\\\\n  \\langle \\hat{{S}}_z \\rangle_{{{}}}\n  {}\n",
-                label(&d.bra),
-                expression(&d.s_z, &namer)
-            ));
+        let legend = uses_fock(&d.value) && !defined.contains(&d.closed);
+        if legend {
+            defined.push(d.closed);
         }
-        if uses_fock(&d.value) {
-            let over = d
-                .closed
-                .members()
-                .iter()
-                .map(|&s| format!(r"\mathrm{{{}}}", namer.space(s).replace('_', r"\_")))
-                .collect::<Vec<_>>()
-                .join(r" \cup ");
-            out.push_str(&format!(
-                "  \\\\\n  &\\text{{with }} f_{{pq}} = h_{{pq}} + \\sum_{{k \\in {over}}} \\left( 2\\,(pq\\vert kk) - (pk\\vert kq) \\right),\\quad E_{{\\mathrm{{ref}}}} = 2\\sum_{{k \\in {over}}} h_{{kk}} + \\sum_{{k,l \\in {over}}} \\left( 2\\,J_{{kl}} - K_{{kl}} \\right)\n"
-            ));
-        }
-        out.push_str("\\end{align*}\n");
+        out.push_str(&format!("% {}\n", comment(&d.text)));
+        out.push_str(&format!("% {}\n", comment(&verification_line(report.as_ref()))));
+        out.push_str(&environment(d, &namer, legend));
         for note in &d.notes {
-            out.push_str(&format!("% note: {note}\n"));
+            out.push_str(&format!("% note: {}\n", comment(note)));
         }
     }
     if standalone {
         out.push_str("\\end{document}\n");
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn names_are_typeset_and_escaped() {
+        assert_eq!(name("p"), "p");
+        assert_eq!(name("o12"), "o_{12}");
+        assert_eq!(name("core"), r"\mathrm{core}");
+        assert_eq!(name("pair_singlet"), r"\mathrm{pair\_singlet}");
+        assert_eq!(name("_x1"), r"\mathrm{\_x1}");
+        assert_eq!(upright(r"a}\x{"), r"\mathrm{ax}");
+    }
+
+    #[test]
+    fn labels_are_math_or_escaped_text() {
+        assert_eq!(label("S1"), "S_{1}");
+        assert_eq!(label("singlet.2"), r"\mathrm{singlet}.2");
+        assert_eq!(label("| core^2 a b' |"), r"\mathrm{core}^{2}\, a\, \bar{b}");
+        assert_eq!(label("ref[i j' -> a b']"), r"{\mathrm{ref}}_{i\bar{j}}^{a\bar{b}}");
+        assert_eq!(label("(ab - ba)/sqrt(2)"), r"(\mathrm{ab} - \mathrm{ba})/\sqrt{2}");
+        assert_eq!(label("ref[i -> a][j' -> b']"), r"\mathrm{ref}[i \to a][\bar{j} \to \bar{b}]");
+        assert_eq!(
+            label(r"x}\end{document}"),
+            r"\text{\texttt{x{\char125}{\char92}end{\char123}document{\char125}}}"
+        );
+        assert_eq!(label("a^3"), r"\text{\texttt{a{\char94}3}}");
+        assert_eq!(label("é%"), r"\text{\texttt{?{\char37}}}");
+    }
+
+    #[test]
+    fn comments_stay_comments() {
+        assert_eq!(comment("a\nb^^Jc"), "a b^ ^Jc");
+    }
+
+    #[test]
+    fn widths_follow_the_printed_form() {
+        assert!((width("J_{ab}") - (0.78 + 0.8 * 1.04 + SCRIPT_SPACE)).abs() < 1e-4);
+        assert!(width(r"\frac{1}{2}") < width("12"));
+        assert!(width(r"\sum_{k,l \in \mathrm{core}}") > 1.44);
+        assert!(width(r"\text{\texttt{abcd}}") > 2.0);
+    }
 }

@@ -44,6 +44,8 @@ fn every_example_in_every_format() {
             (Format::Text { ascii: true }, "ascii"),
             (Format::Latex { standalone: true }, "tex"),
             (Format::Json, "json"),
+            (Format::Python, "py"),
+            (Format::Rust, "rs"),
         ] {
             snapshot(&format!("{stem}.{suffix}"), &render(&program, &derived, format).unwrap());
         }

@@ -14,7 +14,7 @@ use std::time::Instant;
 /// The input: n open shells o1..on over the space `core`, coupled to a singlet.
 fn input(n: usize) -> String {
     let names: Vec<String> = (1..=n).map(|k| format!("o{k}")).collect();
-    let half = |t: usize| if t % 2 == 0 { (t / 2).to_string() } else { format!("{t}/2") };
+    let half = |t: usize| if t.is_multiple_of(2) { (t / 2).to_string() } else { format!("{t}/2") };
     let path: Vec<String> = (1..=n / 2).chain((0..n / 2).rev()).map(half).collect();
     format!(
         "space core\norbitals {}\ncsf X = | core^2 {} | S=0 path={}\nenergy X\n",

@@ -26,7 +26,7 @@ fn bit(binding: &Binding, so: SpinOrbital) -> u32 {
 }
 
 fn parity_below(det: u128, b: u32) -> f64 {
-    if (det & ((1u128 << b) - 1)).count_ones() % 2 == 0 { 1.0 } else { -1.0 }
+    if (det & ((1u128 << b) - 1)).count_ones().is_multiple_of(2) { 1.0 } else { -1.0 }
 }
 
 /// a+(b) on a basis string.

@@ -50,10 +50,9 @@ pub fn exchange_corrections(coupling: &Coupling) -> Expr {
     let products = spin_products(&coupling.path);
     let half = BigRational::new(1.into(), 2.into());
     let mut terms = vec![];
-    for i in 0..coupling.open.len() {
-        for j in i + 1..coupling.open.len() {
-            let weight = &half - BigRational::from_integer(2.into()) * &products[i][j];
-            let (p, q) = (coupling.open[i], coupling.open[j]);
+    for (i, (&p, row)) in coupling.open.iter().zip(&products).enumerate() {
+        for (&q, product) in coupling.open.iter().zip(row).skip(i + 1) {
+            let weight = &half - BigRational::from_integer(2.into()) * product;
             terms.push(Term::new(Exact::rational(weight), Factor::Eri(p, q, q, p)));
         }
     }
@@ -75,12 +74,10 @@ mod tests {
         // Σ_{i<j} 2 <s_i·s_j> = S(S+1) − 3n/4 for every path
         for path in crate::coupling::paths(8, 2) {
             let p = spin_products(&path);
-            let mut total = BigRational::zero();
-            for i in 0..8 {
-                for j in i + 1..8 {
-                    total += BigRational::from_integer(2.into()) * &p[i][j];
-                }
-            }
+            let total: BigRational = (0..8)
+                .flat_map(|i| (i + 1..8).map(move |j| (i, j)))
+                .map(|(i, j)| BigRational::from_integer(2.into()) * &p[i][j])
+                .sum();
             assert_eq!(total, casimir(2) - BigRational::new(6.into(), 1.into()));
         }
     }

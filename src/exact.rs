@@ -23,7 +23,7 @@ fn square_free_split(mut n: u64) -> (u64, u64) {
     let mut p = 2u64;
     while p * p <= n {
         let mut count = 0;
-        while n % p == 0 {
+        while n.is_multiple_of(p) {
             n /= p;
             count += 1;
         }
@@ -257,6 +257,8 @@ impl Mul for &Exact {
     }
 }
 
+// division is multiplication by the inverse
+#[allow(clippy::suspicious_arithmetic_impl)]
 impl Div for &Exact {
     type Output = Option<Exact>;
     fn div(self, other: &Exact) -> Option<Exact> {

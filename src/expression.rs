@@ -110,6 +110,9 @@ pub struct Term {
 
 type Shape = (Vec<(Orb, Orb)>, Vec<SpaceId>, Factor);
 
+/// (fewer deltas last, deltas, number of sums, spaces, two-electron, kind, integral)
+type OrderKey = (Reverse<usize>, Vec<(Orb, Orb)>, usize, Vec<SpaceId>, bool, IntegralKind, Factor);
+
 impl Term {
     pub fn new(coeff: Exact, factor: Factor) -> Term {
         Term { coeff, deltas: vec![], sums: vec![], factor }
@@ -163,9 +166,7 @@ impl Term {
 
     /// The fixed reading order: terms with more deltas first; then unsummed before summed,
     /// grouped by the spaces summed over; within a group h, J, K, then general integrals.
-    fn order_key(
-        &self,
-    ) -> (Reverse<usize>, Vec<(Orb, Orb)>, usize, Vec<SpaceId>, bool, IntegralKind, Factor) {
+    fn order_key(&self) -> OrderKey {
         let two_electron = !self.kind().is_one_electron_like();
         (
             Reverse(self.deltas.len()),

@@ -300,8 +300,8 @@ impl Resolver {
         let name = inner.next().expect("grammar: csf name");
         let det = inner.next().expect("grammar: csf determinant");
         let det_span = self.span(&det);
-        let (mut s, mut m, mut path): (Option<Twice>, Option<Twice>, Option<(Vec<Twice>, Span)>) =
-            (None, None, None);
+        let (mut s, mut m): (Option<Twice>, Option<Twice>) = (None, None);
+        let mut path: Option<(Vec<Twice>, Span)> = None;
         for option in inner {
             let option_span = self.span(&option);
             let mut parts = option.into_inner();

@@ -45,7 +45,7 @@ impl Universe {
     }
 
     fn spin_orbital(&self, bit: u32) -> SpinOrbital {
-        let spin = if bit % 2 == 0 { Spin::Alpha } else { Spin::Beta };
+        let spin = if bit.is_multiple_of(2) { Spin::Alpha } else { Spin::Beta };
         SpinOrbital::new(self.orbs[(bit / 2) as usize], spin)
     }
 }
@@ -138,7 +138,7 @@ impl BitState {
 
 /// (−1)^(number of occupied bits below `bit`).
 fn parity_below(det: u128, bit: u32) -> i128 {
-    if (det & ((1u128 << bit) - 1)).count_ones() % 2 == 0 { 1 } else { -1 }
+    if (det & ((1u128 << bit) - 1)).count_ones().is_multiple_of(2) { 1 } else { -1 }
 }
 
 /// An exact integer sum that spills into a big integer only when 128 bits overflow.

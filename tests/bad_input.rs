@@ -83,7 +83,7 @@ fn shows_mark(
             }
             let chars: Vec<char> = text.chars().collect();
             let start = column - 1;
-            if chars.get(start) != Some(&mark) || chars[..start].iter().any(|&c| c == mark) {
+            if chars.get(start) != Some(&mark) || chars[..start].contains(&mark) {
                 continue;
             }
             let run = chars[start..].iter().take_while(|&&c| c == mark).count();

@@ -61,8 +61,8 @@ pub use orbital::{Orb, SpaceId, SpaceSet, Spin, SpinOrbital};
 pub use output::write_output;
 pub use parser::{Limits, parse, parse_with};
 pub use pipeline::{
-    Checked, DEFAULT_SEED, Entry, Evaluated, Format, derive_checked, evaluate_all, render, render_states,
-    results_json, results_text,
+    Checked, DEFAULT_SEED, Entry, Evaluated, Format, derive_checked, evaluate_all, render, render_each,
+    render_states, results_json, results_text,
 };
 pub use program::{Coupling, Program, Request, RequestKind, State};
 pub use verify::{Comparison, Report, TOLERANCE, compare, verify};

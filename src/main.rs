@@ -4,8 +4,8 @@
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
     Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, Options, Program, Result, Route,
-    derive_checked, evaluate_all, parse_with, read_dump, render, render_states, results_json, results_text,
-    write_output,
+    derive_checked, evaluate_all, parse_with, read_dump, render, render_each, render_states, results_json,
+    results_text, write_output,
 };
 use std::io::Read;
 
@@ -81,6 +81,10 @@ enum Command {
         /// Write to this file instead of standard output; the file appears whole or not at all.
         #[arg(short, long)]
         output: Option<String>,
+        /// One file per request in the directory given by -o (request_01_energy_s.rs, ...)
+        /// instead of one file for the whole input.
+        #[arg(long, requires = "output")]
+        per_request: bool,
     },
     /// List every named state of FILE with its determinants and exact coefficients.
     States {
@@ -145,7 +149,7 @@ fn derived(common: &Derivation) -> Result<(Program, Vec<Checked>)> {
 
 fn run(cli: Cli) -> Result<()> {
     match cli.command {
-        Command::Derive { common, to, ascii, standalone, output } => {
+        Command::Derive { common, to, ascii, standalone, output, per_request } => {
             let (program, checked) = derived(&common)?;
             let format = match to {
                 To::Text => Format::Text { ascii },
@@ -154,7 +158,18 @@ fn run(cli: Cli) -> Result<()> {
                 To::Rust => Format::Rust,
                 To::Python => Format::Python,
             };
-            write_output(output.as_deref(), &render(&program, &checked, format)?)
+            match (per_request, output) {
+                (true, Some(dir)) => {
+                    let files = render_each(&program, &checked, format)?;
+                    std::fs::create_dir_all(&dir)
+                        .map_err(|e| Error::new(ErrorKind::Io { path: dir.clone(), why: e.to_string() }))?;
+                    for (name, text) in files {
+                        write_output(Some(&format!("{dir}/{name}")), &text)?;
+                    }
+                    Ok(())
+                }
+                (_, output) => write_output(output.as_deref(), &render(&program, &checked, format)?),
+            }
         }
         Command::States { file, json, max_determinants, output } => {
             let (name, text) = read_input(&file)?;

@@ -59,6 +59,37 @@ pub fn render(program: &Program, derivations: &[Checked], format: Format) -> Res
     })
 }
 
+/// One output per request: (file name, text) pairs, rendered before anything is written. File
+/// names number the requests and carry their keyword and operand names.
+pub fn render_each(
+    program: &Program,
+    derivations: &[Checked],
+    format: Format,
+) -> Result<Vec<(String, String)>> {
+    let extension = match format {
+        Format::Text { .. } => "txt",
+        Format::Latex { .. } => "tex",
+        Format::Json => "json",
+        Format::Rust => "rs",
+        Format::Python => "py",
+    };
+    let mut names = emit::Identifiers::new(&[], &[]);
+    program
+        .requests
+        .iter()
+        .zip(derivations)
+        .enumerate()
+        .map(|(k, (request, checked))| {
+            let single = Program { requests: vec![request.clone()], ..program.clone() };
+            let text = render(&single, std::slice::from_ref(checked), format)?;
+            Ok((
+                format!("{}.{extension}", names.fresh(&format!("request_{:02}_{}", k + 1, request.text))),
+                text,
+            ))
+        })
+        .collect()
+}
+
 /// The determinant expansion of every named state, as text or JSON.
 pub fn render_states(program: &Program, json: bool) -> String {
     if json { emit::states::render_json(program) } else { emit::states::render_text(program) }

@@ -76,3 +76,29 @@ fn the_benchmarked_module_is_the_emitters_current_output() {
         "regenerate with: spinfold derive --to rust benches/generated/energies.sf -o benches/generated/energies.rs"
     );
 }
+
+#[test]
+fn one_module_per_request_when_asked() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("modules");
+    run(Command::new(env!("CARGO_BIN_EXE_spinfold"))
+        .args(["derive", "--to", "rust", "--per-request", "-o"])
+        .arg(&out)
+        .arg(root.join("examples/double_excitations.sf")));
+    let mut files: Vec<_> = std::fs::read_dir(&out).unwrap().map(|e| e.unwrap().path()).collect();
+    files.sort();
+    let names: Vec<String> =
+        files.iter().map(|p| p.file_name().unwrap().to_string_lossy().into_owned()).collect();
+    assert_eq!(names[0], "request_01_element_ref_dd.rs");
+    assert_eq!(names.len(), 4, "one file per request: {names:?}");
+    for file in &files {
+        let binary = dir.path().join("check");
+        run(Command::new("rustc")
+            .args(["--edition", "2021", "--test", "-D", "warnings", "-o"])
+            .arg(&binary)
+            .arg(file));
+        let report = run(&mut Command::new(&binary));
+        assert!(report.contains("test result: ok."), "{report}");
+    }
+}

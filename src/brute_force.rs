@@ -140,12 +140,12 @@ pub fn apply_s_squared(v: &Vector) -> Vector {
         let beta = (det & !ALPHA_BITS).count_ones() as f64;
         let sz = (alpha - beta) / 2.0;
         *out.entry(det).or_insert(0.0) += amp * (sz * sz + sz);
-        for q in 0..MAX_ORBITALS as u32 {
-            for p in 0..MAX_ORBITALS as u32 {
-                if let Some((sign, d)) =
-                    apply(det, &[(true, 2 * p + 1), (false, 2 * p), (true, 2 * q), (false, 2 * q + 1)])
-                {
-                    *out.entry(d).or_insert(0.0) += amp * sign;
+        // a+(p α) a(p β) a+(q α) a(q β): q must hold a beta electron, p then an alpha one
+        for q in bits(det & !ALPHA_BITS).into_iter().map(|b| b / 2) {
+            let Some((s1, raised)) = apply(det, &[(true, 2 * q), (false, 2 * q + 1)]) else { continue };
+            for p in bits(raised & ALPHA_BITS).into_iter().map(|b| b / 2) {
+                if let Some((s2, d)) = apply(raised, &[(true, 2 * p + 1), (false, 2 * p)]) {
+                    *out.entry(d).or_insert(0.0) += amp * s1 * s2;
                 }
             }
         }

@@ -286,7 +286,9 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
         return Ok(report);
     }
     // S² is cheap to apply by brute force at any size; H is not
-    if request.bra.terms.len() + request.ket.terms.len() > FULL_CHECK_LIMIT && request.kind != RequestKind::Spin {
+    if request.bra.terms.len() + request.ket.terms.len() > FULL_CHECK_LIMIT
+        && request.kind != RequestKind::Spin
+    {
         return verify_pairs(program, request, derivation, seed);
     }
     for (c, sizes) in size_configurations(program, derivation).into_iter().enumerate() {

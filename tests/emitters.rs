@@ -1,23 +1,10 @@
 //! Every bundled example through every emitter, held as snapshots in `snapshots/`: a change
 //! in any derived formula or in any output layout shows up as a reviewed diff.
 
-use spinfold::{DEFAULT_SEED, Format, Options, derive_checked, parse, render};
-use std::path::Path;
+mod common;
 
-fn examples() -> Vec<(String, String)> {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
-    let mut out: Vec<(String, String)> = std::fs::read_dir(&dir)
-        .expect("examples/ exists")
-        .map(|e| e.expect("readable entry").path())
-        .filter(|p| p.extension().is_some_and(|x| x == "sf"))
-        .map(|p| {
-            let stem = p.file_stem().expect("a file name").to_string_lossy().into_owned();
-            (stem, std::fs::read_to_string(&p).expect("readable example"))
-        })
-        .collect();
-    out.sort();
-    out
-}
+use common::examples;
+use spinfold::{DEFAULT_SEED, Format, Options, derive_checked, parse, render};
 
 fn snapshot(name: &str, text: &str) {
     insta::with_settings!({

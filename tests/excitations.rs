@@ -3,10 +3,16 @@
 //! Numbers use the water integrals of a PySCF RHF run (tests/fixtures, general-purpose reference
 //! library); forms are the standard textbook ones (from memory).
 
+mod common;
+
 use spinfold::{
-    Binding, Bindings, Format, Options, Program, compare, derive, derive_checked, evaluate_all, parse,
-    read_dump, render,
+    Binding, Bindings, Options, Program, compare, derive, derive_checked, evaluate_all, parse, read_dump,
 };
+
+/// Every request's expression as one ASCII line.
+fn lines(program: &Program, options: &Options) -> Vec<String> {
+    common::expression_lines(program, options, 11)
+}
 
 fn fixture(name: &str) -> String {
     format!("{}/tests/fixtures/{name}", env!("CARGO_MANIFEST_DIR"))
@@ -15,24 +21,6 @@ fn fixture(name: &str) -> String {
 fn example(name: &str) -> Program {
     let path = format!("{}/examples/{name}", env!("CARGO_MANIFEST_DIR"));
     parse(name, &std::fs::read_to_string(path).unwrap()).unwrap()
-}
-
-/// Every request's expression as one ASCII line.
-fn lines(program: &Program, options: &Options) -> Vec<String> {
-    let derived = derive_checked(program, options, Some(11)).unwrap();
-    derived
-        .iter()
-        .map(|one| {
-            render(program, std::slice::from_ref(one), Format::Text { ascii: true })
-                .unwrap()
-                .lines()
-                .skip(1)
-                .filter(|l| !l.contains("verified") && !l.trim_start().starts_with("with "))
-                .map(str::trim)
-                .collect::<Vec<_>>()
-                .join(" ")
-        })
-        .collect()
 }
 
 const FOCK: Options =

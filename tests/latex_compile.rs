@@ -4,27 +4,15 @@
 //! state labels made of every kind of name and operand compile too. Without pdflatex the test
 //! is skipped, except under CI (the environment variable CI set), where it fails.
 
+mod common;
+
+use common::examples;
 use spinfold::{Format, Options, derive_checked, parse, render};
 use std::path::Path;
 use std::process::Command;
 
 /// The most an `Overfull \hbox` may stick out, in points.
 const OVERFULL_LIMIT: f32 = 1.0;
-
-fn examples() -> Vec<(String, String)> {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
-    let mut out: Vec<(String, String)> = std::fs::read_dir(&dir)
-        .expect("examples/ exists")
-        .map(|e| e.expect("readable entry").path())
-        .filter(|p| p.extension().is_some_and(|x| x == "sf"))
-        .map(|p| {
-            let stem = p.file_stem().expect("a file name").to_string_lossy().into_owned();
-            (stem, std::fs::read_to_string(&p).expect("readable example"))
-        })
-        .collect();
-    out.sort();
-    out
-}
 
 /// Inputs beyond the examples: a very long energy, and labels of every kind.
 fn extra_inputs() -> Vec<(String, String)> {

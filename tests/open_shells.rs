@@ -2,25 +2,13 @@
 //! high-spin shells (J − K for every pair) and the two doublet couplings of three open shells.
 //! Check values are common practice (CONVENTIONS.md) or derived by hand.
 
-use spinfold::{DEFAULT_SEED, Format, Options, derive_checked, parse, render};
+mod common;
 
-/// The ASCII text of every request, with the request lines and verification lines dropped.
+use spinfold::{DEFAULT_SEED, Options, parse};
+
+/// Each request's expression as one line of ASCII.
 fn bodies(input: &str) -> Vec<String> {
-    let program = parse("t.sf", input).unwrap();
-    let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED)).unwrap();
-    derived
-        .iter()
-        .map(|one| {
-            render(&program, std::slice::from_ref(one), Format::Text { ascii: true })
-                .unwrap()
-                .lines()
-                .skip(1)
-                .filter(|l| !l.contains("verified"))
-                .map(str::trim)
-                .collect::<Vec<_>>()
-                .join(" ")
-        })
-        .collect()
+    common::expression_lines(&parse("t.sf", input).unwrap(), &Options::default(), DEFAULT_SEED)
 }
 
 const CORE: &str = "+ 2 sum_{k in core} h_kk";

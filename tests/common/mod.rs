@@ -1,0 +1,42 @@
+//! What several specification tests share: the bundled examples, and a request's expression as
+//! one line of ASCII text.
+
+#![allow(dead_code)]
+
+use spinfold::{Format, Options, Program, derive_checked, render};
+use std::path::Path;
+
+/// Every `examples/*.sf` as (stem, text), sorted by name.
+pub fn examples() -> Vec<(String, String)> {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
+    let mut out: Vec<(String, String)> = std::fs::read_dir(&dir)
+        .expect("examples/ exists")
+        .map(|e| e.expect("readable entry").path())
+        .filter(|p| p.extension().is_some_and(|x| x == "sf"))
+        .map(|p| {
+            let stem = p.file_stem().expect("a file name").to_string_lossy().into_owned();
+            (stem, std::fs::read_to_string(&p).expect("readable example"))
+        })
+        .collect();
+    out.sort();
+    out
+}
+
+/// Each request's expression in ASCII on one line (`= ...`), without the request line, the
+/// Fock legend and the verification line; derived and verified with `seed`.
+pub fn expression_lines(program: &Program, options: &Options, seed: u64) -> Vec<String> {
+    let derived = derive_checked(program, options, Some(seed)).expect("derives and verifies");
+    derived
+        .iter()
+        .map(|one| {
+            render(program, std::slice::from_ref(one), Format::Text { ascii: true })
+                .expect("text always renders")
+                .lines()
+                .skip(1)
+                .filter(|l| !l.contains("verified") && !l.trim_start().starts_with("with "))
+                .map(str::trim)
+                .collect::<Vec<_>>()
+                .join(" ")
+        })
+        .collect()
+}

@@ -14,7 +14,12 @@ pub trait Integrals {
     fn constant(&self) -> f64;
 }
 
-/// A full table of h_pq and (pq|rs), kept symmetric.
+/// Where (pq|rs) is stored: one slot for all eight orderings.
+fn eri_slot(p: usize, q: usize, r: usize, s: usize) -> usize {
+    pair_index(pair_index(p as u64, q as u64), pair_index(r as u64, s as u64)) as usize
+}
+
+/// A table of h_pq and (pq|rs); the two-electron integrals are stored once per 8-fold class.
 #[derive(Clone, Debug)]
 pub struct DenseIntegrals {
     n: usize,
@@ -25,7 +30,8 @@ pub struct DenseIntegrals {
 
 impl DenseIntegrals {
     pub fn zeros(n: usize) -> DenseIntegrals {
-        DenseIntegrals { n, h: vec![0.0; n * n], eri: vec![0.0; n * n * n * n], constant: 0.0 }
+        let pairs = n * (n + 1) / 2;
+        DenseIntegrals { n, h: vec![0.0; n * n], eri: vec![0.0; pairs * (pairs + 1) / 2], constant: 0.0 }
     }
 
     pub fn set_h(&mut self, p: usize, q: usize, value: f64) {
@@ -36,11 +42,7 @@ impl DenseIntegrals {
 
     /// Sets (pq|rs) and its seven partners under the real 8-fold symmetry.
     pub fn set_eri(&mut self, p: usize, q: usize, r: usize, s: usize, value: f64) {
-        let n = self.n;
-        for (a, b, c, d) in [(p, q, r, s), (q, p, r, s), (p, q, s, r), (q, p, s, r)] {
-            self.eri[((a * n + b) * n + c) * n + d] = value;
-            self.eri[((c * n + d) * n + a) * n + b] = value;
-        }
+        self.eri[eri_slot(p, q, r, s)] = value;
     }
 
     pub fn set_constant(&mut self, value: f64) {
@@ -79,8 +81,7 @@ impl Integrals for DenseIntegrals {
         self.h[p * self.n + q]
     }
     fn eri(&self, p: usize, q: usize, r: usize, s: usize) -> f64 {
-        let n = self.n;
-        self.eri[((p * n + q) * n + r) * n + s]
+        self.eri[eri_slot(p, q, r, s)]
     }
     fn constant(&self) -> f64 {
         self.constant

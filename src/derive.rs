@@ -168,12 +168,17 @@ fn check_comparable(program: &Program, request: &Request, bra: &CaseState, ket: 
     Ok(())
 }
 
+/// The equalities of a case in words: "t = u = v", blocks joined by "and".
 fn case_text(program: &Program, case: &Case) -> String {
-    case.deltas()
-        .iter()
-        .map(|&(a, b)| format!("{} = {}", program.orb_name(a), program.orb_name(b)))
+    let mut blocks: BTreeMap<Orb, Vec<Orb>> = BTreeMap::new();
+    for (representative, other) in case.deltas() {
+        blocks.entry(representative).or_insert_with(|| vec![representative]).push(other);
+    }
+    blocks
+        .values()
+        .map(|block| block.iter().map(|&o| program.orb_name(o)).collect::<Vec<_>>().join(" = "))
         .collect::<Vec<_>>()
-        .join(", ")
+        .join(" and ")
 }
 
 /// The energy of one coupled state: the all-alpha determinant's energy, derived as any other,

@@ -64,7 +64,8 @@ impl Exact {
     }
 
     /// The positive square root of a non-negative rational, or None if it is negative or
-    /// too large to factor.
+    /// too large: p·q of sqrt(p/q) must stay below 2³², so that products of two roots, which a
+    /// derivation forms, still fit the 64-bit radicands.
     pub fn sqrt_of_rational(q: &BigRational) -> Option<Exact> {
         if q.is_negative() {
             return None;
@@ -73,7 +74,7 @@ impl Exact {
             return Some(Exact::zero());
         }
         // sqrt(p/q) = sqrt(p q) / q
-        let product = (q.numer() * q.denom()).to_u64()?;
+        let product = (q.numer() * q.denom()).to_u64().filter(|&p| p < 1 << 32)?;
         let (outside, radicand) = square_free_split(product);
         let coefficient = BigRational::new(BigInt::from(outside), q.denom().clone());
         Some(Exact::monomial(coefficient, radicand))

@@ -124,6 +124,9 @@ struct Resolver {
     limits: Limits,
 }
 
+/// The most open shells a coupled state is expanded into determinants for.
+pub const MAX_EXPANDED_SHELLS: usize = 24;
+
 /// Limits that keep a run within memory.
 #[derive(Clone, Copy, Debug)]
 pub struct Limits {
@@ -398,8 +401,11 @@ impl Resolver {
         };
         let count = binomial(n, ((n as i64 + m) / 2) as usize);
         // one function too large to expand keeps only its coupling: its energy comes from spin algebra
-        let lazy = count > self.limits.max_determinants && chosen.len() == 1;
-        if count > self.limits.max_determinants && !lazy {
+        // past 24 open shells the coefficients' square roots outgrow 64-bit radicands, so such
+        // a function is never expanded
+        let too_many = count > self.limits.max_determinants || n > MAX_EXPANDED_SHELLS;
+        let lazy = too_many && chosen.len() == 1;
+        if too_many && !lazy {
             return Err(Error::at(
                 ErrorKind::TooLarge {
                     what: format!("this coupled state, with up to {count} determinants,"),
@@ -532,7 +538,7 @@ impl Resolver {
                             bad(if q < BigRational::from_integer(0.into()) {
                                 "the square root of a negative number"
                             } else {
-                                "the square root of a number too large to factor"
+                                "the square root of a number too large (p·q of sqrt(p/q) must stay below 2^32)"
                             })
                         })
                     }

@@ -102,3 +102,25 @@ fn one_module_per_request_when_asked() {
         assert!(report.contains("test result: ok."), "{report}");
     }
 }
+
+#[test]
+fn keywords_and_clashing_names_still_give_valid_code() {
+    // orbital and space names that are Rust keywords or names the module itself uses
+    let input = "orbitals fn type ints value\nspace self: k l\nspace Integrals\n\
+                 det x = | self^2 Integrals^2 fn type' |\n\
+                 state y = (x - | self^2 Integrals^2 fn' type |)/sqrt(2)\n\
+                 energy y\nenergy x[k -> value]\nelement x y\n";
+    let dir = tempfile::tempdir().unwrap();
+    let (source, module, binary) = (dir.path().join("k.sf"), dir.path().join("k.rs"), dir.path().join("k"));
+    std::fs::write(&source, input).unwrap();
+    run(Command::new(env!("CARGO_BIN_EXE_spinfold"))
+        .args(["derive", "--to", "rust", "-o"])
+        .arg(&module)
+        .arg(&source));
+    run(Command::new("rustfmt").args(["--edition", "2021", "--check"]).arg(&module));
+    run(Command::new("rustc")
+        .args(["--edition", "2021", "--test", "-D", "warnings", "-o"])
+        .arg(&binary)
+        .arg(&module));
+    assert!(run(&mut Command::new(&binary)).contains("test result: ok. 6 passed"));
+}

@@ -3,8 +3,7 @@
 
 use crate::error::{Error, ErrorKind, Result};
 use crate::evaluate::Binding;
-use crate::orbital::Orb;
-use crate::program::{Occupant, Program, Request};
+use crate::program::{Program, Request, Symbols};
 use std::collections::{BTreeMap, BTreeSet};
 
 fn fail(why: String) -> Error {
@@ -38,35 +37,13 @@ fn parse_set(name: &str, spec: &str) -> Result<Vec<usize>> {
     Ok(out)
 }
 
-/// The orbitals, spaces and generic indices that a request's states mention.
+/// The orbitals, spaces (closed ones and those of generic indices) and generic indices that a
+/// request's states mention.
 pub fn symbols_of(program: &Program, request: &Request) -> (BTreeSet<u32>, BTreeSet<u32>, BTreeSet<u32>) {
-    let (mut orbitals, mut spaces, mut indices) = (BTreeSet::new(), BTreeSet::new(), BTreeSet::new());
-    let mut note = |orb: Orb| match orb {
-        Orb::Named(k) => {
-            orbitals.insert(k);
-        }
-        Orb::Index(k) => {
-            indices.insert(k);
-        }
-        Orb::Summed(_) => {}
-    };
-    for (_, det) in request.bra.terms.iter().chain(request.ket.terms.iter()) {
-        for occupant in &det.occupants {
-            match occupant {
-                Occupant::Closed(s) => {
-                    spaces.insert(*s);
-                }
-                Occupant::Electron(so) => note(so.orb),
-            }
-        }
-        for e in &det.excitations {
-            e.from.iter().chain(&e.to).for_each(|so| note(so.orb));
-        }
-    }
-    for &k in &indices {
-        spaces.insert(program.indices[k as usize].space);
-    }
-    (orbitals, spaces, indices)
+    let symbols = Symbols::of([&request.bra, &request.ket]);
+    let mut spaces = symbols.closed;
+    spaces.extend(symbols.indices.iter().map(|&k| program.indices[k as usize].space));
+    (symbols.orbitals, spaces, symbols.indices)
 }
 
 /// Parsed `--bind` options, by name, 1-based.

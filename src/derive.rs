@@ -8,7 +8,7 @@ use crate::exact::Exact;
 use crate::expression::{Expr, RestrictedSum};
 use crate::fock::fock_form;
 use crate::orbital::{Orb, SpaceId, SpaceSet};
-use crate::program::{Occupant, Program, Request, RequestKind, State};
+use crate::program::{Program, Request, RequestKind, State, Symbols};
 use crate::slater_condon::{self, BitState, Universe};
 use crate::spin_operator::spin_values;
 use std::collections::{BTreeMap, BTreeSet};
@@ -70,37 +70,17 @@ pub struct Derivation {
 
 use crate::spin_operator::CaseState;
 
+/// The generic indices used, grouped by space, the spaces standing closed, and all indices.
 fn used_indices(
     program: &Program,
     states: &[&State],
 ) -> (BTreeMap<SpaceId, Vec<u32>>, Vec<SpaceId>, BTreeSet<u32>) {
-    let mut used: BTreeMap<SpaceId, BTreeSet<u32>> = BTreeMap::new();
-    let mut closed = BTreeSet::new();
-    let mut all = BTreeSet::new();
-    let mut note = |orb: Orb, spaces: &mut BTreeMap<SpaceId, BTreeSet<u32>>| {
-        if let (Orb::Index(k), Some(s)) = (orb, program.space_of(orb)) {
-            spaces.entry(s).or_default().insert(k);
-            all.insert(k);
-        }
-    };
-    for state in states {
-        for (_, det) in state.terms.iter() {
-            for occupant in &det.occupants {
-                match occupant {
-                    Occupant::Closed(s) => {
-                        closed.insert(*s);
-                    }
-                    Occupant::Electron(so) => note(so.orb, &mut used),
-                }
-            }
-            for e in &det.excitations {
-                for so in e.from.iter().chain(&e.to) {
-                    note(so.orb, &mut used);
-                }
-            }
-        }
+    let symbols = Symbols::of(states.iter().copied());
+    let mut by_space: BTreeMap<SpaceId, Vec<u32>> = BTreeMap::new();
+    for &k in &symbols.indices {
+        by_space.entry(program.indices[k as usize].space).or_default().push(k);
     }
-    (used.into_iter().map(|(s, v)| (s, v.into_iter().collect())).collect(), closed.into_iter().collect(), all)
+    (by_space, symbols.closed.into_iter().collect(), symbols.indices)
 }
 
 fn vanishing_error(program: &Program, request: &Request, why: Vanishing, label: &str) -> Error {

@@ -4,6 +4,7 @@
 use crate::error::{Source, Span};
 use crate::exact::Exact;
 use crate::orbital::{Orb, SpaceId, Spin, SpinOrbital};
+use std::collections::BTreeSet;
 use std::sync::Arc;
 
 #[derive(Clone, Debug)]
@@ -101,6 +102,45 @@ impl State {
         Arc::make_mut(&mut self.terms).extend(other.terms.iter().cloned());
         self.coupling = None;
         self
+    }
+}
+
+/// The symbols some states mention.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct Symbols {
+    pub orbitals: BTreeSet<u32>,
+    /// Spaces standing closed in a determinant.
+    pub closed: BTreeSet<SpaceId>,
+    pub indices: BTreeSet<u32>,
+}
+
+impl Symbols {
+    pub fn of<'a>(states: impl IntoIterator<Item = &'a State>) -> Symbols {
+        let mut out = Symbols::default();
+        for state in states {
+            for (_, det) in state.terms.iter() {
+                let mentioned = det.occupants.iter().filter_map(|o| match o {
+                    Occupant::Closed(s) => {
+                        out.closed.insert(*s);
+                        None
+                    }
+                    Occupant::Electron(so) => Some(*so),
+                });
+                let excited = det.excitations.iter().flat_map(|e| e.from.iter().chain(&e.to).copied());
+                for so in mentioned.collect::<Vec<_>>().into_iter().chain(excited) {
+                    match so.orb {
+                        Orb::Named(k) => {
+                            out.orbitals.insert(k);
+                        }
+                        Orb::Index(k) => {
+                            out.indices.insert(k);
+                        }
+                        Orb::Summed(_) => {}
+                    }
+                }
+            }
+        }
+        out
     }
 }
 

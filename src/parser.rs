@@ -338,19 +338,12 @@ impl Resolver {
                 _ => path = Some((values.clone(), option_span.clone())),
             }
         }
-        let occupants = self.inline_det(det)?.terms[0].1.occupants.clone();
+        let written = self.inline_det(det)?.terms[0].1.clone();
+        let occupants = written.occupants.clone();
         // open shells: the singly occupied orbitals, in the order written
-        let mut open = vec![];
-        for (k, occupant) in occupants.iter().enumerate() {
-            if let Occupant::Electron(so) = occupant {
-                let doubled = occupants
-                    .iter()
-                    .filter(|o| matches!(o, Occupant::Electron(x) if x.orb == so.orb))
-                    .count()
-                    == 2;
-                if doubled {
-                    continue;
-                }
+        let open = written.open_shells();
+        for &k in &open {
+            if let Occupant::Electron(so) = &occupants[k] {
                 if so.spin == Spin::Beta {
                     return Err(coupling_error(
                         &det_span,
@@ -361,7 +354,6 @@ impl Resolver {
                         ),
                     ));
                 }
-                open.push(k);
             }
         }
         let n = open.len();

@@ -50,6 +50,18 @@ pub struct DetSpec {
     pub excitations: Vec<Excitation>,
 }
 
+impl DetSpec {
+    /// The positions of its open shells: electrons whose orbital holds no second electron.
+    pub fn open_shells(&self) -> Vec<usize> {
+        let electrons = |orb: Orb| {
+            self.occupants.iter().filter(|o| matches!(o, Occupant::Electron(x) if x.orb == orb)).count()
+        };
+        (0..self.occupants.len())
+            .filter(|&k| matches!(self.occupants[k], Occupant::Electron(so) if electrons(so.orb) == 1))
+            .collect()
+    }
+}
+
 /// A linear combination of determinants with exact coefficients. The terms are shared, so a
 /// large coupled state is not copied each time a request names it.
 #[derive(Clone, Debug, PartialEq)]

@@ -239,23 +239,7 @@ fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, s
 
 /// The determinant with the spins of one alpha and one beta open shell exchanged, if it has both.
 fn spin_exchanged(det: &DetSpec, rng: &mut ChaCha8Rng) -> Option<DetSpec> {
-    let open: Vec<usize> = det
-        .occupants
-        .iter()
-        .enumerate()
-        .filter_map(|(k, o)| match o {
-            Occupant::Electron(so) => {
-                let doubled = det
-                    .occupants
-                    .iter()
-                    .filter(|x| matches!(x, Occupant::Electron(y) if y.orb == so.orb))
-                    .count()
-                    == 2;
-                (!doubled).then_some(k)
-            }
-            Occupant::Closed(_) => None,
-        })
-        .collect();
+    let open = det.open_shells();
     let spin = |k: usize| match det.occupants[k] {
         Occupant::Electron(so) => so.spin,
         Occupant::Closed(_) => Spin::Alpha,

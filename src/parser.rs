@@ -343,17 +343,17 @@ impl Resolver {
         // open shells: the singly occupied orbitals, in the order written
         let open = written.open_shells();
         for &k in &open {
-            if let Occupant::Electron(so) = &occupants[k] {
-                if so.spin == Spin::Beta {
-                    return Err(coupling_error(
-                        &det_span,
-                        format!(
-                            "`{}` carries a spin mark; in a csf the coupling sets the spins: write `{}`",
-                            self.program.spin_orbital_name(*so),
-                            self.program.orb_name(so.orb)
-                        ),
-                    ));
-                }
+            if let Occupant::Electron(so) = &occupants[k]
+                && so.spin == Spin::Beta
+            {
+                return Err(coupling_error(
+                    &det_span,
+                    format!(
+                        "`{}` carries a spin mark; in a csf the coupling sets the spins: write `{}`",
+                        self.program.spin_orbital_name(*so),
+                        self.program.orb_name(so.orb)
+                    ),
+                ));
             }
         }
         let n = open.len();

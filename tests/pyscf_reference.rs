@@ -15,6 +15,8 @@
 //!
 //! Every energy is a total energy, nuclear repulsion included (the dump's constant).
 
+mod common;
+
 use spinfold::{
     Bindings, Checked, Evaluated, Options, Program, derive_checked, evaluate_all, parse, read_dump,
 };
@@ -34,18 +36,7 @@ fn fixture(name: &str) -> String {
     format!("{}/tests/fixtures/{name}", env!("CARGO_MANIFEST_DIR"))
 }
 
-fn reference() -> serde_json::Value {
-    let text =
-        std::fs::read_to_string(fixture("pyscf_reference.json")).expect("the reference file is committed");
-    serde_json::from_str(&text).expect("the reference file is JSON")
-}
-
-fn recorded(reference: &serde_json::Value, pointer: &str) -> f64 {
-    reference
-        .pointer(pointer)
-        .and_then(|v| v.as_f64())
-        .unwrap_or_else(|| panic!("pyscf_reference.json has a number at {pointer}"))
-}
+use common::{pyscf_reference as reference, recorded};
 
 /// A list of 1-based orbital numbers from the reference, as a binding spec `1,2,3`.
 fn orbital_list(reference: &serde_json::Value, pointer: &str) -> String {

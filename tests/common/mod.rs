@@ -40,3 +40,18 @@ pub fn expression_lines(program: &Program, options: &Options, seed: u64) -> Vec<
         })
         .collect()
 }
+
+/// The PySCF reference values committed in tests/fixtures/pyscf_reference.json.
+pub fn pyscf_reference() -> serde_json::Value {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/pyscf_reference.json");
+    let text = std::fs::read_to_string(path).expect("the reference file is committed");
+    serde_json::from_str(&text).expect("the reference file is JSON")
+}
+
+/// The number at a JSON pointer of the reference values.
+pub fn recorded(reference: &serde_json::Value, pointer: &str) -> f64 {
+    reference
+        .pointer(pointer)
+        .and_then(|v| v.as_f64())
+        .unwrap_or_else(|| panic!("pyscf_reference.json has a number at {pointer}"))
+}

@@ -28,6 +28,10 @@ fn det_text(program: &Program, det: &DetSpec) -> String {
 pub fn render_text(program: &Program) -> String {
     let mut out = String::new();
     for s in &program.states {
+        if let Some(c) = s.state.coupling.as_ref().filter(|_| s.state.is_unexpanded()) {
+            out.push_str(&format!("{}  (not expanded: {} determinants)\n", s.name, c.determinants));
+            continue;
+        }
         out.push_str(&format!("{}  ({} determinant(s))\n", s.name, s.state.terms.len()));
         for (c, det) in s.state.terms.iter() {
             out.push_str(&format!(
@@ -63,6 +67,9 @@ struct DetOut {
 struct StateOut {
     name: String,
     determinants: Vec<DetOut>,
+    /// For a coupled state too large to expand: how many determinants it spans (the list is empty).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    unexpanded: Option<usize>,
 }
 
 /// `{"states": [{"name", "determinants": [{"coefficient", "occupants", "excitations"}]}]}`.
@@ -71,6 +78,7 @@ pub fn render_json(program: &Program) -> String {
         .states
         .iter()
         .map(|s| StateOut {
+            unexpanded: s.state.coupling.as_ref().filter(|_| s.state.is_unexpanded()).map(|c| c.determinants),
             name: s.name.clone(),
             determinants: s
                 .state

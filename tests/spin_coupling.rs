@@ -256,3 +256,26 @@ fn coupled_states_agree_with_pyscf_on_spin_and_energy() {
     }
     assert_eq!(checked, 20);
 }
+
+#[test]
+fn a_coupled_state_excites_and_combines_like_any_state() {
+    // D1[r -> s] moves the third open shell to s: the same as coupling p q s directly
+    let program = parse(
+        "e.sf",
+        "orbitals p q r s\nspace core\n\
+         csf D1 = | core^2 p q r | S=1/2 path=1/2,0,1/2\ncsf D1s = | core^2 p q s | S=1/2 path=1/2,0,1/2\n\
+         csf D2 = | core^2 p q r | S=1/2 path=1/2,1,1/2\n\
+         state mix = sqrt(1/3) D1 + sqrt(2/3) D2\n\
+         overlap D1[r -> s] D1s\nenergy D1[r -> s]\nenergy D1s\nspin mix\noverlap mix mix\n",
+    )
+    .unwrap();
+    let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED)).unwrap();
+    assert_eq!(derived[0].0.value, Expr::constant(Exact::one()));
+    assert_eq!(derived[1].0.value, derived[2].0.value);
+    assert_eq!(
+        derived[3].0.value,
+        Expr::constant(Exact::fraction(3, 4)),
+        "a mixture of doublets is a doublet"
+    );
+    assert_eq!(derived[4].0.value, Expr::constant(Exact::one()));
+}

@@ -184,10 +184,16 @@ enum Key {
     Core,
 }
 
-/// Sums of weights per key and square root; the diagonal, the hot path of large states, goes
-/// to dense arrays by spin orbital and pair of spin orbitals.
+/// Sums of weights per key and square root. The diagonal, the hot path of large states, goes to
+/// dense arrays by spin orbital and pair of spin orbitals, one set per square root.
 struct Accumulator {
     keyed: FxHashMap<(Key, u64), Sum>,
+    diagonal: BTreeMap<u64, Diagonal>,
+}
+
+/// The diagonal contributions of one square root: the closed spaces' own energy, each occupied
+/// spin orbital (h_mm and its closed-space interactions), each occupied pair (<mn||mn>).
+struct Diagonal {
     core: Sum,
     single: Vec<Sum>,
     pair: Vec<Sum>,
@@ -195,14 +201,35 @@ struct Accumulator {
 
 const BITS: usize = 128;
 
-impl Accumulator {
-    fn new() -> Accumulator {
-        Accumulator {
-            keyed: FxHashMap::default(),
+impl Diagonal {
+    fn new() -> Diagonal {
+        Diagonal {
             core: Sum::default(),
             single: vec![Sum::default(); BITS],
             pair: vec![Sum::default(); BITS * BITS],
         }
+    }
+
+    fn add(&mut self, bits: u128, w: [i128; 3]) {
+        self.core.add_product(w);
+        let mut m_bits = bits;
+        while m_bits != 0 {
+            let m = m_bits.trailing_zeros();
+            m_bits &= m_bits - 1;
+            self.single[m as usize].add_product(w);
+            let mut n_bits = m_bits;
+            while n_bits != 0 {
+                let n = n_bits.trailing_zeros();
+                n_bits &= n_bits - 1;
+                self.pair[m as usize * BITS + n as usize].add_product(w);
+            }
+        }
+    }
+}
+
+impl Accumulator {
+    fn new() -> Accumulator {
+        Accumulator { keyed: FxHashMap::default(), diagonal: BTreeMap::new() }
     }
 
     fn add(&mut self, key: Key, root: u64, weight: [i128; 3]) {
@@ -225,34 +252,7 @@ pub fn hamiltonian(bra: &BitState, ket: &BitState, universe: &Universe, closed: 
         let ([x, y], g, root) = pair_weight(b, k);
         let (only_bra, only_ket) = (b.bits & !k.bits, k.bits & !b.bits);
         match only_bra.count_ones() {
-            0 if root == 1 => {
-                let w = [x, y, g];
-                acc.core.add_product(w);
-                let mut m_bits = b.bits;
-                while m_bits != 0 {
-                    let m = m_bits.trailing_zeros();
-                    m_bits &= m_bits - 1;
-                    acc.single[m as usize].add_product(w);
-                    let mut n_bits = m_bits;
-                    while n_bits != 0 {
-                        let n = n_bits.trailing_zeros();
-                        n_bits &= n_bits - 1;
-                        acc.pair[m as usize * BITS + n as usize].add_product(w);
-                    }
-                }
-            }
-            0 => {
-                let w = [x, y, g];
-                acc.add(Key::Core, root, w);
-                let bits: Vec<u32> = (0..BITS as u32).filter(|&m| b.bits & (1 << m) != 0).collect();
-                for (s, &m) in bits.iter().enumerate() {
-                    acc.add(Key::One(m, m), root, w);
-                    acc.add(Key::ClosedOne(m, m), root, w);
-                    for &n in &bits[s + 1..] {
-                        acc.add(Key::Two(m, n, m, n), root, w);
-                    }
-                }
-            }
+            0 => acc.diagonal.entry(root).or_insert_with(Diagonal::new).add(b.bits, [x, y, g]),
             1 => {
                 let (m, p) = (only_bra.trailing_zeros(), only_ket.trailing_zeros());
                 // |bra> = s a+(m) a(p) |ket>
@@ -294,13 +294,15 @@ pub fn hamiltonian(bra: &BitState, ket: &BitState, universe: &Universe, closed: 
             terms.extend(RawTerm { coeff: &raw.coeff * &weight, ..raw }.expand());
         }
     };
-    emit(Key::Core, 1, acc.core.total());
-    for m in 0..BITS as u32 {
-        let total = acc.single[m as usize].total();
-        emit(Key::One(m, m), 1, total.clone());
-        emit(Key::ClosedOne(m, m), 1, total);
-        for n in m + 1..BITS as u32 {
-            emit(Key::Two(m, n, m, n), 1, acc.pair[m as usize * BITS + n as usize].total());
+    for (&root, d) in &acc.diagonal {
+        emit(Key::Core, root, d.core.total());
+        for m in 0..BITS as u32 {
+            let total = d.single[m as usize].total();
+            emit(Key::One(m, m), root, total.clone());
+            emit(Key::ClosedOne(m, m), root, total);
+            for n in m + 1..BITS as u32 {
+                emit(Key::Two(m, n, m, n), root, d.pair[m as usize * BITS + n as usize].total());
+            }
         }
     }
     let mut keyed: Vec<_> = acc.keyed.into_iter().collect();

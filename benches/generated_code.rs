@@ -2,7 +2,7 @@
 //! against hand-written loops over the same integral arrays.
 //!
 //! Run with `cargo bench --bench generated_code`. The module under test is
-//! `benches/generated/energies.rs`, the Rust emitter's output for `energies.sf` (a test keeps
+//! `benches/generated/energies.rs`, the Rust emitter's output for `energies.spinfold` (a test keeps
 //! the two in step). `benches/generated_code.py` times NumPy einsum on the same expressions.
 
 #[path = "generated/energies.rs"]

@@ -149,7 +149,7 @@ def main():
     with tempfile.TemporaryDirectory() as tmp:
         for n in args.n:
             norb = n + 1
-            src = os.path.join(tmp, f"csf_{n}.sf")
+            src = os.path.join(tmp, f"csf_{n}.spinfold")
             with open(src, "w") as f:
                 f.write(bench_input(n))
             states = json.loads(run([args.binary, "states", src, "--json"]))["states"]

@@ -14,7 +14,7 @@
 //! state S = (ab - ba)/sqrt(2)
 //! energy S
 //! ";
-//! let program = parse("singlet.sf", input).unwrap();
+//! let program = parse("singlet.spinfold", input).unwrap();
 //! // derive every request and verify it against brute force (seeded random integrals)
 //! let derived = derive_checked(&program, &Options::default(), Some(7)).unwrap();
 //! let text = render(&program, &derived, Format::Text { ascii: true }).unwrap();
@@ -27,45 +27,29 @@
 //! request and verifies each; [`render`] writes text, LaTeX or JSON; [`read_dump`],
 //! [`Bindings`] and [`evaluate_all`] give numbers with the integrals of a real molecule.
 
-mod bind;
-mod brute_force;
-mod coincidence;
-mod derive;
-mod determinant;
+mod check;
 mod emit;
+mod engine;
 mod error;
-mod evaluate;
-mod exact;
-mod expression;
-mod fcidump;
-mod fock;
-mod integrals;
-mod orbital;
+mod language;
+mod numbers;
 mod output;
-mod parser;
 mod pipeline;
-mod program;
-mod slater_condon;
-mod spin_integrate;
-mod verify;
 
-pub use bind::Bindings;
-pub use derive::{Derivation, Options, Route, derive};
+pub use check::verify::{Checked, Comparison, Report, TOLERANCE, compare, verify};
+pub use engine::derive::{Derivation, Options, Route, derive};
+pub use engine::exact::Exact;
+pub use engine::expression::{Expr, Factor, IntegralKind, Term};
 pub use error::{Error, ErrorKind, Result, Source, Span};
-pub use evaluate::{Binding, evaluate};
-pub use exact::Exact;
-pub use expression::{Expr, Factor, IntegralKind, Term};
-pub use fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump};
-pub use integrals::{DenseIntegrals, Integrals};
-pub use orbital::{Orb, SpaceId, SpaceSet, Spin, SpinOrbital};
+pub use language::orbital::{Orb, SpaceId, SpaceSet, Spin, SpinOrbital};
+pub use language::parser::{Limits, parse, parse_with};
+pub use language::program::{Coupling, Program, Request, RequestKind, State};
+pub use numbers::bind::Bindings;
+pub use numbers::evaluate::{Binding, evaluate};
+pub use numbers::fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump};
+pub use numbers::integrals::{DenseIntegrals, Integrals};
 pub use output::write_output;
-pub use parser::{Limits, parse, parse_with};
 pub use pipeline::{
-    Checked, DEFAULT_SEED, Entry, Evaluated, Format, derive_checked, evaluate_all, render, render_each,
-    render_states, results_json, results_text,
+    DEFAULT_SEED, Entry, Evaluated, Format, derive_checked, evaluate_all, render, render_each, render_states,
+    results_json, results_text,
 };
-pub use program::{Coupling, Program, Request, RequestKind, State};
-pub use verify::{Comparison, Report, TOLERANCE, compare, verify};
-mod coupling;
-mod coupling_energy;
-mod spin_operator;

@@ -1,22 +1,19 @@
 //! The whole run as library calls: text to checked derivations, derivations to output
 //! formats, and derivations to numbers with the integrals of a real molecule.
 
-use crate::bind::Bindings;
-use crate::derive::{Derivation, Options, derive};
+use crate::check::verify::{Checked, verify};
 use crate::emit;
+use crate::engine::derive::{Options, derive};
 use crate::error::Result;
-use crate::evaluate::evaluate;
-use crate::integrals::Integrals;
-use crate::program::Program;
-use crate::verify::{Report, verify};
+use crate::language::program::Program;
+use crate::numbers::bind::Bindings;
+use crate::numbers::evaluate::evaluate;
+use crate::numbers::integrals::Integrals;
 use itertools::Itertools;
 use serde::Serialize;
 
 /// The seed of the random integrals used by verification unless another is asked for.
 pub const DEFAULT_SEED: u64 = 20261201;
-
-/// A derivation together with the report of its check, if it was checked.
-pub type Checked = (Derivation, Option<Report>);
 
 /// Derives every request of a program and, with `seed`, verifies each against brute force.
 pub fn derive_checked(program: &Program, options: &Options, seed: Option<u64>) -> Result<Vec<Checked>> {

@@ -133,10 +133,10 @@ fn assert_reported_at_one_of(run: &Run, file: &str, input: &str, places: &[At], 
 #[test]
 fn misspelt_keyword_is_a_parse_error() {
     let input = "orbitals a b\nstat S = | a b |\nenergy S\n";
-    let run = derive("misspelt.sf", input);
+    let run = derive("misspelt.spinfold", input);
     assert_reported(
         &run,
-        "misspelt.sf",
+        "misspelt.spinfold",
         input,
         at(2, 1, "s"),
         &["cannot be read", "expected a statement", "`state`"],
@@ -146,41 +146,47 @@ fn misspelt_keyword_is_a_parse_error() {
 #[test]
 fn missing_bar_is_a_parse_error() {
     let input = "orbitals a b\ndet D = | a b\nenergy D\n";
-    let run = derive("bar.sf", input);
-    assert_reported(&run, "bar.sf", input, at(2, 14, ""), &["cannot be read", "expected"]);
+    let run = derive("bar.spinfold", input);
+    assert_reported(&run, "bar.spinfold", input, at(2, 14, ""), &["cannot be read", "expected"]);
 }
 
 #[test]
 fn missing_bar_is_named_in_the_parse_error() {
     let input = "orbitals a b\ndet D = | a b\nenergy D\n";
-    let run = derive("bar.sf", input);
-    assert_reported(&run, "bar.sf", input, at(2, 14, ""), &["`|`"]);
+    let run = derive("bar.spinfold", input);
+    assert_reported(&run, "bar.spinfold", input, at(2, 14, ""), &["`|`"]);
     assert!(!run.stderr.contains("something else"), "{}", run.stderr);
 }
 
 #[test]
 fn undefined_name() {
     let input = "orbitals a\nenergy | a c |\n";
-    let run = derive("undefined.sf", input);
-    assert_reported(&run, "undefined.sf", input, at(2, 12, "c"), &["`c` is not defined"]);
+    let run = derive("undefined.spinfold", input);
+    assert_reported(&run, "undefined.spinfold", input, at(2, 12, "c"), &["`c` is not defined"]);
 
     let input = "orbitals a\ndet D = | a |\nenergy S\n";
-    let run = derive("undefined_state.sf", input);
-    assert_reported(&run, "undefined_state.sf", input, at(3, 8, "S"), &["`S` is not defined"]);
+    let run = derive("undefined_state.spinfold", input);
+    assert_reported(&run, "undefined_state.spinfold", input, at(3, 8, "S"), &["`S` is not defined"]);
 }
 
 #[test]
 fn name_of_the_wrong_kind() {
     let input = "orbitals a\nenergy a\n";
-    let run = derive("kind.sf", input);
-    assert_reported(&run, "kind.sf", input, at(2, 8, "a"), &["`a` is an orbital", "determinant or state"]);
+    let run = derive("kind.spinfold", input);
+    assert_reported(
+        &run,
+        "kind.spinfold",
+        input,
+        at(2, 8, "a"),
+        &["`a` is an orbital", "determinant or state"],
+    );
 }
 
 #[test]
 fn redefinition_shows_both_places() {
     let input = "orbitals a b\nspace a\n";
-    let run = derive("twice.sf", input);
-    assert_reported(&run, "twice.sf", input, at(2, 7, "a"), &["`a` is defined twice"]);
+    let run = derive("twice.spinfold", input);
+    assert_reported(&run, "twice.spinfold", input, at(2, 7, "a"), &["`a` is defined twice"]);
     assert!(run.stderr.contains("first defined here"), "{}", run.stderr);
     assert!(
         shows_mark(&run.stderr, 1, "orbitals a b", 10, "a", '-'),
@@ -189,46 +195,64 @@ fn redefinition_shows_both_places() {
     );
 
     let input = "orbitals a b\ndet D = | a |\n\ndet D = | b |\n";
-    let run = derive("twice_det.sf", input);
-    assert_reported(&run, "twice_det.sf", input, at(4, 5, "D"), &["`D` is defined twice"]);
+    let run = derive("twice_det.spinfold", input);
+    assert_reported(&run, "twice_det.spinfold", input, at(4, 5, "D"), &["`D` is defined twice"]);
     assert!(shows_mark(&run.stderr, 2, "det D = | a |", 5, "D", '-'), "{}", run.stderr);
 }
 
 #[test]
 fn pauli_violation_of_a_spin_orbital() {
     let input = "orbitals a\nenergy | a a |\n";
-    let run = derive("pauli.sf", input);
-    assert_reported(&run, "pauli.sf", input, at(2, 12, "a"), &["spin orbital a is occupied twice", "Pauli"]);
+    let run = derive("pauli.spinfold", input);
+    assert_reported(
+        &run,
+        "pauli.spinfold",
+        input,
+        at(2, 12, "a"),
+        &["spin orbital a is occupied twice", "Pauli"],
+    );
 
     let input = "orbitals a\ndet D = | a^2 a' |\n";
-    let run = derive("pauli_beta.sf", input);
-    assert_reported(&run, "pauli_beta.sf", input, at(2, 15, "a'"), &["spin orbital a' is occupied twice"]);
+    let run = derive("pauli_beta.spinfold", input);
+    assert_reported(
+        &run,
+        "pauli_beta.spinfold",
+        input,
+        at(2, 15, "a'"),
+        &["spin orbital a' is occupied twice"],
+    );
 }
 
 #[test]
 fn pauli_violation_of_a_closed_space() {
     let input = "space core\nenergy | core^2 core^2 |\n";
-    let run = derive("pauli_core.sf", input);
-    assert_reported(&run, "pauli_core.sf", input, at(2, 17, "core^2"), &["`core` is closed twice", "Pauli"]);
+    let run = derive("pauli_core.spinfold", input);
+    assert_reported(
+        &run,
+        "pauli_core.spinfold",
+        input,
+        at(2, 17, "core^2"),
+        &["`core` is closed twice", "Pauli"],
+    );
     assert!(run.stderr.contains("write `core^2` once"), "{}", run.stderr);
 }
 
 #[test]
 fn space_without_square() {
     let input = "orbitals a\nspace core\nenergy | core a |\n";
-    let run = derive("square.sf", input);
-    assert_reported(&run, "square.sf", input, at(3, 10, "core"), &["`core`", "without `^2`"]);
+    let run = derive("square.spinfold", input);
+    assert_reported(&run, "square.spinfold", input, at(3, 10, "core"), &["`core`", "without `^2`"]);
     assert!(run.stderr.contains("write `core^2`"), "{}", run.stderr);
 }
 
 #[test]
 fn empty_state() {
     let input = "orbitals a b\ndet ab = | a b |\nstate X = ab - ab\nenergy X\n";
-    let run = derive("empty.sf", input);
+    let run = derive("empty.spinfold", input);
     // diagnosed where the state is defined, or where it is first used
     assert_reported_at_one_of(
         &run,
-        "empty.sf",
+        "empty.spinfold",
         input,
         &[at(3, 11, "ab - ab"), at(4, 1, "energy X")],
         &["`X`", "no determinant left"],
@@ -238,18 +262,18 @@ fn empty_state() {
 #[test]
 fn empty_state_is_reported_at_its_definition() {
     let input = "orbitals a b\ndet ab = | a b |\nstate X = ab - ab\n";
-    let run = derive("empty.sf", input);
-    assert_reported(&run, "empty.sf", input, at(3, 11, "ab - ab"), &["`X`", "no determinant left"]);
+    let run = derive("empty.spinfold", input);
+    assert_reported(&run, "empty.spinfold", input, at(3, 11, "ab - ab"), &["`X`", "no determinant left"]);
 }
 
 #[test]
 fn zero_norm() {
     // | b a | = -| a b |: the two determinants cancel only once they are put in one order
     let input = "orbitals a b\nstate X = | a b | + | b a |\nenergy X\n";
-    let run = derive("zero.sf", input);
+    let run = derive("zero.spinfold", input);
     assert_reported_at_one_of(
         &run,
-        "zero.sf",
+        "zero.spinfold",
         input,
         &[at(2, 11, "| a b | + | b a |"), at(3, 1, "energy X")],
         &["`X`"],
@@ -261,17 +285,17 @@ fn zero_norm() {
 #[test]
 fn square_root_of_a_negative_number() {
     let input = "orbitals a b\nstate X = sqrt(-2) | a b |\n";
-    let run = derive("sqrt.sf", input);
-    assert_reported(&run, "sqrt.sf", input, at(2, 16, "-2"), &["coefficient is not exact", "negative"]);
+    let run = derive("sqrt.spinfold", input);
+    assert_reported(&run, "sqrt.spinfold", input, at(2, 16, "-2"), &["coefficient is not exact", "negative"]);
 }
 
 #[test]
 fn sum_of_different_roots_as_a_coefficient() {
     let input = "orbitals a b\nstate X = (1 + sqrt(2)) | a b |\n";
-    let run = derive("sum.sf", input);
+    let run = derive("sum.spinfold", input);
     assert_reported(
         &run,
-        "sum.sf",
+        "sum.spinfold",
         input,
         at(2, 12, "1 + sqrt(2)"),
         &["coefficient is not exact", "sum of different square roots"],
@@ -281,50 +305,56 @@ fn sum_of_different_roots_as_a_coefficient() {
 #[test]
 fn division_by_zero() {
     let input = "orbitals a b\nstate X = | a b |/0\n";
-    let run = derive("zero_div.sf", input);
-    assert_reported(&run, "zero_div.sf", input, at(2, 19, "0"), &["divides by zero"]);
+    let run = derive("zero_div.spinfold", input);
+    assert_reported(&run, "zero_div.spinfold", input, at(2, 19, "0"), &["divides by zero"]);
 
     let input = "orbitals a b\nstate X = 1/(2 - 2) | a b |\n";
-    let run = derive("zero_div2.sf", input);
-    assert_reported(&run, "zero_div2.sf", input, at(2, 13, "(2 - 2)"), &["divides by zero"]);
+    let run = derive("zero_div2.spinfold", input);
+    assert_reported(&run, "zero_div2.spinfold", input, at(2, 13, "(2 - 2)"), &["divides by zero"]);
 }
 
 #[test]
 fn number_standing_alone_as_a_state() {
     let input = "orbitals a b\nstate X = 3\n";
-    let run = derive("alone.sf", input);
-    assert_reported(&run, "alone.sf", input, at(2, 11, "3"), &["number stands alone"]);
+    let run = derive("alone.spinfold", input);
+    assert_reported(&run, "alone.spinfold", input, at(2, 11, "3"), &["number stands alone"]);
 
     let input = "orbitals a b\nstate X = | a b | + 2\n";
-    let run = derive("alone_sum.sf", input);
-    assert_reported(&run, "alone_sum.sf", input, at(2, 21, "2"), &["number stands alone"]);
+    let run = derive("alone_sum.spinfold", input);
+    assert_reported(&run, "alone_sum.spinfold", input, at(2, 21, "2"), &["number stands alone"]);
 }
 
 #[test]
 fn two_states_multiplied() {
     let input = "orbitals a b\ndet A = | a |\ndet B = | b |\nstate X = A B\n";
-    let run = derive("times.sf", input);
-    assert_reported(&run, "times.sf", input, at(4, 13, "B"), &["two states are multiplied"]);
+    let run = derive("times.spinfold", input);
+    assert_reported(&run, "times.spinfold", input, at(4, 13, "B"), &["two states are multiplied"]);
 
     let input = "orbitals a b\ndet A = | a |\ndet B = | b |\nstate X = A * B\n";
-    let run = derive("times_star.sf", input);
-    assert_reported(&run, "times_star.sf", input, at(4, 15, "B"), &["two states are multiplied"]);
+    let run = derive("times_star.spinfold", input);
+    assert_reported(&run, "times_star.spinfold", input, at(4, 15, "B"), &["two states are multiplied"]);
 }
 
 #[test]
 fn excitation_with_unequal_lengths() {
     let input = "orbitals a b c\ndet R = | a a' |\nenergy R[a -> b c]\n";
-    let run = derive("lengths.sf", input);
-    assert_reported(&run, "lengths.sf", input, at(3, 9, "[a -> b c]"), &["removes 1 electron(s) but adds 2"]);
+    let run = derive("lengths.spinfold", input);
+    assert_reported(
+        &run,
+        "lengths.spinfold",
+        input,
+        at(3, 9, "[a -> b c]"),
+        &["removes 1 electron(s) but adds 2"],
+    );
 }
 
 #[test]
 fn excitation_removing_an_unoccupied_spin_orbital() {
     let input = "orbitals a b c\ndet R = | a a' |\nenergy R[b -> c]\n";
-    let run = derive("unoccupied.sf", input);
+    let run = derive("unoccupied.spinfold", input);
     assert_reported_at_one_of(
         &run,
-        "unoccupied.sf",
+        "unoccupied.spinfold",
         input,
         &[at(3, 9, "[b -> c]"), at(3, 1, "energy R[b -> c]")],
         &["b is not occupied"],
@@ -334,27 +364,27 @@ fn excitation_removing_an_unoccupied_spin_orbital() {
 #[test]
 fn excitation_removing_an_unoccupied_spin_orbital_is_reported_at_its_definition() {
     let input = "orbitals a b c\ndet R = | a a' |\nstate X = R[b -> c]\n";
-    let run = derive("unoccupied.sf", input);
-    assert_reported(&run, "unoccupied.sf", input, at(3, 11, "R[b -> c]"), &["b is not occupied"]);
+    let run = derive("unoccupied.spinfold", input);
+    assert_reported(&run, "unoccupied.spinfold", input, at(3, 11, "R[b -> c]"), &["b is not occupied"]);
 }
 
 #[test]
 fn different_closed_spaces_in_bra_and_ket() {
     let input = "orbitals a\nspace core\nspace val\nelement | core^2 a | | val^2 a |\n";
-    let run = derive("closed.sf", input);
+    let run = derive("closed.spinfold", input);
     assert_reported(
         &run,
-        "closed.sf",
+        "closed.spinfold",
         input,
         at(4, 1, "element | core^2 a | | val^2 a |"),
         &["different closed spaces", "{core}", "{val}"],
     );
 
     let input = "orbitals a\nspace core\noverlap | core^2 a | | a |\n";
-    let run = derive("closed_none.sf", input);
+    let run = derive("closed_none.spinfold", input);
     assert_reported(
         &run,
-        "closed_none.sf",
+        "closed_none.spinfold",
         input,
         at(3, 1, "overlap | core^2 a | | a |"),
         &["different closed spaces", "{core}", "none"],
@@ -364,10 +394,10 @@ fn different_closed_spaces_in_bra_and_ket() {
 #[test]
 fn different_electron_counts_in_bra_and_ket() {
     let input = "orbitals a b\nelement | a b | | a |\n";
-    let run = derive("count.sf", input);
+    let run = derive("count.spinfold", input);
     assert_reported(
         &run,
-        "count.sf",
+        "count.spinfold",
         input,
         at(2, 1, "element | a b | | a |"),
         &["different numbers of explicit electrons", "2", "1"],
@@ -377,20 +407,20 @@ fn different_electron_counts_in_bra_and_ket() {
 #[test]
 fn wrong_number_of_operands() {
     let input = "orbitals a b\ndet X = | a |\nelement X\n";
-    let run = derive("arity.sf", input);
+    let run = derive("arity.spinfold", input);
     assert_reported(
         &run,
-        "arity.sf",
+        "arity.spinfold",
         input,
         at(3, 1, "element X"),
         &["`element` takes 2 state(s), but 1 is given"],
     );
 
     let input = "orbitals a b\ndet X = | a |\nenergy X X\n";
-    let run = derive("arity_energy.sf", input);
+    let run = derive("arity_energy.spinfold", input);
     assert_reported(
         &run,
-        "arity_energy.sf",
+        "arity_energy.spinfold",
         input,
         at(3, 1, "energy X X"),
         &["`energy` takes 1 state(s), but 2 are given"],
@@ -400,9 +430,9 @@ fn wrong_number_of_operands() {
 #[test]
 fn missing_input_file() {
     let dir = tempfile::tempdir().unwrap();
-    let run = spinfold(dir.path(), &["derive", "missing.sf"]);
+    let run = spinfold(dir.path(), &["derive", "missing.spinfold"]);
     assert_eq!(run.code, Some(2), "{}", run.stderr);
-    assert!(run.stderr.starts_with("error: cannot use `missing.sf`: "), "{}", run.stderr);
+    assert!(run.stderr.starts_with("error: cannot use `missing.spinfold`: "), "{}", run.stderr);
     assert!(!run.stderr.contains("panicked"), "{}", run.stderr);
     assert!(run.stdout.is_empty());
 }
@@ -436,18 +466,18 @@ const GOOD: &str = "orbitals a b\nspace core\ndet ab = | core^2 a b' |\ndet ba =
 #[test]
 fn output_file_is_not_created_by_a_failing_run() {
     let dir = tempfile::tempdir().unwrap();
-    std::fs::write(dir.path().join("bad.sf"), "orbitals a\nenergy | a a |\n").unwrap();
-    let run = spinfold(dir.path(), &["derive", "bad.sf", "-o", "out.txt"]);
+    std::fs::write(dir.path().join("bad.spinfold"), "orbitals a\nenergy | a a |\n").unwrap();
+    let run = spinfold(dir.path(), &["derive", "bad.spinfold", "-o", "out.txt"]);
     assert_eq!(run.code, Some(2), "{}", run.stderr);
     let left: Vec<String> = std::fs::read_dir(dir.path())
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
-    assert_eq!(left, vec!["bad.sf".to_string()], "nothing but the input is left behind");
+    assert_eq!(left, vec!["bad.spinfold".to_string()], "nothing but the input is left behind");
 
     // an existing file is left as it was
     std::fs::write(dir.path().join("out.txt"), "earlier results\n").unwrap();
-    let run = spinfold(dir.path(), &["derive", "bad.sf", "-o", "out.txt"]);
+    let run = spinfold(dir.path(), &["derive", "bad.spinfold", "-o", "out.txt"]);
     assert_eq!(run.code, Some(2), "{}", run.stderr);
     assert_eq!(std::fs::read_to_string(dir.path().join("out.txt")).unwrap(), "earlier results\n");
 }
@@ -455,13 +485,13 @@ fn output_file_is_not_created_by_a_failing_run() {
 #[test]
 fn output_file_is_written_whole_on_success() {
     let dir = tempfile::tempdir().unwrap();
-    std::fs::write(dir.path().join("good.sf"), GOOD).unwrap();
+    std::fs::write(dir.path().join("good.spinfold"), GOOD).unwrap();
     for to in ["text", "latex", "json"] {
-        let printed = spinfold(dir.path(), &["derive", "good.sf", "--to", to]);
+        let printed = spinfold(dir.path(), &["derive", "good.spinfold", "--to", to]);
         assert_eq!(printed.code, Some(0), "{}", printed.stderr);
         assert!(!printed.stdout.is_empty());
         std::fs::write(dir.path().join("out.txt"), "earlier results\n").unwrap();
-        let written = spinfold(dir.path(), &["derive", "good.sf", "--to", to, "-o", "out.txt"]);
+        let written = spinfold(dir.path(), &["derive", "good.spinfold", "--to", to, "-o", "out.txt"]);
         assert_eq!(written.code, Some(0), "{}", written.stderr);
         assert!(written.stdout.is_empty(), "with -o nothing goes to standard output");
         let file = std::fs::read_to_string(dir.path().join("out.txt")).unwrap();
@@ -472,5 +502,5 @@ fn output_file_is_written_whole_on_success() {
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
     left.sort();
-    assert_eq!(left, vec!["good.sf".to_string(), "out.txt".to_string()], "no temporary file is left");
+    assert_eq!(left, vec!["good.spinfold".to_string(), "out.txt".to_string()], "no temporary file is left");
 }

@@ -9,7 +9,7 @@ const INPUT: &str = "space occ\ndet ground = | occ^2 |\nenergy ground\n";
 
 #[test]
 fn the_formula_comes_out_exactly() {
-    let program = parse("closed.sf", INPUT).unwrap();
+    let program = parse("closed.spinfold", INPUT).unwrap();
     let derived = derive_checked(&program, &Options::default(), Some(1)).unwrap();
     let text = render(&program, &derived, Format::Text { ascii: true }).unwrap();
     let body: Vec<&str> = text.lines().skip(1).take(2).map(str::trim).collect();
@@ -19,7 +19,7 @@ fn the_formula_comes_out_exactly() {
 
 #[test]
 fn the_formula_holds_numerically_for_several_sizes() {
-    let program = parse("closed.sf", INPUT).unwrap();
+    let program = parse("closed.spinfold", INPUT).unwrap();
     let d = derive(&program, &program.requests[0], &Options::default()).unwrap();
     for n in 1..=6 {
         let ints = DenseIntegrals::random(n, 40 + n as u64);
@@ -39,9 +39,9 @@ fn the_formula_holds_numerically_for_several_sizes() {
 fn a_core_and_valence_split_gives_the_same_energy() {
     // Splitting the occupied space in two must not change the number, only the layout.
     let input = "space core\nspace val\ndet split = | core^2 val^2 |\nenergy split\n";
-    let program = parse("split.sf", input).unwrap();
+    let program = parse("split.spinfold", input).unwrap();
     let d = derive(&program, &program.requests[0], &Options::default()).unwrap();
-    let whole = parse("closed.sf", INPUT).unwrap();
+    let whole = parse("closed.spinfold", INPUT).unwrap();
     let w = derive(&whole, &whole.requests[0], &Options::default()).unwrap();
     let ints = DenseIntegrals::random(5, 9);
     let split = Binding { orbitals: vec![], spaces: vec![vec![0, 1], vec![2, 3, 4]], indices: vec![] };

@@ -22,7 +22,7 @@ fn every_example_in_every_format() {
     let all = examples();
     assert!(all.len() >= 5, "at least five bundled examples");
     for (stem, text) in all {
-        let program = parse(&format!("{stem}.sf"), &text).expect("examples parse");
+        let program = parse(&format!("{stem}.spinfold"), &text).expect("examples parse");
         let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED))
             .unwrap_or_else(|e| panic!("{stem}: {e}"));
         assert!(derived.iter().all(|(_, report)| report.as_ref().is_some_and(|r| r.checks > 0)));

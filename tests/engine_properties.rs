@@ -570,7 +570,8 @@ fn generate(values: &[u16]) -> Generated {
 // ---------------------------------------------------------------------------------------
 
 fn parsed(text: &str) -> Result<Program, TestCaseError> {
-    parse("random.sf", text).map_err(|e| TestCaseError::fail(format!("input does not parse:\n{text}\n{e}")))
+    parse("random.spinfold", text)
+        .map_err(|e| TestCaseError::fail(format!("input does not parse:\n{text}\n{e}")))
 }
 
 /// Derives and verifies one request; any error fails the case.
@@ -833,7 +834,7 @@ proptest! {
         for _ in 0..3 {
             let (request, expected) = broken_request(&g, &mut ch);
             let text = g.text_with(std::slice::from_ref(&request));
-            let outcome = parse("broken.sf", &text).and_then(|program| {
+            let outcome = parse("broken.spinfold", &text).and_then(|program| {
                 let request = &program.requests[0];
                 let derivation = derive(&program, request, &Options::default())?;
                 verify(&program, request, &derivation, DEFAULT_SEED)
@@ -966,7 +967,7 @@ proptest! {
 #[test]
 fn the_singlet_with_the_triplet_exchange_sign_is_refused() {
     let text = "orbitals a b\nspace core\nstate S = (| core^2 a b' | - | core^2 a' b |)/sqrt(2)\nenergy S\n";
-    let program = parse("singlet.sf", text).expect("parses");
+    let program = parse("singlet.spinfold", text).expect("parses");
     let request = &program.requests[0];
     let mut derivation = derive(&program, request, &Options::default()).expect("derives");
     let report = verify(&program, request, &derivation, DEFAULT_SEED).expect("verifies");

@@ -34,11 +34,11 @@ struct Run {
     stderr: String,
 }
 
-/// Writes INPUT to `water.sf` in `dir` and runs `spinfold eval water.sf ARGS...` there.
+/// Writes INPUT to `water.spinfold` in `dir` and runs `spinfold eval water.spinfold ARGS...` there.
 fn eval_in(dir: &Path, integrals: &str, args: &[&str]) -> Run {
-    std::fs::write(dir.join("water.sf"), INPUT).expect("the input is written");
+    std::fs::write(dir.join("water.spinfold"), INPUT).expect("the input is written");
     let output = Command::new(env!("CARGO_BIN_EXE_spinfold"))
-        .args(["eval", "water.sf", "--integrals", integrals])
+        .args(["eval", "water.spinfold", "--integrals", integrals])
         .args(args)
         .current_dir(dir)
         .stdin(Stdio::null())

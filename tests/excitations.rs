@@ -28,7 +28,7 @@ const FOCK: Options =
 
 #[test]
 fn cis_blocks_come_out_in_the_textbook_form() {
-    let out = lines(&example("single_excitations.sf"), &FOCK);
+    let out = lines(&example("single_excitations.spinfold"), &FOCK);
     // requests: energy ref, energy ia, element ref S1, element S1 S2, element T1 T2, overlap S1 S2
     assert_eq!(out[0], "= E_ref");
     // singlet: δ_ij δ_ab E_ref + δ_ij f_ab − δ_ab f_ij + 2 (ia|jb) − (ij|ab)
@@ -40,7 +40,7 @@ fn cis_blocks_come_out_in_the_textbook_form() {
 
 #[test]
 fn brillouin_coupling_is_sqrt2_times_the_fock_element() {
-    let program = example("single_excitations.sf");
+    let program = example("single_excitations.spinfold");
     assert_eq!(lines(&program, &FOCK)[2], "= sqrt(2) f_ia");
     // without --fock the same in h and (pq|rs), the closed-space sum written out
     assert_eq!(
@@ -52,7 +52,7 @@ fn brillouin_coupling_is_sqrt2_times_the_fock_element() {
 #[test]
 fn brillouin_coupling_vanishes_for_canonical_rhf_orbitals() {
     // canonical RHF orbitals of water from PySCF: <ref|H|S_i^a> = sqrt(2) f_ia = 0 (to 1e-7)
-    let program = example("single_excitations.sf");
+    let program = example("single_excitations.spinfold");
     let dump = read_dump(&fixture("water_sto3g_rhf.fcidump")).unwrap();
     let derived = derive_checked(&program, &Options::default(), None).unwrap();
     let binds: Vec<String> = ["occ=1-5", "vir=6-7"].map(String::from).to_vec();
@@ -73,7 +73,7 @@ fn brillouin_coupling_vanishes_for_canonical_rhf_orbitals() {
 
 #[test]
 fn single_excitation_energy_relative_to_the_reference() {
-    let program = example("single_excitations.sf");
+    let program = example("single_excitations.spinfold");
     assert_eq!(lines(&program, &FOCK)[1], "= E_ref - f_ii + f_aa - J_ia + K_ia");
     // numerically, E(ia) - E_ref = eps_a - eps_i - J_ia + K_ia with PySCF's canonical orbital
     // energies for f_pp (water, RHF)
@@ -102,7 +102,7 @@ fn single_excitation_energy_relative_to_the_reference() {
 
 #[test]
 fn double_excitation_elements() {
-    let out = lines(&example("double_excitations.sf"), &Options::default());
+    let out = lines(&example("double_excitations.spinfold"), &Options::default());
     assert_eq!(out[0], "= K_ia"); // (ia|ia): both electrons of i to a
     assert_eq!(out[1], "= (ia|jb)"); // alpha-beta double
     assert_eq!(out[2], "= (ia|jb) - (ib|ja)"); // both alpha: direct minus exchange
@@ -110,7 +110,7 @@ fn double_excitation_elements() {
 
 #[test]
 fn distinct_indices_drop_the_deltas() {
-    let program = example("single_excitations.sf");
+    let program = example("single_excitations.spinfold");
     let distinct = Options { distinct: true, ..FOCK };
     assert_eq!(lines(&program, &distinct)[3], "= -(ij|ab) + 2 (ia|jb)");
 }
@@ -121,7 +121,7 @@ fn every_formula_matches_brute_force_with_pyscf_integrals() {
     // determinant algebra on the same integrals, at every index assignment, coincidences included.
     let dump = read_dump(&fixture("water_sto3g_rhf.fcidump")).unwrap();
     let mut checked = 0;
-    for name in ["single_excitations.sf", "double_excitations.sf"] {
+    for name in ["single_excitations.spinfold", "double_excitations.spinfold"] {
         let program = example(name);
         for request in &program.requests {
             for options in [Options::default(), FOCK] {

@@ -59,7 +59,7 @@ fn examples() -> Vec<PathBuf> {
     let mut out: Vec<PathBuf> = std::fs::read_dir(root.join("examples"))
         .unwrap()
         .map(|e| e.unwrap().path())
-        .filter(|p| p.extension().is_some_and(|x| x == "sf"))
+        .filter(|p| p.extension().is_some_and(|x| x == "spinfold"))
         .collect();
     out.sort();
     out
@@ -102,7 +102,7 @@ fn python_keywords_and_builtins_as_names_still_run() {
         return;
     }
     let scratch = tempfile::tempdir().unwrap();
-    let input = scratch.path().join("names.sf");
+    let input = scratch.path().join("names.spinfold");
     std::fs::write(
         &input,
         "# names that are Python keywords, builtins or the generated code's own names
@@ -139,7 +139,10 @@ fn hostile_file_names_stay_inside_the_docstring() {
     }
     let scratch = tempfile::tempdir().unwrap();
     for (k, (name, shown)) in [
-        ("evil\"\"\"\nraise SystemExit(3)\n\"\"\"#.sf", "evil\"\"\" raise SystemExit(3) \"\"\"#.sf"),
+        (
+            "evil\"\"\"\nraise SystemExit(3)\n\"\"\"#.spinfold",
+            "evil\"\"\" raise SystemExit(3) \"\"\"#.spinfold",
+        ),
         ("ends in a quote and a backslash \"\\", "ends in a quote and a backslash \"\\"),
     ]
     .into_iter()
@@ -167,7 +170,7 @@ fn fock_terms_over_two_closed_spaces() {
         return;
     }
     let scratch = tempfile::tempdir().unwrap();
-    let input = scratch.path().join("two_closed.sf");
+    let input = scratch.path().join("two_closed.spinfold");
     std::fs::write(
         &input,
         "orbitals a b\nspace core\nspace val: i j\nspace vir: x y\n\

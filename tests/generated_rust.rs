@@ -43,7 +43,7 @@ fn generated_modules_are_clean_and_prove_themselves() {
     let mut examples: Vec<_> = std::fs::read_dir(root.join("examples"))
         .unwrap()
         .map(|e| e.unwrap().path())
-        .filter(|p| p.extension().is_some_and(|x| x == "sf"))
+        .filter(|p| p.extension().is_some_and(|x| x == "spinfold"))
         .collect();
     examples.sort();
     for example in &examples {
@@ -86,12 +86,12 @@ fn the_benchmarked_module_is_the_emitters_current_output() {
         "derive",
         "--to",
         "rust",
-        "benches/generated/energies.sf",
+        "benches/generated/energies.spinfold",
     ]));
     let committed = std::fs::read_to_string(root.join("benches/generated/energies.rs")).unwrap();
     assert_eq!(
         out, committed,
-        "regenerate with: spinfold derive --to rust benches/generated/energies.sf -o benches/generated/energies.rs"
+        "regenerate with: spinfold derive --to rust benches/generated/energies.spinfold -o benches/generated/energies.rs"
     );
 }
 
@@ -103,7 +103,7 @@ fn one_module_per_request_when_asked() {
     run(Command::new(env!("CARGO_BIN_EXE_spinfold"))
         .args(["derive", "--to", "rust", "--per-request", "-o"])
         .arg(&out)
-        .arg(root.join("examples/double_excitations.sf")));
+        .arg(root.join("examples/double_excitations.spinfold")));
     let mut files: Vec<_> = std::fs::read_dir(&out).unwrap().map(|e| e.unwrap().path()).collect();
     files.sort();
     let names: Vec<String> =
@@ -129,7 +129,8 @@ fn keywords_and_clashing_names_still_give_valid_code() {
                  state y = (x - | self^2 Integrals^2 fn' type |)/sqrt(2)\n\
                  energy y\nenergy x[k -> value]\nelement x y\n";
     let dir = tempfile::tempdir().unwrap();
-    let (source, module, binary) = (dir.path().join("k.sf"), dir.path().join("k.rs"), dir.path().join("k"));
+    let (source, module, binary) =
+        (dir.path().join("k.spinfold"), dir.path().join("k.rs"), dir.path().join("k"));
     std::fs::write(&source, input).unwrap();
     run(Command::new(env!("CARGO_BIN_EXE_spinfold"))
         .args(["derive", "--to", "rust", "-o"])

@@ -52,7 +52,7 @@ energy | core_2^2 a b x |[x -> c_1]
 /// The name the input goes by, which the standalone document shows as its title: for the
 /// labels, one made of every character special to TeX.
 fn source_name(stem: &str) -> String {
-    if stem == "labels" { r"labels #$%&~_^\{}|<>'é.sf".into() } else { format!("{stem}.sf") }
+    if stem == "labels" { r"labels #$%&~_^\{}|<>'é.spinfold".into() } else { format!("{stem}.spinfold") }
 }
 
 /// (points, line) of every `Overfull \hbox` in a log.

@@ -8,7 +8,7 @@ use spinfold::{DEFAULT_SEED, Options, parse};
 
 /// Each request's expression as one line of ASCII.
 fn bodies(input: &str) -> Vec<String> {
-    common::expression_lines(&parse("t.sf", input).unwrap(), &Options::default(), DEFAULT_SEED)
+    common::expression_lines(&parse("t.spinfold", input).unwrap(), &Options::default(), DEFAULT_SEED)
 }
 
 const CORE: &str = "+ 2 sum_{k in core} h_kk";

@@ -23,8 +23,9 @@ use spinfold::{
 use std::process::Command;
 
 /// Two open shells a, b over a closed core, and the closed-shell determinant core^2 a^2.
-const WATER_INPUT: &str = include_str!("inputs/water_two_open_shells.sf");
-const WATER_INPUT_PATH: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/inputs/water_two_open_shells.sf");
+const WATER_INPUT: &str = include_str!("inputs/water_two_open_shells.spinfold");
+const WATER_INPUT_PATH: &str =
+    concat!(env!("CARGO_MANIFEST_DIR"), "/tests/inputs/water_two_open_shells.spinfold");
 
 /// Seed of the random integrals of the brute-force check.
 const SEED: u64 = 7;
@@ -114,7 +115,8 @@ fn water_rhf_and_two_open_shell_states() {
     let bind = water_bindings(&reference);
     // The bindings the reference records: core 1-4, a = 5 (HOMO), b = 6 (LUMO).
     assert_eq!(bind, ["core=1,2,3,4", "a=5", "b=6"]);
-    let (checked, results) = run("water_two_open_shells.sf", WATER_INPUT, "water_sto3g_rhf.fcidump", &bind);
+    let (checked, results) =
+        run("water_two_open_shells.spinfold", WATER_INPUT, "water_sto3g_rhf.fcidump", &bind);
     assert_verified(&checked);
     let energies = "/cases/water_sto3g_rhf/energies";
 
@@ -173,7 +175,7 @@ fn ch2_triplet_rohf_is_the_high_spin_determinant() {
         format!("p={}", open[0]),
         format!("q={}", open[1]),
     ];
-    let (checked, results) = run("ch2.sf", input, "ch2_triplet_631g_rohf.fcidump", &bind);
+    let (checked, results) = run("ch2.spinfold", input, "ch2_triplet_631g_rohf.fcidump", &bind);
     assert_verified(&checked);
     // PySCF, pyscf_reference.json ch2_triplet_631g_rohf energies.rohf:
     // pyscf.scf.ROHF(mol).kernel(), core 1-3, open 4 and 5 (both alpha).
@@ -203,7 +205,7 @@ fn n_quartet_rohf_is_the_high_spin_determinant() {
         format!("q={}", open[1]),
         format!("r={}", open[2]),
     ];
-    let (checked, results) = run("n.sf", input, "n_quartet_631g_rohf.fcidump", &bind);
+    let (checked, results) = run("n.spinfold", input, "n_quartet_631g_rohf.fcidump", &bind);
     assert_verified(&checked);
     // PySCF, pyscf_reference.json n_quartet_631g_rohf energies.rohf:
     // pyscf.scf.ROHF(mol).kernel(), core 1-2, open 3, 4 and 5 (all alpha).

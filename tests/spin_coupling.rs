@@ -7,7 +7,7 @@ mod common;
 use spinfold::{DEFAULT_SEED, Exact, Expr, Limits, Options, derive, derive_checked, parse, parse_with};
 
 fn derived_values(input: &str) -> Vec<Expr> {
-    let program = parse("t.sf", input).unwrap();
+    let program = parse("t.spinfold", input).unwrap();
     derive_checked(&program, &Options::default(), Some(DEFAULT_SEED))
         .unwrap()
         .into_iter()
@@ -17,7 +17,7 @@ fn derived_values(input: &str) -> Vec<Expr> {
 
 /// Each request's expression up to its closed-space sums, as one line of ASCII.
 fn text_lines(input: &str) -> Vec<String> {
-    let program = parse("t.sf", input).unwrap();
+    let program = parse("t.spinfold", input).unwrap();
     common::expression_lines(&program, &Options::default(), DEFAULT_SEED)
         .into_iter()
         .map(|l| l.split(" + 2 sum_{k in core}").next().unwrap_or("").to_string())
@@ -73,10 +73,10 @@ fn every_coupled_state_has_exact_spin() {
                     s(twice_s as i64),
                     s(twice_m)
                 );
-                let mut program = parse("spin.sf", &input).unwrap();
+                let mut program = parse("spin.spinfold", &input).unwrap();
                 let count = program.states.len();
                 let requests: String = (1..=count).map(|k| format!("spin F.{k}\n")).collect();
-                program = parse("spin.sf", &format!("{input}{requests}")).unwrap();
+                program = parse("spin.spinfold", &format!("{input}{requests}")).unwrap();
                 let expected = Exact::fraction((twice_s * (twice_s + 2)) as i64, 4);
                 for request in &program.requests {
                     let d = derive(&program, request, &Options::default()).unwrap();
@@ -91,7 +91,7 @@ fn every_coupled_state_has_exact_spin() {
 
 #[test]
 fn a_single_determinant_of_mixed_spin_is_flagged_but_still_derived() {
-    let program = parse("mixed.sf", "orbitals a b\nspin | a b' |\nenergy | a b' |\n").unwrap();
+    let program = parse("mixed.spinfold", "orbitals a b\nspin | a b' |\nenergy | a b' |\n").unwrap();
     let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED)).unwrap();
     assert_eq!(derived[0].0.value, Expr::constant(Exact::one()), "<S^2> = 1: half singlet, half triplet");
     assert!(derived[0].0.notes[0].starts_with("warning:"));
@@ -99,7 +99,7 @@ fn a_single_determinant_of_mixed_spin_is_flagged_but_still_derived() {
 }
 
 fn error_of(input: &str) -> String {
-    parse("bad.sf", input).unwrap_err().render()
+    parse("bad.spinfold", input).unwrap_err().render()
 }
 
 #[test]
@@ -121,7 +121,7 @@ fn couplings_that_cannot_exist_are_refused_with_a_reason() {
         let report = error_of(&format!("{base}{line}\n"));
         assert!(report.contains(message), "{line}\n{report}");
         let line_number = 2 + line.lines().count();
-        assert!(report.contains(&format!("bad.sf:{line_number}:")), "{report}");
+        assert!(report.contains(&format!("bad.spinfold:{line_number}:")), "{report}");
     }
 }
 
@@ -136,7 +136,7 @@ fn a_request_past_the_size_limit_stops_with_a_clear_error() {
     let small = Limits { max_determinants: 10_000 };
     // past the limit the function is kept unexpanded: its energy still comes from spin algebra,
     // but a request that needs its 12870 determinants stops
-    let program = parse_with("big.sf", &input, small).unwrap();
+    let program = parse_with("big.spinfold", &input, small).unwrap();
     assert!(program.states[0].state.is_unexpanded());
     let error =
         derive(&program, &program.requests[0], &Options { max_determinants: 10_000, ..Options::default() })
@@ -146,10 +146,13 @@ fn a_request_past_the_size_limit_stops_with_a_clear_error() {
     // so does a family of coupled states past the limit, where it is defined
     let family = format!("orbitals {0}\nspace core\ncsfs F = | core^2 {0} | S=0\n", names.join(" "));
     assert!(
-        parse_with("big.sf", &family, small).unwrap_err().render().contains("exceeds the limit of 10000")
+        parse_with("big.spinfold", &family, small)
+            .unwrap_err()
+            .render()
+            .contains("exceeds the limit of 10000")
     );
     assert!(
-        parse_with("big.sf", &input, Limits { max_determinants: 20_000 }).unwrap().states[0]
+        parse_with("big.spinfold", &input, Limits { max_determinants: 20_000 }).unwrap().states[0]
             .state
             .terms
             .len()
@@ -166,9 +169,9 @@ fn spin_algebra_and_determinants_agree_for_every_path_up_to_ten_open_shells() {
         for twice_s in (0..=n).rev().step_by(2) {
             let s = if twice_s % 2 == 0 { format!("{}", twice_s / 2) } else { format!("{twice_s}/2") };
             let base = format!("orbitals {0}\nspace core\ncsfs F = | core^2 {0} | S={s}\n", names.join(" "));
-            let count = parse("routes.sf", &base).unwrap().states.len();
+            let count = parse("routes.spinfold", &base).unwrap().states.len();
             let requests: String = (1..=count).map(|k| format!("energy F.{k}\n")).collect();
-            let program = parse("routes.sf", &format!("{base}{requests}")).unwrap();
+            let program = parse("routes.spinfold", &format!("{base}{requests}")).unwrap();
             for request in &program.requests {
                 let by = |route| {
                     derive(&program, request, &Options { route, ..Options::default() }).unwrap().value
@@ -198,7 +201,7 @@ fn forty_open_shells_come_from_spin_algebra_without_expansion() {
         names.join(" "),
         path.join(",")
     );
-    let program = parse("forty.sf", &input).unwrap();
+    let program = parse("forty.spinfold", &input).unwrap();
     assert!(program.states[0].state.is_unexpanded());
     let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED)).unwrap();
     let (d, report) = &derived[0];
@@ -210,7 +213,7 @@ fn forty_open_shells_come_from_spin_algebra_without_expansion() {
     // 40 h, 780 J and 780 K terms among the open shells, and the core terms
     assert_eq!(d.value.terms.iter().filter(|t| t.sums.is_empty()).count(), 40 + 780 + 780);
     // asking for more than its energy needs the determinants
-    let more = parse("forty.sf", &format!("{input}spin X\n")).unwrap();
+    let more = parse("forty.spinfold", &format!("{input}spin X\n")).unwrap();
     let error = derive(&more, &more.requests[1], &Options::default()).unwrap_err();
     assert!(error.render().contains("137846528820 determinants"));
 }
@@ -218,14 +221,14 @@ fn forty_open_shells_come_from_spin_algebra_without_expansion() {
 #[test]
 fn coupled_states_agree_with_pyscf_on_spin_and_energy() {
     // PySCF (general-purpose reference library): spin_square and <c|H|c> of the CI vector each
-    // csf of tests/inputs/csf_water.sf spans, on water RHF orbitals (fixture committed)
+    // csf of tests/inputs/csf_water.spinfold spans, on water RHF orbitals (fixture committed)
     let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
     let reference: serde_json::Value = serde_json::from_str(
         &std::fs::read_to_string(root.join("tests/fixtures/csf_water_reference.json")).unwrap(),
     )
     .unwrap();
-    let input = std::fs::read_to_string(root.join("tests/inputs/csf_water.sf")).unwrap();
-    let program = parse("csf_water.sf", &input).unwrap();
+    let input = std::fs::read_to_string(root.join("tests/inputs/csf_water.spinfold")).unwrap();
+    let program = parse("csf_water.spinfold", &input).unwrap();
     let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED)).unwrap();
     let dump =
         spinfold::read_dump(root.join("tests/fixtures/water_sto3g_rhf.fcidump").to_str().unwrap()).unwrap();
@@ -261,7 +264,7 @@ fn coupled_states_agree_with_pyscf_on_spin_and_energy() {
 fn a_coupled_state_excites_and_combines_like_any_state() {
     // D1[r -> s] moves the third open shell to s: the same as coupling p q s directly
     let program = parse(
-        "e.sf",
+        "e.spinfold",
         "orbitals p q r s\nspace core\n\
          csf D1 = | core^2 p q r | S=1/2 path=1/2,0,1/2\ncsf D1s = | core^2 p q s | S=1/2 path=1/2,0,1/2\n\
          csf D2 = | core^2 p q r | S=1/2 path=1/2,1,1/2\n\

@@ -23,7 +23,7 @@ use spinfold::{
 };
 
 /// The input: both determinants, their energies and the element between them.
-const INPUT: &str = include_str!("inputs/h2_two_determinants.sf");
+const INPUT: &str = include_str!("inputs/h2_two_determinants.spinfold");
 
 /// Seed of the random integrals of the brute-force check.
 const SEED: u64 = 1401;
@@ -54,7 +54,7 @@ fn textbook_dump_text(constant: f64) -> String {
 }
 
 fn derived() -> (Program, Vec<Checked>) {
-    let program = parse("h2_two_determinants.sf", INPUT).expect("the input parses");
+    let program = parse("h2_two_determinants.spinfold", INPUT).expect("the input parses");
     let checked = derive_checked(&program, &Options::default(), Some(SEED)).expect("every request derives");
     (program, checked)
 }

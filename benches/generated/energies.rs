@@ -1,4 +1,4 @@
-//! Closed formulas derived by spinfold from `benches/generated/energies.sf`, verified against brute-force
+//! Closed formulas derived by spinfold from `benches/generated/energies.spinfold`, verified against brute-force
 //! determinant algebra. Regenerate rather than edit.
 
 /// Integral access for the functions of this module: 0-based orbital numbers, real orbitals.

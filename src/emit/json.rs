@@ -2,11 +2,11 @@
 //! every term's exact coefficient, deltas, summed indices and integral.
 
 use super::{Namer, integral_parts};
-use crate::derive::Derivation;
-use crate::exact::Exact;
-use crate::expression::{Expr, IntegralKind};
-use crate::program::{Program, RequestKind};
-use crate::verify::Report;
+use crate::check::verify::Report;
+use crate::engine::derive::Derivation;
+use crate::engine::exact::Exact;
+use crate::engine::expression::{Expr, IntegralKind};
+use crate::language::program::{Program, RequestKind};
 use serde::Serialize;
 
 pub const SCHEMA_VERSION: u32 = 1;

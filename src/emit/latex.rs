@@ -3,11 +3,11 @@
 //! radicals, and every piece of the input rendered so that it cannot inject TeX.
 
 use super::{Group, Namer, groups, integral_parts, uses_fock, verification_line};
-use crate::derive::Derivation;
-use crate::exact::Exact;
-use crate::expression::{Expr, Factor, IntegralKind, Term};
-use crate::program::{Program, RequestKind};
-use crate::verify::Report;
+use crate::check::verify::Report;
+use crate::engine::derive::Derivation;
+use crate::engine::exact::Exact;
+use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
+use crate::language::program::{Program, RequestKind};
 use num_traits::{One, Signed};
 
 /// The printed width, in em of the 10 pt text font, that one display line may take. The text

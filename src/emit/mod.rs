@@ -8,9 +8,9 @@ pub mod rust;
 pub mod states;
 pub mod text;
 
-use crate::expression::{Expr, Factor, IntegralKind, Term};
-use crate::orbital::{Orb, SpaceId};
-use crate::program::Program;
+use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
+use crate::language::orbital::{Orb, SpaceId};
+use crate::language::program::Program;
 use std::collections::BTreeSet;
 
 /// Consecutive terms sharing deltas, sums and the one/two-electron class, written as one
@@ -124,7 +124,7 @@ pub fn uses_fock(expr: &Expr) -> bool {
 }
 
 /// The one-line summary of what a derivation was checked against.
-pub fn verification_line(report: Option<&crate::verify::Report>) -> String {
+pub fn verification_line(report: Option<&crate::check::verify::Report>) -> String {
     match report {
         Some(r) => r.summary(),
         None => "not verified (--no-verify)".to_string(),
@@ -135,7 +135,7 @@ pub fn verification_line(report: Option<&crate::verify::Report>) -> String {
 /// `HashedIntegrals` table, and the value brute-force determinant algebra gives there.
 #[derive(Clone, Debug, PartialEq)]
 pub struct TestVector {
-    pub binding: crate::evaluate::Binding,
+    pub binding: crate::numbers::evaluate::Binding,
     pub orbitals: usize,
     pub expected: f64,
     /// "brute force", or for states too large for it, "verified expression".
@@ -150,11 +150,11 @@ pub const TEST_SEED: u64 = 0x5eed_2026;
 /// where they coincide.
 pub fn test_vectors(
     program: &Program,
-    request: &crate::program::Request,
-    derivation: &crate::derive::Derivation,
+    request: &crate::language::program::Request,
+    derivation: &crate::engine::derive::Derivation,
 ) -> crate::error::Result<Vec<TestVector>> {
-    use crate::evaluate::{Binding, evaluate};
-    use crate::integrals::HashedIntegrals;
+    use crate::numbers::evaluate::{Binding, evaluate};
+    use crate::numbers::integrals::HashedIntegrals;
     let mut out = vec![];
     for base in [2usize, 3] {
         let mut next = program.orbitals.len();
@@ -193,9 +193,10 @@ pub fn test_vectors(
             if coincide && used_in_space.iter().all(|&n| n < 2) {
                 continue;
             }
-            let small = request.bra.terms.len() + request.ket.terms.len() <= crate::verify::FULL_CHECK_LIMIT;
+            let small =
+                request.bra.terms.len() + request.ket.terms.len() <= crate::check::verify::FULL_CHECK_LIMIT;
             let (expected, source) = if small {
-                match crate::verify::compare(program, request, derivation, &binding, &ints)? {
+                match crate::check::verify::compare(program, request, derivation, &binding, &ints)? {
                     Some(c) => (c[0].brute_force, "brute force"),
                     None => continue,
                 }

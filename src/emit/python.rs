@@ -11,15 +11,15 @@
 
 use super::text::request_meaning;
 use super::{Group, Identifiers, Namer, TEST_SEED, TestVector, groups, test_vectors};
-use crate::derive::Derivation;
+use crate::check::verify::Checked;
+use crate::engine::derive::Derivation;
+use crate::engine::exact::ExactDisplay;
+use crate::engine::expression::{Expr, Factor, Term};
 use crate::error::{Error, ErrorKind, Result};
-use crate::evaluate::evaluate;
-use crate::exact::ExactDisplay;
-use crate::expression::{Expr, Factor, Term};
-use crate::integrals::{HashedIntegrals, Integrals};
-use crate::orbital::{Orb, SpaceId, SpaceSet};
-use crate::pipeline::Checked;
-use crate::program::{Program, Request, RequestKind};
+use crate::language::orbital::{Orb, SpaceId, SpaceSet};
+use crate::language::program::{Program, Request, RequestKind};
+use crate::numbers::evaluate::evaluate;
+use crate::numbers::integrals::{HashedIntegrals, Integrals};
 use std::collections::{BTreeMap, BTreeSet};
 use std::fmt::Write;
 
@@ -732,7 +732,7 @@ fn call_arguments(symbols: &Symbols, parameters: &Parameters, v: &TestVector) ->
 fn s_z_expected(program: &Program, request: &Request, d: &Derivation, v: &TestVector) -> Result<f64> {
     let ints = HashedIntegrals { seed: TEST_SEED, orbitals: v.orbitals };
     if v.source == "brute force"
-        && let Some(c) = crate::verify::compare(program, request, d, &v.binding, &ints)?
+        && let Some(c) = crate::check::verify::compare(program, request, d, &v.binding, &ints)?
         && let Some(s_z) = c.get(1)
     {
         return Ok(s_z.brute_force);
@@ -888,7 +888,7 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::exact::Exact;
+    use crate::engine::exact::Exact;
 
     fn body(program: &Program, expr: &Expr) -> Result<Vec<String>> {
         let symbols = Symbols::new(program);
@@ -915,7 +915,8 @@ mod tests {
 
     #[test]
     fn repeated_summation_indices_read_diagonal_views() {
-        let program = crate::parser::parse("t.sf", "orbitals a b\nspace core\nspace val\n").unwrap();
+        let program =
+            crate::language::parser::parse("t.spinfold", "orbitals a b\nspace core\nspace val\n").unwrap();
         let (a, b, k, l) = (Orb::Named(0), Orb::Named(1), Orb::Summed(0), Orb::Summed(1));
         let term =
             |c: i64, sums: Vec<u32>, factor| Term { coeff: Exact::integer(c), deltas: vec![], sums, factor };
@@ -945,7 +946,8 @@ mod tests {
 
     #[test]
     fn summation_indices_out_of_order_are_reordered_by_a_view() {
-        let program = crate::parser::parse("t.sf", "orbitals a b\nspace core\nspace val\n").unwrap();
+        let program =
+            crate::language::parser::parse("t.spinfold", "orbitals a b\nspace core\nspace val\n").unwrap();
         let (a, b, k, l) = (Orb::Named(0), Orb::Named(1), Orb::Summed(0), Orb::Summed(1));
         // written directly, so that from_terms cannot rename the indices
         let writer_term =
@@ -956,7 +958,7 @@ mod tests {
 
     #[test]
     fn sums_over_spaces_a_term_does_not_use_multiply_by_their_size() {
-        let program = crate::parser::parse("t.sf", "space core\nspace val\n").unwrap();
+        let program = crate::language::parser::parse("t.spinfold", "space core\nspace val\n").unwrap();
         let k = Orb::Summed(0);
         let expr = Expr::from_terms([
             Term { coeff: Exact::integer(3), deltas: vec![], sums: vec![0, 1], factor: Factor::H(k, k) },
@@ -969,7 +971,8 @@ mod tests {
 
     #[test]
     fn deltas_become_conditions_and_consecutive_groups_share_one() {
-        let program = crate::parser::parse("t.sf", "space occ: i j\nspace vir: a b\n").unwrap();
+        let program =
+            crate::language::parser::parse("t.spinfold", "space occ: i j\nspace vir: a b\n").unwrap();
         let (i, j, a, b, k) = (Orb::Index(0), Orb::Index(1), Orb::Index(2), Orb::Index(3), Orb::Summed(0));
         let delta = |deltas: Vec<(Orb, Orb)>, sums: Vec<u32>, factor| Term {
             coeff: Exact::one(),
@@ -993,7 +996,7 @@ mod tests {
 
     #[test]
     fn deltas_on_summation_indices_are_refused() {
-        let program = crate::parser::parse("t.sf", "space occ: i\n").unwrap();
+        let program = crate::language::parser::parse("t.spinfold", "space occ: i\n").unwrap();
         let (i, k) = (Orb::Index(0), Orb::Summed(0));
         let expr = Expr::from_terms([Term {
             coeff: Exact::one(),
@@ -1006,7 +1009,7 @@ mod tests {
 
     #[test]
     fn irrational_coefficients_are_correctly_rounded_with_their_exact_value_beside() {
-        let program = crate::parser::parse("t.sf", "orbitals a b\n").unwrap();
+        let program = crate::language::parser::parse("t.spinfold", "orbitals a b\n").unwrap();
         let (a, b) = (Orb::Named(0), Orb::Named(1));
         let three_quarters = num_rational::BigRational::new(3.into(), 4.into());
         let half_root_three = Exact::sqrt_of_rational(&three_quarters).unwrap();

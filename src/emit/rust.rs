@@ -2,12 +2,12 @@
 //! documented function per request with loops for the sums, and a self-checking test.
 
 use super::{Group, Identifiers, Namer, TEST_SEED, groups, test_vectors};
+use crate::check::verify::Checked;
+use crate::engine::exact::Exact;
+use crate::engine::expression::{Expr, Factor, IntegralKind};
 use crate::error::Result;
-use crate::exact::Exact;
-use crate::expression::{Expr, Factor, IntegralKind};
-use crate::orbital::{Orb, SpaceId, SpaceSet};
-use crate::pipeline::Checked;
-use crate::program::{Program, RequestKind};
+use crate::language::orbital::{Orb, SpaceId, SpaceSet};
+use crate::language::program::{Program, RequestKind};
 use std::fmt::Write;
 
 const KEYWORDS: &[&str] = &[

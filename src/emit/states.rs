@@ -1,9 +1,9 @@
 //! The determinant expansion of every named state, as text or JSON: what a coupled state or a
 //! combination is made of, with exact coefficients, for inspection or for other programs.
 
-use crate::exact::ExactDisplay;
-use crate::orbital::Spin;
-use crate::program::{DetSpec, Occupant, Program};
+use crate::engine::exact::ExactDisplay;
+use crate::language::orbital::Spin;
+use crate::language::program::{DetSpec, Occupant, Program};
 use serde::Serialize;
 
 fn det_text(program: &Program, det: &DetSpec) -> String {
@@ -16,7 +16,7 @@ fn det_text(program: &Program, det: &DetSpec) -> String {
     }
     let mut out = format!("| {} |", parts.join(" "));
     for e in &det.excitations {
-        let list = |v: &[crate::orbital::SpinOrbital]| {
+        let list = |v: &[crate::language::orbital::SpinOrbital]| {
             v.iter().map(|&so| program.spin_orbital_name(so)).collect::<Vec<_>>().join(" ")
         };
         out.push_str(&format!("[{} -> {}]", list(&e.from), list(&e.to)));
@@ -106,7 +106,7 @@ pub fn render_json(program: &Program) -> String {
                         .excitations
                         .iter()
                         .map(|e| {
-                            let names = |v: &[crate::orbital::SpinOrbital]| {
+                            let names = |v: &[crate::language::orbital::SpinOrbital]| {
                                 v.iter().map(|&so| program.spin_orbital_name(so)).collect()
                             };
                             (names(&e.from), names(&e.to))

@@ -2,11 +2,11 @@
 //! terms per line, in Unicode or plain ASCII.
 
 use super::{Group, Namer, groups, integral_parts, join_signed, uses_fock, verification_line};
-use crate::derive::Derivation;
-use crate::exact::{Exact, ExactDisplay};
-use crate::expression::{Expr, Factor, IntegralKind};
-use crate::program::{Program, RequestKind};
-use crate::verify::Report;
+use crate::check::verify::Report;
+use crate::engine::derive::Derivation;
+use crate::engine::exact::{Exact, ExactDisplay};
+use crate::engine::expression::{Expr, Factor, IntegralKind};
+use crate::language::program::{Program, RequestKind};
 
 struct Style {
     ascii: bool,
@@ -85,7 +85,7 @@ fn group_text(group: &Group, namer: &Namer, style: &Style) -> (bool, String) {
         }
         prefix.push_str(&format!("{}_{{{}}} ", style.sigma(), bounds.join(",")));
     }
-    let body = |t: &crate::expression::Term| factor_text(&t.factor, namer, &summed);
+    let body = |t: &crate::engine::expression::Term| factor_text(&t.factor, namer, &summed);
     if group.terms.len() == 1 {
         let t = group.terms[0];
         let inner = body(t);

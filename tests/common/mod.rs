@@ -6,13 +6,13 @@
 use spinfold::{Format, Options, Program, derive_checked, render};
 use std::path::Path;
 
-/// Every `examples/*.sf` as (stem, text), sorted by name.
+/// Every `examples/*.spinfold` as (stem, text), sorted by name.
 pub fn examples() -> Vec<(String, String)> {
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
     let mut out: Vec<(String, String)> = std::fs::read_dir(&dir)
         .expect("examples/ exists")
         .map(|e| e.expect("readable entry").path())
-        .filter(|p| p.extension().is_some_and(|x| x == "sf"))
+        .filter(|p| p.extension().is_some_and(|x| x == "spinfold"))
         .map(|p| {
             let stem = p.file_stem().expect("a file name").to_string_lossy().into_owned();
             (stem, std::fs::read_to_string(&p).expect("readable example"))

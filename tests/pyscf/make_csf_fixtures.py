@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""PySCF reference values for the spin-coupled states of tests/inputs/csf_water.sf.
+"""PySCF reference values for the spin-coupled states of tests/inputs/csf_water.spinfold.
 
 Run from the repository root, after `cargo build --release`:
 
@@ -8,7 +8,7 @@ Run from the repository root, after `cargo build --release`:
 
 The binary defaults to target/release/spinfold.  The script
 
-  1. runs `spinfold states tests/inputs/csf_water.sf --json` and saves the output,
+  1. runs `spinfold states tests/inputs/csf_water.spinfold --json` and saves the output,
      unchanged, as tests/fixtures/csf_water_states.json (if the binary is missing,
      the saved file is read instead);
   2. turns every state's determinant expansion into a PySCF FCI vector over the
@@ -56,7 +56,7 @@ from pyscf.tools import fcidump  # noqa: E402
 HERE = os.path.dirname(os.path.abspath(__file__))
 ROOT = os.path.normpath(os.path.join(HERE, "..", ".."))
 FIXTURES = os.path.join(ROOT, "tests", "fixtures")
-INPUT = os.path.join(ROOT, "tests", "inputs", "csf_water.sf")
+INPUT = os.path.join(ROOT, "tests", "inputs", "csf_water.spinfold")
 DUMP = os.path.join(FIXTURES, "water_sto3g_rhf.fcidump")
 STATES_JSON = os.path.join(FIXTURES, "csf_water_states.json")
 REFERENCE_JSON = os.path.join(FIXTURES, "csf_water_reference.json")
@@ -251,12 +251,12 @@ def main():
         }
 
     out = {
-        "description": "PySCF reference values for the spin-coupled states of tests/inputs/csf_water.sf "
+        "description": "PySCF reference values for the spin-coupled states of tests/inputs/csf_water.spinfold "
                        "(total energies in hartree including nuclear repulsion; elements electronic only); "
                        "regenerate with python3 tests/pyscf/make_csf_fixtures.py",
         "generator": "tests/pyscf/make_csf_fixtures.py",
         "pyscf_version": pyscf.__version__,
-        "input": "tests/inputs/csf_water.sf",
+        "input": "tests/inputs/csf_water.spinfold",
         "states_file": "tests/fixtures/csf_water_states.json",
         "dump_file": "water_sto3g_rhf.fcidump",
         "NORB": norb,

@@ -1,9 +1,9 @@
 //! The closed-space Fock matrix f_pq and the reference energy E_ref: their definitions in h and
 //! (pq|rs), and the rewriting that presents a result in them (`--fock`).
 
-use crate::exact::Exact;
-use crate::expression::{Expr, Factor, Term};
-use crate::orbital::{Orb, SpaceSet};
+use crate::engine::exact::Exact;
+use crate::engine::expression::{Expr, Factor, Term};
+use crate::language::orbital::{Orb, SpaceSet};
 use std::collections::BTreeMap;
 
 /// f_pq = h_pq + Σ_{S closed} Σ_{k∈S} (2 (pq|kk) − (pk|kq)).

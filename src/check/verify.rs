@@ -1,15 +1,15 @@
 //! Built-in verification: every derived expression is evaluated on random integrals for
 //! several space sizes and every index assignment, and compared with brute-force algebra.
 
-use crate::bind::symbols_of;
-use crate::brute_force;
-use crate::derive::{Derivation, Options, derive};
+use crate::check::brute_force;
+use crate::engine::derive::{Derivation, Options, derive};
+use crate::engine::exact::Exact;
 use crate::error::{Error, ErrorKind, Result};
-use crate::evaluate::{Binding, evaluate};
-use crate::exact::Exact;
-use crate::integrals::{DenseIntegrals, Integrals};
-use crate::orbital::Spin;
-use crate::program::{DetSpec, Occupant, Program, Request, RequestKind, State};
+use crate::language::orbital::Spin;
+use crate::language::program::{DetSpec, Occupant, Program, Request, RequestKind, State};
+use crate::numbers::bind::symbols_of;
+use crate::numbers::evaluate::{Binding, evaluate};
+use crate::numbers::integrals::{DenseIntegrals, Integrals};
 use itertools::Itertools;
 use rand::seq::SliceRandom;
 use rand::{RngExt, SeedableRng};
@@ -22,6 +22,9 @@ pub const TOLERANCE: f64 = 1e-10;
 /// The largest number of index assignments checked per space-size configuration; past it a
 /// seeded random sample is checked.
 const MAX_ASSIGNMENTS: usize = 400;
+
+/// A derivation together with the report of its check, if it was checked.
+pub type Checked = (Derivation, Option<Report>);
 
 /// What was checked, for the output.
 #[derive(Clone, Debug, Serialize, PartialEq)]

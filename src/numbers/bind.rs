@@ -2,8 +2,8 @@
 //! `core=1,2,4`, `i=3`; checked for gaps, overlaps and numbers beyond the file's orbitals.
 
 use crate::error::{Error, ErrorKind, Result};
-use crate::evaluate::Binding;
-use crate::program::{Program, Request, Symbols};
+use crate::language::program::{Program, Request, Symbols};
+use crate::numbers::evaluate::Binding;
 use std::collections::{BTreeMap, BTreeSet};
 
 fn fail(why: String) -> Error {

@@ -1,8 +1,8 @@
 //! Expressions in spatial integrals: terms of an exact coefficient, Kronecker deltas, sums
 //! over spaces and one integral, kept in a canonical, collected, readable order.
 
-use crate::exact::Exact;
-use crate::orbital::{Orb, SpaceId, SpaceSet};
+use crate::engine::exact::Exact;
+use crate::language::orbital::{Orb, SpaceId, SpaceSet};
 use itertools::Itertools;
 use std::cmp::Reverse;
 use std::collections::BTreeMap;

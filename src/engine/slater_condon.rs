@@ -2,12 +2,12 @@
 //! spin orbitals are visited, their phases come from the bits, and contributions accumulate
 //! in exact integers per spin-orbital integral before spin integration.
 
-use crate::determinant::CaseDet;
+use crate::engine::determinant::CaseDet;
+use crate::engine::exact::Exact;
+use crate::engine::expression::{Expr, Factor, RawTerm, RestrictedSum};
+use crate::engine::spin_integrate::{antisymmetrized, one_electron};
 use crate::error::{Error, ErrorKind, Result};
-use crate::exact::Exact;
-use crate::expression::{Expr, Factor, RawTerm, RestrictedSum};
-use crate::orbital::{Orb, Spin, SpinOrbital};
-use crate::spin_integrate::{antisymmetrized, one_electron};
+use crate::language::orbital::{Orb, Spin, SpinOrbital};
 use num_bigint::BigInt;
 use num_integer::Integer;
 use num_rational::BigRational;

@@ -1,10 +1,10 @@
 //! The energy of one configuration state function from spin-coupling algebra, with no
 //! determinant expansion: each open pair's exchange coefficient follows from <s_i·s_j>.
 
-use crate::coupling::Twice;
-use crate::exact::Exact;
-use crate::expression::{Expr, Factor, Term};
-use crate::program::Coupling;
+use crate::engine::coupling::Twice;
+use crate::engine::exact::Exact;
+use crate::engine::expression::{Expr, Factor, Term};
+use crate::language::program::Coupling;
 use num_bigint::BigInt;
 use num_rational::BigRational;
 use num_traits::Zero;
@@ -72,7 +72,7 @@ mod tests {
     #[test]
     fn pair_products_sum_to_the_total_spin() {
         // Σ_{i<j} 2 <s_i·s_j> = S(S+1) − 3n/4 for every path
-        for path in crate::coupling::paths(8, 2) {
+        for path in crate::engine::coupling::paths(8, 2) {
             let p = spin_products(&path);
             let total: BigRational = (0..8)
                 .flat_map(|i| (i + 1..8).map(move |j| (i, j)))

@@ -1,9 +1,9 @@
 //! Determinants as the engine sees them for one coincidence case: the closed spaces and the
 //! explicit spin orbitals in a normal order, with the sign that ordering cost.
 
-use crate::coincidence::Case;
-use crate::orbital::{SpaceId, Spin, SpinOrbital};
-use crate::program::{DetSpec, Occupant};
+use crate::engine::coincidence::Case;
+use crate::language::orbital::{SpaceId, Spin, SpinOrbital};
+use crate::language::program::{DetSpec, Occupant};
 
 /// A normalized determinant: every member of each closed space doubly occupied (less the
 /// members the case writes out explicitly) and the explicit spin orbitals in ascending order.

@@ -1,9 +1,9 @@
 //! A parsed and resolved input: the orbitals, spaces and generic indices it declares, the
 //! determinants and states it defines, and the requests it makes, in source order.
 
+use crate::engine::exact::Exact;
 use crate::error::{Source, Span};
-use crate::exact::Exact;
-use crate::orbital::{Orb, SpaceId, Spin, SpinOrbital};
+use crate::language::orbital::{Orb, SpaceId, Spin, SpinOrbital};
 use std::collections::BTreeSet;
 use std::sync::Arc;
 

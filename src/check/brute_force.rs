@@ -1,10 +1,10 @@
 //! The independent check: states built as vectors over occupation bit strings by applying
 //! creation and annihilation operators, and H applied term by term in second quantization.
 
-use crate::evaluate::Binding;
-use crate::integrals::Integrals;
-use crate::orbital::{Orb, Spin, SpinOrbital};
-use crate::program::{Occupant, State};
+use crate::language::orbital::{Orb, Spin, SpinOrbital};
+use crate::language::program::{Occupant, State};
+use crate::numbers::evaluate::Binding;
+use crate::numbers::integrals::Integrals;
 use rustc_hash::FxHashMap;
 
 /// Spatial orbitals a bit string can hold.
@@ -170,9 +170,9 @@ const ALPHA_BITS: u128 = 0x5555_5555_5555_5555_5555_5555_5555_5555;
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::exact::Exact;
-    use crate::integrals::DenseIntegrals;
-    use crate::program::DetSpec;
+    use crate::engine::exact::Exact;
+    use crate::language::program::DetSpec;
+    use crate::numbers::integrals::DenseIntegrals;
 
     #[test]
     fn closed_shell_energy_matches_the_textbook_formula() {

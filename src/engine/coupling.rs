@@ -1,7 +1,7 @@
 //! Spin eigenfunctions by genealogical coupling: the open shells, in the order written, are
 //! coupled one at a time along a path of intermediate spins, with Condon–Shortley signs.
 
-use crate::exact::Exact;
+use crate::engine::exact::Exact;
 use num_bigint::BigInt;
 use num_rational::BigRational;
 use num_traits::Pow;

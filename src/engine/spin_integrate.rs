@@ -1,8 +1,8 @@
 //! Integration over spin: spin-orbital integrals become spatial integrals times Kronecker
 //! deltas on spin, so only h_pq and (pq|rs) remain.
 
-use crate::expression::Factor;
-use crate::orbital::SpinOrbital;
+use crate::engine::expression::Factor;
+use crate::language::orbital::SpinOrbital;
 
 /// h over spin orbitals: δ(σp, σq) h_pq.
 pub fn one_electron(p: SpinOrbital, q: SpinOrbital) -> Option<Factor> {
@@ -24,8 +24,8 @@ pub fn antisymmetrized(p: SpinOrbital, q: SpinOrbital, r: SpinOrbital, s: SpinOr
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::expression::IntegralKind;
-    use crate::orbital::{Orb, Spin};
+    use crate::engine::expression::IntegralKind;
+    use crate::language::orbital::{Orb, Spin};
 
     #[test]
     fn equal_spins_give_coulomb_minus_exchange_and_opposite_spins_coulomb_alone() {

@@ -1,11 +1,11 @@
 //! Reads the input language (grammar/spinfold.pest) and resolves names into a `Program`,
 //! checking every definition as it goes so that errors point at the text that caused them.
 
-use crate::coupling::{Twice, expand, half, path_problem, paths};
+use crate::engine::coupling::{Twice, expand, half, path_problem, paths};
+use crate::engine::exact::Exact;
 use crate::error::{Error, ErrorKind, Result, Source, Span};
-use crate::exact::Exact;
-use crate::orbital::{Orb, Spin, SpinOrbital};
-use crate::program::{
+use crate::language::orbital::{Orb, Spin, SpinOrbital};
+use crate::language::program::{
     Coupling, DetSpec, Excitation, Index, NamedState, Occupant, Orbital, Program, Request, RequestKind,
     Space, State,
 };
@@ -240,7 +240,7 @@ impl Resolver {
                 if state.terms.iter().all(|(c, _)| c.is_zero()) || state.terms.is_empty() {
                     return Err(Error::at(ErrorKind::EmptyState { name: name.as_str().into() }, &value_span));
                 }
-                crate::derive::check_definition(&self.program, &state, name.as_str(), &value_span)?;
+                crate::engine::derive::check_definition(&self.program, &state, name.as_str(), &value_span)?;
                 let id = self.program.states.len() as u32;
                 self.declare(&name, Symbol::State(id))?;
                 self.program.states.push(NamedState {

@@ -1,7 +1,7 @@
 //! Coincidence cases of generic indices: which indices of one space denote the same orbital.
 //! A result that holds for every case is assembled from the cases with Kronecker deltas.
 
-use crate::orbital::{Orb, SpaceId, SpinOrbital};
+use crate::language::orbital::{Orb, SpaceId, SpinOrbital};
 use std::collections::BTreeMap;
 
 /// One pattern of equalities: every used index mapped to the representative (smallest) index

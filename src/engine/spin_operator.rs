@@ -1,9 +1,9 @@
 //! Total spin of a state: S² = S₋S₊ + S_z² + S_z applied to its determinants exactly, giving
 //! <S²>, <S_z> and whether the state is an eigenfunction of each.
 
-use crate::determinant::{CaseDet, annihilate, create, sort_with_sign};
-use crate::exact::Exact;
-use crate::orbital::{Spin, SpinOrbital};
+use crate::engine::determinant::{CaseDet, annihilate, create, sort_with_sign};
+use crate::engine::exact::Exact;
+use crate::language::orbital::{Spin, SpinOrbital};
 use std::collections::BTreeMap;
 
 pub type CaseState = BTreeMap<CaseDet, Exact>;

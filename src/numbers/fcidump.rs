@@ -2,7 +2,7 @@
 //! then lines `value i j k l` in chemists' notation, 1-based, unique 8-fold entries only.
 
 use crate::error::{Error, ErrorKind, Result};
-use crate::integrals::DenseIntegrals;
+use crate::numbers::integrals::DenseIntegrals;
 
 /// The header facts of an integral file.
 #[derive(Clone, Debug, PartialEq)]
@@ -127,7 +127,7 @@ pub fn read_dump(path: &str) -> Result<IntegralDump> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::integrals::Integrals;
+    use crate::numbers::integrals::Integrals;
 
     #[test]
     fn reads_header_and_symmetric_entries() {

@@ -1,10 +1,10 @@
 //! Numbers from expressions: every term evaluated with concrete orbital numbers for named
 //! orbitals and generic indices and concrete member lists for spaces.
 
-use crate::expression::{Expr, Factor, Term};
-use crate::fock::{fock_definition, reference_definition};
-use crate::integrals::Integrals;
-use crate::orbital::Orb;
+use crate::engine::expression::{Expr, Factor, Term};
+use crate::engine::fock::{fock_definition, reference_definition};
+use crate::language::orbital::Orb;
+use crate::numbers::integrals::Integrals;
 
 /// Concrete orbital numbers (0-based) for the symbols of a program.
 #[derive(Clone, Debug, Default, PartialEq)]

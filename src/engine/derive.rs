@@ -1,16 +1,16 @@
 //! The expander: a request becomes an exact expression in spatial integrals, derived case by
 //! case over index coincidences and assembled with Kronecker deltas.
 
-use crate::coincidence::{self, Case};
-use crate::determinant::{CaseDet, Vanishing};
+use crate::engine::coincidence::{self, Case};
+use crate::engine::determinant::{CaseDet, Vanishing};
+use crate::engine::exact::Exact;
+use crate::engine::expression::{Expr, RestrictedSum};
+use crate::engine::fock::fock_form;
+use crate::engine::slater_condon::{self, BitState, Universe};
+use crate::engine::spin_operator::spin_values;
 use crate::error::{Error, ErrorKind, Result};
-use crate::exact::Exact;
-use crate::expression::{Expr, RestrictedSum};
-use crate::fock::fock_form;
-use crate::orbital::{Orb, SpaceId, SpaceSet};
-use crate::program::{Program, Request, RequestKind, State, Symbols};
-use crate::slater_condon::{self, BitState, Universe};
-use crate::spin_operator::spin_values;
+use crate::language::orbital::{Orb, SpaceId, SpaceSet};
+use crate::language::program::{Program, Request, RequestKind, State, Symbols};
 use std::collections::{BTreeMap, BTreeSet};
 
 /// How derivations are carried out.
@@ -68,7 +68,7 @@ pub struct Derivation {
     pub distinct: bool,
 }
 
-use crate::spin_operator::CaseState;
+use crate::engine::spin_operator::CaseState;
 
 /// The generic indices used, grouped by space, the spaces standing closed, and all indices.
 fn used_indices(
@@ -166,13 +166,13 @@ fn case_text(program: &Program, case: &Case) -> String {
 fn by_spin_algebra(
     program: &Program,
     request: &Request,
-    coupling: &crate::program::Coupling,
+    coupling: &crate::language::program::Coupling,
     options: &Options,
 ) -> Result<Derivation> {
     let reference = State::new(vec![(Exact::one(), coupling.reference.clone())]);
     let high_spin = Request { bra: reference.clone(), ket: reference, ..request.clone() };
     let mut d = derive(program, &high_spin, &Options { fock: false, ..options.clone() })?;
-    d.value = d.value.plus(&crate::coupling_energy::exchange_corrections(coupling));
+    d.value = d.value.plus(&crate::engine::coupling_energy::exchange_corrections(coupling));
     if options.fock {
         d.value = fock_form(&d.value, d.closed);
     }

@@ -1,0 +1,7 @@
+//! Numbers: integral tables and the integral-dump reader, `--bind` bindings of input symbols
+//! to orbitals, and the evaluation of derived expressions with them.
+
+pub mod bind;
+pub mod evaluate;
+pub mod fcidump;
+pub mod integrals;

@@ -4,8 +4,8 @@
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
     Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, Options, Program, Result, Route,
-    Source, Span, derive_checked, evaluate_all, parse_with, read_dump, render, render_each, render_states,
-    results_json, results_text, write_output,
+    Source, Span, derive_checked, evaluate_all, parse_with, read_dump, remove_temporaries_on_signal, render,
+    render_each, render_states, results_json, results_text, write_files, write_output,
 };
 use std::io::Read;
 
@@ -180,15 +180,10 @@ fn run(cli: Cli) -> Result<()> {
                 To::Python => Format::Python,
             };
             match (per_request, output) {
-                (true, Some(dir)) => {
-                    let files = render_each(&program, &checked, format)?;
-                    std::fs::create_dir_all(&dir)
-                        .map_err(|e| Error::new(ErrorKind::Io { path: dir.clone(), why: e.to_string() }))?;
-                    for (name, text) in files {
-                        write_output(Some(&format!("{dir}/{name}")), &text)?;
-                    }
-                    Ok(())
-                }
+                (true, Some(dir)) if dir == "-" => Err(Error::new(ErrorKind::Usage {
+                    why: "--per-request writes one file per request into the directory given by -o, so it cannot write to standard output (`-o -`); give a directory, e.g. `-o results`".into(),
+                })),
+                (true, Some(dir)) => write_files(&dir, &render_each(&program, &checked, format)?),
                 (_, output) => write_output(output.as_deref(), &render(&program, &checked, format)?),
             }
         }
@@ -210,6 +205,7 @@ fn run(cli: Cli) -> Result<()> {
 
 fn main() {
     let cli = Cli::parse();
+    remove_temporaries_on_signal();
     if let Err(e) = run(cli) {
         eprint!("{}", e.render());
         std::process::exit(e.exit_code());

@@ -330,6 +330,8 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
                         .iter()
                         .map(|&(k, m)| format!("{}={}", program.indices[k as usize].name, m + 1))
                         .join(", ");
+                    // + 0.0: a zero is printed as 0.000…, never -0.000…
+                    let (derived, expected) = (derived + 0.0, expected + 0.0);
                     return Err(Error::at(
                         ErrorKind::VerificationFailed {
                             request: request.text.clone(),

@@ -73,7 +73,8 @@ pub(super) fn coefficient(c: &Exact) -> CoefficientOut {
     CoefficientOut {
         exact: c.to_string(),
         parts: c.parts().map(|(q, n)| Part { rational: q.to_string(), radicand: n }).collect(),
-        value: c.to_f64(),
+        // + 0.0 prints a value that rounds to zero from below as 0.0, not -0.0
+        value: c.to_f64() + 0.0,
     }
 }
 

@@ -197,11 +197,12 @@ pub fn test_vectors(
                 request.bra.terms.len() + request.ket.terms.len() <= crate::check::verify::FULL_CHECK_LIMIT;
             let (expected, source) = if small {
                 match crate::check::verify::compare(program, request, derivation, &binding, &ints)? {
-                    Some(c) => (c[0].brute_force, "brute force"),
+                    // + 0.0: a zero is written as 0.0, never -0.0
+                    Some(c) => (c[0].brute_force + 0.0, "brute force"),
                     None => continue,
                 }
             } else {
-                (evaluate(&derivation.value, &binding, &ints), "verified expression")
+                (evaluate(&derivation.value, &binding, &ints) + 0.0, "verified expression")
             };
             out.push(TestVector { binding, orbitals: next, expected, source });
         }

@@ -218,7 +218,7 @@ fn an_interrupted_run_leaves_no_temporary_file() {
             std::thread::sleep(Duration::from_micros(200));
         };
         assert!(seen.starts_with(".request_"), "named after its destination: {seen}");
-        let killed = Command::new("kill").args([&format!("-{signal}"), &child.id().to_string()]).status();
+        let killed = Command::new("sh").arg("-c").arg(format!("kill -{signal} {}", child.id())).status();
         assert!(killed.unwrap().success());
         let status = child.wait().unwrap();
         let number = if signal == "TERM" { 15 } else { 2 };

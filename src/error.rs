@@ -2,11 +2,13 @@
 //! sentence with the file, line, column and a caret under the offending text.
 
 use codespan_reporting::diagnostic::{Diagnostic, Label};
-use codespan_reporting::files::SimpleFile;
+use codespan_reporting::files::{self, Files};
 use codespan_reporting::term::{self, Config};
 use std::fmt;
+use std::fmt::Write as _;
 use std::ops::Range;
 use std::sync::Arc;
+use unicode_width::UnicodeWidthChar;
 
 /// An input text with the name it is reported under.
 #[derive(Debug)]
@@ -20,7 +22,9 @@ impl Source {
         Arc::new(Source { name: name.into(), text: text.into() })
     }
 
-    /// 1-based line and column of a byte offset.
+    /// 1-based line and column of a byte offset. Columns count characters: a tab, a wide
+    /// character and a character shown as an escape (see `render`) are one column each, and
+    /// the caret of a report stands under the character at that column.
     pub fn line_column(&self, offset: usize) -> (usize, usize) {
         let before = &self.text[..offset.min(self.text.len())];
         let line = before.matches('\n').count() + 1;
@@ -74,6 +78,7 @@ pub enum ErrorKind {
     TooLarge { what: String, limit: usize },
     Coupling { why: String },
     Io { path: String, why: String },
+    NotUtf8 { byte: u8, line: usize, position: usize },
     IntegralFile { path: String, line: usize, why: String },
     Binding { why: String },
     Usage { why: String },
@@ -168,6 +173,9 @@ impl Error {
             TooLarge { what, limit } => format!("{what} exceeds the limit of {limit}"),
             Coupling { why } => format!("this spin coupling cannot be built: {why}"),
             Io { path, why } => format!("cannot use `{path}`: {why}"),
+            NotUtf8 { byte, line, position } => format!(
+                "the input is not UTF-8 text: byte {position} of line {line} (0x{byte:02x}) is not part of a character"
+            ),
             IntegralFile { path, line, why } => format!("{path}:{line}: {why}"),
             Binding { why } => why.clone(),
             Usage { why } => why.clone(),
@@ -203,36 +211,40 @@ impl Error {
             RequestArity { .. } => "write `energy X`, `element X Y` or `overlap X Y`".into(),
             Coupling { .. } => "write `csf X = | core^2 p q r | S=1/2 path=1/2,0,1/2`: the intermediate spin after each open shell, ending at S".into(),
             TooLarge { .. } => "raise the limit with --max-determinants if the machine has the memory".into(),
+            NotUtf8 { .. } => "save the input as UTF-8 (names are ASCII; comments may hold any UTF-8 text)".into(),
             IntegralFile { .. } => "the integral file must be in the integral-dump text format described in README.md".into(),
             _ => return None,
         })
     }
 
     /// The full report: the sentence, and where an input place is known, the file, line,
-    /// column and a caret under the offending text.
+    /// column and a caret under the offending text. Nothing from the input reaches the terminal
+    /// unescaped: see `Shown`.
     pub fn render(&self) -> String {
+        let help = self.help().map(|h| format!("help: {}", visible(&h)));
         let Some(span) = &self.span else {
-            let mut out = format!("error: {}", self.message());
-            if let Some(help) = self.help() {
-                out.push_str(&format!("\n  = help: {help}"));
+            let mut out = format!("error: {}", visible(&self.message()));
+            if let Some(help) = help {
+                out.push_str(&format!("\n  = {help}"));
             }
             return out + "\n";
         };
-        let file = SimpleFile::new(span.source.name.as_str(), span.source.text.as_str());
+        let shown = Shown::new(&span.source);
         let (line, column) = span.source.line_column(span.range.start);
-        let mut labels = vec![Label::primary((), span.range.clone()).with_message(self.label())];
-        if let ErrorKind::Redefined { first: Some(first), .. } = &self.kind {
-            labels.push(Label::secondary((), first.range.clone()).with_message("first defined here"));
+        let header = visible(&format!("{}:{line}:{column}: {}", span.source.name, self.message()));
+        let mut labels = vec![Label::primary((), shown.range(&span.range)).with_message(self.label())];
+        if let ErrorKind::Redefined { first: Some(first), .. } = &self.kind
+            && Arc::ptr_eq(&first.source, &span.source)
+        {
+            labels.push(Label::secondary((), shown.range(&first.range)).with_message("first defined here"));
         }
-        let mut diagnostic = Diagnostic::error()
-            .with_message(format!("{}:{}:{}: {}", span.source.name, line, column, self.message()))
-            .with_labels(labels);
-        if let Some(help) = self.help() {
-            diagnostic = diagnostic.with_notes(vec![format!("help: {help}")]);
-        }
-        match term::emit_into_string(&Config::default(), &file, &diagnostic) {
+        let diagnostic = Diagnostic::error()
+            .with_message(&header)
+            .with_labels(labels)
+            .with_notes(help.into_iter().collect());
+        match term::emit_into_string(&Config::default(), &shown, &diagnostic) {
             Ok(text) => text,
-            Err(_) => format!("error: {}:{}:{}: {}\n", span.source.name, line, column, self.message()),
+            Err(_) => format!("error: {header}\n"),
         }
     }
 
@@ -252,3 +264,135 @@ impl fmt::Display for Error {
 }
 
 impl std::error::Error for Error {}
+
+/// Whether a terminal shows `c` as itself, taking room: not a control character (a tab aside,
+/// which the report expands to spaces) and not a character of no width (combining marks,
+/// zero-width spaces and joiners, the byte-order mark, direction overrides), nor a soft hyphen
+/// or a line or paragraph separator, which terminals hide or break on.
+fn shows_itself(c: char) -> bool {
+    c == '\t'
+        || (!c.is_control()
+            && c.width().is_some_and(|w| w > 0)
+            && !matches!(c, '\u{ad}' | '\u{2028}' | '\u{2029}'))
+}
+
+/// Text from the input as a report prints it: every character that does not show as itself
+/// written as its escape (`\u{1b}` for the escape character), line breaks kept.
+fn visible(text: &str) -> String {
+    let mut out = String::with_capacity(text.len());
+    for c in text.chars() {
+        if c == '\n' || shows_itself(c) {
+            out.push(c);
+        } else {
+            let _ = write!(out, "{}", c.escape_unicode());
+        }
+    }
+    out
+}
+
+/// An input as a report shows it. The caret under a character is as wide as the character is
+/// on the terminal; a control character, an escape sequence or a character of no width would
+/// be printed raw with no caret under it at all. So such characters are shown by their escape
+/// (`visible`), and spans are carried over to the shown text: the caret stands under the escape,
+/// and the column still counts characters of the input (`Source::line_column`).
+struct Shown<'s> {
+    source: &'s Source,
+    name: String,
+    text: String,
+    /// Where each line of `text` starts.
+    starts: Vec<usize>,
+    /// (offset in the input, offset in `text`) of every character of the input.
+    offsets: Vec<(usize, usize)>,
+}
+
+impl<'s> Shown<'s> {
+    fn new(source: &'s Source) -> Shown<'s> {
+        let mut text = String::with_capacity(source.text.len());
+        let mut offsets = Vec::with_capacity(source.text.len());
+        let mut chars = source.text.char_indices().peekable();
+        while let Some((at, c)) = chars.next() {
+            offsets.push((at, text.len()));
+            // a line ends with `\n` or `\r\n`; the report drops the `\r` of a line end itself
+            let line_end = c == '\n' || (c == '\r' && matches!(chars.peek(), None | Some((_, '\n'))));
+            if line_end || shows_itself(c) {
+                text.push(c);
+            } else {
+                let _ = write!(text, "{}", c.escape_unicode());
+            }
+        }
+        let starts = files::line_starts(&text).collect();
+        Shown { source, name: visible(&source.name), text, starts, offsets }
+    }
+
+    /// The offset in the shown text of an input offset (a character boundary).
+    fn shown(&self, offset: usize) -> usize {
+        match self.offsets.binary_search_by_key(&offset, |&(at, _)| at) {
+            Ok(k) => self.offsets[k].1,
+            Err(k) => self.offsets.get(k).map_or(self.text.len(), |&(_, to)| to),
+        }
+    }
+
+    /// A span of the input in the shown text. An empty span marks the character at its place,
+    /// so that the caret covers the whole of an escape there.
+    fn range(&self, range: &Range<usize>) -> Range<usize> {
+        let (start, end) = (self.shown(range.start), self.shown(range.end));
+        let at = self.source.text[range.start.min(self.source.text.len())..].chars().next();
+        match at {
+            Some(c) if start == end && c != '\n' && c != '\r' => {
+                start..self.shown(range.start + c.len_utf8())
+            }
+            _ => start..end,
+        }
+    }
+
+    /// The input offset of the character shown at `offset` of the shown text.
+    fn input_offset(&self, offset: usize) -> usize {
+        if offset >= self.text.len() {
+            return self.source.text.len();
+        }
+        let k = self.offsets.partition_point(|&(_, to)| to <= offset);
+        self.offsets[k.saturating_sub(1)].0
+    }
+
+    fn line_start(&self, line: usize) -> std::result::Result<usize, files::Error> {
+        match line.cmp(&self.starts.len()) {
+            std::cmp::Ordering::Less => Ok(self.starts[line]),
+            std::cmp::Ordering::Equal => Ok(self.text.len()),
+            std::cmp::Ordering::Greater => {
+                Err(files::Error::LineTooLarge { given: line, max: self.starts.len() - 1 })
+            }
+        }
+    }
+}
+
+impl<'a> Files<'a> for Shown<'_> {
+    type FileId = ();
+    type Name = &'a str;
+    type Source = &'a str;
+
+    fn name(&'a self, (): ()) -> std::result::Result<&'a str, files::Error> {
+        Ok(&self.name)
+    }
+
+    fn source(&'a self, (): ()) -> std::result::Result<&'a str, files::Error> {
+        Ok(&self.text)
+    }
+
+    fn line_index(&'a self, (): (), offset: usize) -> std::result::Result<usize, files::Error> {
+        Ok(self.starts.binary_search(&offset).unwrap_or_else(|next| next - 1))
+    }
+
+    fn line_range(&'a self, (): (), line: usize) -> std::result::Result<Range<usize>, files::Error> {
+        Ok(self.line_start(line)?..self.line_start(line + 1)?)
+    }
+
+    /// Columns count characters of the input, as in the first line of the report.
+    fn column_number(
+        &'a self,
+        (): (),
+        _line: usize,
+        offset: usize,
+    ) -> std::result::Result<usize, files::Error> {
+        Ok(self.source.line_column(self.input_offset(offset)).1)
+    }
+}

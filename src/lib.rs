@@ -48,7 +48,7 @@ pub use numbers::bind::Bindings;
 pub use numbers::evaluate::{Binding, evaluate};
 pub use numbers::fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump};
 pub use numbers::integrals::{DenseIntegrals, Integrals};
-pub use output::write_output;
+pub use output::{remove_temporaries_on_signal, write_files, write_output};
 pub use pipeline::{
     DEFAULT_SEED, Entry, Evaluated, Format, derive_checked, evaluate_all, render, render_each, render_states,
     results_json, results_text,

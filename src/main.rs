@@ -4,8 +4,8 @@
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
     Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, Options, Program, Result, Route,
-    derive_checked, evaluate_all, parse_with, read_dump, render, render_each, render_states, results_json,
-    results_text, write_output,
+    Source, Span, derive_checked, evaluate_all, parse_with, read_dump, remove_temporaries_on_signal, render,
+    render_each, render_states, results_json, results_text, write_files, write_output,
 };
 use std::io::Read;
 
@@ -120,14 +120,35 @@ enum Command {
     },
 }
 
+/// The input text and the name it is reported under. A leading byte-order mark is dropped, so
+/// that columns count from the first character a person sees; text that is not UTF-8 is refused
+/// at its first undecodable byte.
 fn read_input(file: &str) -> Result<(String, String)> {
-    let io = |why: String| Error::new(ErrorKind::Io { path: file.into(), why });
-    if file == "-" {
-        let mut text = String::new();
-        std::io::stdin().read_to_string(&mut text).map_err(|e| io(e.to_string()))?;
-        return Ok(("<stdin>".into(), text));
+    let io = |e: std::io::Error| Error::new(ErrorKind::Io { path: file.into(), why: e.to_string() });
+    let (name, bytes) = if file == "-" {
+        let mut bytes = vec![];
+        std::io::stdin().read_to_end(&mut bytes).map_err(io)?;
+        ("<stdin>".to_string(), bytes)
+    } else {
+        (file.to_string(), std::fs::read(file).map_err(io)?)
+    };
+    let bytes = bytes.strip_prefix(b"\xef\xbb\xbf").unwrap_or(&bytes);
+    match std::str::from_utf8(bytes) {
+        Ok(text) => Ok((name, text.to_string())),
+        Err(e) => {
+            let at = e.valid_up_to();
+            let line_start = bytes[..at].iter().rposition(|&b| b == b'\n').map_or(0, |k| k + 1);
+            let kind = ErrorKind::NotUtf8 {
+                byte: bytes[at],
+                line: bytes[..at].iter().filter(|&&b| b == b'\n').count() + 1,
+                position: at - line_start + 1,
+            };
+            // shown with the undecodable bytes replaced, which leaves everything before them as it was
+            let source = Source::new(name, String::from_utf8_lossy(bytes));
+            let span = Span { range: at..at + char::REPLACEMENT_CHARACTER.len_utf8(), source };
+            Err(Error::at(kind, &span))
+        }
     }
-    Ok((file.into(), std::fs::read_to_string(file).map_err(|e| io(e.to_string()))?))
 }
 
 fn derived(common: &Derivation) -> Result<(Program, Vec<Checked>)> {
@@ -159,15 +180,10 @@ fn run(cli: Cli) -> Result<()> {
                 To::Python => Format::Python,
             };
             match (per_request, output) {
-                (true, Some(dir)) => {
-                    let files = render_each(&program, &checked, format)?;
-                    std::fs::create_dir_all(&dir)
-                        .map_err(|e| Error::new(ErrorKind::Io { path: dir.clone(), why: e.to_string() }))?;
-                    for (name, text) in files {
-                        write_output(Some(&format!("{dir}/{name}")), &text)?;
-                    }
-                    Ok(())
-                }
+                (true, Some(dir)) if dir == "-" => Err(Error::new(ErrorKind::Usage {
+                    why: "--per-request writes one file per request into the directory given by -o, so it cannot write to standard output (`-o -`); give a directory, e.g. `-o results`".into(),
+                })),
+                (true, Some(dir)) => write_files(&dir, &render_each(&program, &checked, format)?),
                 (_, output) => write_output(output.as_deref(), &render(&program, &checked, format)?),
             }
         }
@@ -189,6 +205,7 @@ fn run(cli: Cli) -> Result<()> {
 
 fn main() {
     let cli = Cli::parse();
+    remove_temporaries_on_signal();
     if let Err(e) = run(cli) {
         eprint!("{}", e.render());
         std::process::exit(e.exit_code());

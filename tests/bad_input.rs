@@ -1,7 +1,8 @@
 //! Bad input to `spinfold derive`: every kind of mistake ends with exit code 2 and a report
 //! that names the file, line and column, puts a caret under the offending text, says in a
-//! sentence what is wrong, and never panics. Also: a missing input file, standard input, and
-//! `-o` writing its file whole or not at all.
+//! sentence what is wrong, and never panics; characters a terminal would not show as themselves
+//! are shown escaped, with the caret under them. Also: a missing input file, standard input,
+//! a byte-order mark, input that is not UTF-8, and `-o` writing its file whole or not at all.
 
 use std::io::Write;
 use std::path::Path;
@@ -503,4 +504,114 @@ fn output_file_is_written_whole_on_success() {
         .collect();
     left.sort();
     assert_eq!(left, vec!["good.spinfold".to_string(), "out.txt".to_string()], "no temporary file is left");
+}
+
+/// The source line numbered `number` and the line of marks under it, as a report shows them
+/// (the text after the gutter `│ `).
+fn snippet(stderr: &str, number: usize) -> Option<(String, String)> {
+    let lines: Vec<&str> = stderr.lines().collect();
+    let k =
+        lines.iter().position(|l| l.split_once('│').is_some_and(|(g, _)| g.trim() == number.to_string()))?;
+    Some((after_gutter(lines[k])?.to_string(), after_gutter(lines.get(k + 1)?)?.to_string()))
+}
+
+/// Writes raw bytes as `name` in a fresh directory and runs `spinfold derive name`.
+fn derive_bytes(name: &str, bytes: &[u8]) -> Run {
+    let dir = tempfile::tempdir().expect("a temporary directory");
+    std::fs::write(dir.path().join(name), bytes).expect("the input is written");
+    spinfold(dir.path(), &["derive", name])
+}
+
+/// True when the text holds nothing a terminal would act on or hide: no control character
+/// other than a line break, no character of no width.
+fn printable(text: &str) -> bool {
+    !text.chars().any(|c| {
+        (c.is_control() && c != '\n')
+            || matches!(c, '\u{ad}' | '\u{200b}'..='\u{200f}' | '\u{202a}'..='\u{202e}' | '\u{feff}')
+            || ('\u{300}'..='\u{36f}').contains(&c)
+    })
+}
+
+#[test]
+fn characters_that_do_not_show_as_themselves_are_escaped_with_the_caret_under_them() {
+    // (input, line, column counted in characters, the line as shown, the marks under it)
+    let cases = [
+        // a terminal escape sequence (red text) would recolour the terminal
+        ("orbitals a\n\x1b[31menergy | a |\n", 2, 1, r"\u{1b}[31menergy | a |", "^^^^^^"),
+        ("orbitals a\0 b\n", 1, 11, r"orbitals a\u{0} b", "          ^^^^^"),
+        ("orbitals a b\nenergy | a b\x7f |\n", 2, 13, r"energy | a b\u{7f} |", "            ^^^^^^"),
+        ("orbitals a\u{feff} b\n", 1, 11, r"orbitals a\u{feff} b", "          ^^^^^^^^"),
+        ("orbitals a\u{200b} b\n", 1, 11, r"orbitals a\u{200b} b", "          ^^^^^^^^"),
+        // a combining acute accent: the column counts it as a character of its own
+        ("orbitals a\u{301} b\n", 1, 11, r"orbitals a\u{301} b", "          ^^^^^^^"),
+        // a right-to-left override would reorder the rest of the line
+        ("orbitals a\u{202e} b\n", 1, 11, r"orbitals a\u{202e} b", "          ^^^^^^^^"),
+        // a carriage return inside a line (one that ends a line is a line break)
+        ("orbitals a\r\nenergy | a\rb |\r\n", 2, 11, r"energy | a\u{d}b |", "          ^^^^^"),
+    ];
+    for (input, line, column, shown, marks) in cases {
+        let run = derive("odd.spinfold", input);
+        assert_eq!(run.code, Some(2), "{input:?}: {}", run.stderr);
+        assert!(
+            run.stderr.starts_with(&format!("error: odd.spinfold:{line}:{column}: ")),
+            "{input:?}:\n{}",
+            run.stderr
+        );
+        assert!(printable(&run.stderr), "{input:?}: the report holds raw characters:\n{:?}", run.stderr);
+        let (text, under) =
+            snippet(&run.stderr, line).unwrap_or_else(|| panic!("a snippet:\n{}", run.stderr));
+        assert_eq!(text, shown, "{input:?}:\n{}", run.stderr);
+        assert!(
+            under.starts_with(&format!("{marks} ")),
+            "{input:?}: marks {marks:?} expected:\n{}",
+            run.stderr
+        );
+    }
+}
+
+#[test]
+fn a_wide_character_gets_a_caret_as_wide_as_itself() {
+    let run = derive("wide.spinfold", "orbitals a b\nenergy | a \u{6f22} |\n");
+    assert!(run.stderr.starts_with("error: wide.spinfold:2:12: "), "{}", run.stderr);
+    let (text, under) = snippet(&run.stderr, 2).expect("a snippet");
+    assert_eq!(text, "energy | a \u{6f22} |");
+    assert!(
+        under.starts_with("           ^^ "),
+        "two columns marked under the wide character:\n{}",
+        run.stderr
+    );
+}
+
+#[test]
+fn a_leading_byte_order_mark_is_ignored() {
+    let input = "\u{feff}orbitals a b\nenergy | a b' |\n";
+    let run = derive("bom.spinfold", input);
+    assert_eq!(run.code, Some(0), "{}", run.stderr);
+    assert!(run.stdout.contains("= h_aa + h_bb + J_ab"), "{}", run.stdout);
+    // columns of the first line count from the first visible character
+    let input = "\u{feff}orbitals a a\n";
+    let run = derive("bom_twice.spinfold", input);
+    assert_reported(&run, "bom_twice.spinfold", "orbitals a a\n", at(1, 12, "a"), &["`a` is defined twice"]);
+}
+
+#[test]
+fn input_that_is_not_utf8_is_refused_at_its_first_bad_byte() {
+    // a Latin-1 é (0xe9) in a comment after a UTF-8 é: byte 27 of line 2, character 26
+    let run = derive_bytes("latin1.spinfold", b"orbitals a b\nenergy | a b | # caf\xc3\xa9 caf\xe9\n");
+    assert_eq!(run.code, Some(2), "{}", run.stderr);
+    let first = run.stderr.lines().next().unwrap_or("");
+    assert!(first.starts_with("error: latin1.spinfold:2:26: "), "file, line and column:\n{}", run.stderr);
+    assert!(
+        first.contains("not UTF-8") && first.contains("byte 27 of line 2") && first.contains("0xe9"),
+        "{}",
+        run.stderr
+    );
+    assert!(!first.contains("stream did not contain"), "not the generic message:\n{}", run.stderr);
+    assert!(run.stderr.contains("help: save the input as UTF-8"), "{}", run.stderr);
+    let (_, under) = snippet(&run.stderr, 2).expect("a snippet");
+    assert!(under.starts_with(&format!("{}^ ", " ".repeat(25))), "{}", run.stderr);
+    // a byte-order mark does not count
+    let run = derive_bytes("bom_latin1.spinfold", b"\xef\xbb\xbforbitals a\xff\n");
+    assert!(run.stderr.starts_with("error: bom_latin1.spinfold:1:11: "), "{}", run.stderr);
+    assert!(run.stderr.contains("byte 11 of line 1 (0xff)"), "{}", run.stderr);
 }

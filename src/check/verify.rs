@@ -30,7 +30,7 @@ pub type Checked = (Derivation, Option<Report>);
 #[derive(Clone, Debug, Serialize, PartialEq)]
 pub struct Report {
     pub checks: usize,
-    /// The space sizes of each configuration, e.g. "core=2, act=3".
+    /// The sizes of the spaces the request uses, per configuration, e.g. "core=2, act=3".
     pub configurations: Vec<String>,
     pub seed: u64,
     /// The largest relative deviation seen, rounded up to a power of ten (0 when exact).
@@ -90,20 +90,26 @@ impl Report {
     }
 }
 
-/// Sizes to instantiate each space with, per configuration: more than one size, and for a space
-/// with generic indices at least three members and room for all of them to differ.
-fn size_configurations(program: &Program, derivation: &Derivation) -> Vec<Vec<usize>> {
-    let needed: Vec<usize> = (0..program.spaces.len())
-        .map(|s| {
-            derivation.free_indices.iter().filter(|&&k| program.indices[k as usize].space == s as u32).count()
-        })
-        .collect();
+/// Sizes to instantiate each space with, per configuration: three configurations in which every
+/// space the request uses takes three different sizes (so no two configurations are alike), a
+/// space with generic indices at least three members and room for all of them to differ. A
+/// space the request does not use stays empty.
+fn size_configurations(program: &Program, request: &Request, derivation: &Derivation) -> Vec<Vec<usize>> {
+    let (_, used, _) = symbols_of(program, request);
+    let needed =
+        |s: u32| derivation.free_indices.iter().filter(|&&k| program.indices[k as usize].space == s).count();
     (0..3)
         .map(|c| {
-            needed
-                .iter()
-                .enumerate()
-                .map(|(s, &n)| if n == 0 { 1 + (c + s) % 3 } else { n.max(3) + (c + s) % 2 })
+            (0..program.spaces.len() as u32)
+                .map(|s| {
+                    let Some(rank) = used.iter().position(|&u| u == s) else { return 0 };
+                    let smallest = match needed(s) {
+                        0 => 1,
+                        n => n.max(3),
+                    };
+                    // the used spaces step through their sizes out of phase with each other
+                    smallest + (c + rank) % 3
+                })
                 .collect()
         })
         .collect()
@@ -278,7 +284,7 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
     {
         return verify_pairs(program, request, derivation, seed);
     }
-    for (c, sizes) in size_configurations(program, derivation).into_iter().enumerate() {
+    for (c, sizes) in size_configurations(program, request, derivation).into_iter().enumerate() {
         let mut next = program.orbitals.len();
         let spaces: Vec<Vec<usize>> = sizes
             .iter()
@@ -287,9 +293,15 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
                 (next - n..next).collect()
             })
             .collect();
-        report
-            .configurations
-            .push(program.spaces.iter().zip(&sizes).map(|(s, n)| format!("{}={n}", s.name)).join(", "));
+        report.configurations.push(
+            program
+                .spaces
+                .iter()
+                .zip(&sizes)
+                .filter(|&(_, &n)| n > 0)
+                .map(|(s, n)| format!("{}={n}", s.name))
+                .join(", "),
+        );
         let ints = DenseIntegrals::random(next, seed.wrapping_add(c as u64));
         let choices: Vec<Vec<(u32, usize)>> = derivation
             .free_indices
@@ -330,6 +342,8 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
                         .iter()
                         .map(|&(k, m)| format!("{}={}", program.indices[k as usize].name, m + 1))
                         .join(", ");
+                    // + 0.0: a zero is printed as 0.000…, never -0.000…
+                    let (derived, expected) = (derived + 0.0, expected + 0.0);
                     return Err(Error::at(
                         ErrorKind::VerificationFailed {
                             request: request.text.clone(),

@@ -1,7 +1,7 @@
 //! The JSON form of derivations: a stable, documented schema (README.md, "JSON output") with
 //! every term's exact coefficient, deltas, summed indices and integral.
 
-use super::{Namer, integral_parts};
+use super::{Definitions, Namer, integral_parts};
 use crate::check::verify::Report;
 use crate::engine::derive::Derivation;
 use crate::engine::exact::Exact;
@@ -32,6 +32,10 @@ struct RequestOut<'a> {
     s_z: Option<Vec<TermOut>>,
     /// The closed spaces that `fock` and `reference_energy` terms sum over.
     closed_spaces: Vec<String>,
+    /// The definitions of the `fock` and `reference_energy` terms, as text, for those the
+    /// terms use (only with --fock).
+    #[serde(skip_serializing_if = "serde_json::Map::is_empty")]
+    definitions: serde_json::Map<String, serde_json::Value>,
     notes: &'a [String],
     verification: Option<&'a Report>,
 }
@@ -73,7 +77,21 @@ pub(super) fn coefficient(c: &Exact) -> CoefficientOut {
     CoefficientOut {
         exact: c.to_string(),
         parts: c.parts().map(|(q, n)| Part { rational: q.to_string(), radicand: n }).collect(),
-        value: c.to_f64(),
+        // + 0.0 prints a value that rounds to zero from below as 0.0, not -0.0
+        value: c.to_f64() + 0.0,
+    }
+}
+
+/// The name of an integral kind in the schema.
+fn json_kind(kind: IntegralKind) -> &'static str {
+    match kind {
+        IntegralKind::Number => "number",
+        IntegralKind::RefEnergy => "reference_energy",
+        IntegralKind::Fock => "fock",
+        IntegralKind::OneElectron => "h",
+        IntegralKind::Coulomb => "coulomb",
+        IntegralKind::Exchange => "exchange",
+        IntegralKind::General => "eri",
     }
 }
 
@@ -84,15 +102,6 @@ fn terms(expr: &Expr, namer: &Namer) -> Vec<TermOut> {
             let summed = namer.summed_names(&t.sums);
             let o = |x| namer.orb(x, &summed);
             let (kind, indices) = integral_parts(&t.factor, namer, &summed);
-            let kind = match kind {
-                IntegralKind::Number => "number",
-                IntegralKind::RefEnergy => "reference_energy",
-                IntegralKind::Fock => "fock",
-                IntegralKind::OneElectron => "h",
-                IntegralKind::Coulomb => "coulomb",
-                IntegralKind::Exchange => "exchange",
-                IntegralKind::General => "eri",
-            };
             TermOut {
                 coefficient: coefficient(&t.coeff),
                 deltas: t.deltas.iter().map(|&(a, b)| [o(a), o(b)]).collect(),
@@ -102,7 +111,7 @@ fn terms(expr: &Expr, namer: &Namer) -> Vec<TermOut> {
                     .zip(&summed)
                     .map(|(&s, n)| SumOut { index: n.clone(), space: namer.space(s).into() })
                     .collect(),
-                integral: IntegralOut { kind, indices },
+                integral: IntegralOut { kind: json_kind(kind), indices },
             }
         })
         .collect()
@@ -122,6 +131,10 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)]) -
                 overlap: terms(&d.overlap, &namer),
                 s_z: (d.kind == RequestKind::Spin).then(|| terms(&d.s_z, &namer)),
                 closed_spaces: d.closed.members().iter().map(|&s| namer.space(s).to_string()).collect(),
+                definitions: super::text::definitions(d, &namer, Definitions::used_in(&d.value), false)
+                    .into_iter()
+                    .map(|(kind, text)| (json_kind(kind).to_string(), text.into()))
+                    .collect(),
                 notes: &d.notes,
                 verification: report.as_ref(),
             }

@@ -2,7 +2,7 @@
 //! printed width of what they hold, sums labelled with their spaces, exact fractions and
 //! radicals, and every piece of the input rendered so that it cannot inject TeX.
 
-use super::{Group, Namer, groups, integral_parts, uses_fock, verification_line};
+use super::{Definitions, Group, Namer, groups, integral_parts, verification_line};
 use crate::check::verify::Report;
 use crate::engine::derive::Derivation;
 use crate::engine::exact::Exact;
@@ -710,29 +710,47 @@ fn left_sides(d: &Derivation) -> Vec<String> {
     }
 }
 
-/// The definitions of f_pq and E_ref over the closed spaces, as (left side, right side).
-fn fock_legend(d: &Derivation, namer: &Namer) -> [(String, String); 2] {
-    let over =
-        d.closed.members().iter().map(|&s| upright(namer.space(s))).collect::<Vec<_>>().join(r" \cup ");
-    [
-        (
+/// The definitions of f_pq and E_ref over the closed spaces that `used` asks for, as (left side,
+/// right side), summed over letters the expression does not use.
+fn fock_legend(d: &Derivation, namer: &Namer, used: Definitions) -> Vec<(String, String)> {
+    let closed = d.closed.members();
+    let over = closed.iter().map(|&s| upright(namer.space(s))).collect::<Vec<_>>().join(r" \cup ");
+    let [k, l] = namer.definition_names(&closed);
+    let eri = |n: [&String; 4]| {
+        let n = n.map(String::clone);
+        format!(r"({}\vert {})", indices(&n[..2], r"\,"), indices(&n[2..], r"\,"))
+    };
+    let [p, q] = ["p", "q"].map(String::from);
+    let (sk, sl) = (name(&k), name(&l));
+    let mut out = vec![];
+    if used.fock {
+        out.push((
             "f_{pq}".into(),
-            format!(r"h_{{pq}} + \sum_{{k \in {over}}} \bigl( 2 (pq\vert kk) - (pk\vert kq) \bigr)"),
-        ),
-        (
+            format!(
+                r"h_{{pq}} + \sum_{{{sk} \in {over}}} \bigl( 2 {} - {} \bigr)",
+                eri([&p, &q, &k, &k]),
+                eri([&p, &k, &k, &q])
+            ),
+        ));
+    }
+    if used.reference {
+        out.push((
             r"E_{\mathrm{ref}}".into(),
             format!(
-                r"2 \sum_{{k \in {over}}} h_{{kk}} + \sum_{{k,l \in {over}}} \bigl( 2 J_{{kl}} - K_{{kl}} \bigr)"
+                r"2 \sum_{{{sk} \in {over}}} h{} + \sum_{{{sk},{sl} \in {over}}} \bigl( 2 J{kl} - K{kl} \bigr)",
+                subscript(&[k.clone(), k.clone()]),
+                kl = subscript(&[k.clone(), l.clone()])
             ),
-        ),
-    ]
+        ));
+    }
+    out
 }
 
 /// The `align*` of one request. A left side that fits beside its expression stands in the
 /// first column (`lhs &= …`, continuations `&\quad {} + …`); a wider one (see `WIDE_LEFT`)
-/// takes a line of its own (`&lhs \\ &\quad = …`, continuations `&\qquad {} + …`). With `legend`, the
-/// definitions of f_pq and E_ref follow under the expression.
-fn environment(d: &Derivation, namer: &Namer, legend: bool) -> String {
+/// takes a line of its own (`&lhs \\ &\quad = …`, continuations `&\qquad {} + …`). The
+/// definitions in `legend` follow under the expression.
+fn environment(d: &Derivation, namer: &Namer, legend: Definitions) -> String {
     let left = left_sides(d);
     let left_width = left.iter().map(|l| width(l)).fold(0.0, f32::max);
     let expressions = if d.kind == RequestKind::Spin { vec![&d.value, &d.s_z] } else { vec![&d.value] };
@@ -770,9 +788,9 @@ fn environment(d: &Derivation, namer: &Namer, legend: bool) -> String {
     }
     let mut out = String::from("\\begin{align*}\n  ");
     out.push_str(&rows.join(" \\\\\n  "));
-    if legend {
+    if legend.any() {
         out.push_str(" \\\\\n\\intertext{with}\n  ");
-        let legend: Vec<String> = fock_legend(d, namer)
+        let legend: Vec<String> = fock_legend(d, namer, legend)
             .iter()
             .map(|(l, r)| if wide { format!("&{l} = {r}") } else { format!("{l} &= {r}") })
             .collect();
@@ -792,13 +810,20 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], s
         );
         out.push_str(&format!("\\section*{{\\texttt{{{}}}}}\n", typewriter(&program.source.name)));
     }
-    // f_pq and E_ref are defined where they first appear over a set of closed spaces
-    let mut defined = vec![];
+    // f_pq and E_ref are each defined where they first appear over a set of closed spaces
+    let (mut fock_defined, mut reference_defined) = (vec![], vec![]);
     for (d, report) in derivations {
         let namer = Namer::new(program, &[&d.value]);
-        let legend = uses_fock(&d.value) && !defined.contains(&d.closed);
-        if legend {
-            defined.push(d.closed);
+        let used = Definitions::used_in(&d.value);
+        let legend = Definitions {
+            fock: used.fock && !fock_defined.contains(&d.closed),
+            reference: used.reference && !reference_defined.contains(&d.closed),
+        };
+        if legend.fock {
+            fock_defined.push(d.closed);
+        }
+        if legend.reference {
+            reference_defined.push(d.closed);
         }
         out.push_str(&format!("% {}\n", comment(&d.text)));
         out.push_str(&format!("% {}\n", comment(&verification_line(report.as_ref()))));

@@ -13,6 +13,13 @@ use crate::language::orbital::{Orb, SpaceId};
 use crate::language::program::Program;
 use std::collections::BTreeSet;
 
+/// The letters summation indices take when a space's own letters do not serve: k, l, m, n,
+/// then k1, l1, m1, n1, k2, …
+fn letters() -> impl Iterator<Item = String> {
+    let base = ["k", "l", "m", "n"];
+    base.into_iter().map(String::from).chain((1..).flat_map(move |n| base.map(|s| format!("{s}{n}"))))
+}
+
 /// Consecutive terms sharing deltas, sums and the one/two-electron class, written as one
 /// `δ … Σ … (t1 + t2 + …)`.
 pub struct Group<'a> {
@@ -72,20 +79,37 @@ impl<'a> Namer<'a> {
     pub fn summed_names(&self, sums: &[SpaceId]) -> Vec<String> {
         let mut used: Vec<String> = vec![];
         for &space in sums {
-            let own = self.program.spaces[space as usize]
-                .indices
-                .iter()
-                .filter(|&&k| !self.free.contains(&Orb::Index(k)))
-                .map(|&k| self.program.indices[k as usize].name.clone());
-            let fallback = ["k", "l", "m", "n"]
+            let fallback = letters().filter(|s| !self.taken.contains(s));
+            let name = self
+                .own_letters(space)
                 .into_iter()
-                .map(String::from)
-                .chain((1..).flat_map(|n| ["k", "l", "m", "n"].map(|s| format!("{s}{n}"))))
-                .filter(|s| !self.taken.contains(s));
-            let name = own.chain(fallback).find(|n| !used.contains(n)).expect("an endless supply of letters");
+                .chain(fallback)
+                .find(|n| !used.contains(n))
+                .expect("an endless supply of letters");
             used.push(name);
         }
         used
+    }
+
+    /// Names for the summation indices k and l of the definitions of f_pq and E_ref over the
+    /// closed spaces `closed`: the first two of k, l, m, n, … that the expression beside them
+    /// does not use and the input does not declare for anything but a member of those spaces
+    /// (never p or q, which stand for f's indices).
+    pub fn definition_names(&self, closed: &[SpaceId]) -> [String; 2] {
+        let own: Vec<String> = closed.iter().flat_map(|&s| self.own_letters(s)).collect();
+        let mut names =
+            letters().filter(|n| n != "p" && n != "q" && (own.contains(n) || !self.taken.contains(n)));
+        [(); 2].map(|()| names.next().expect("an endless supply of letters"))
+    }
+
+    /// The index letters of a space that are not free in the expression.
+    fn own_letters(&self, space: SpaceId) -> Vec<String> {
+        self.program.spaces[space as usize]
+            .indices
+            .iter()
+            .filter(|&&k| !self.free.contains(&Orb::Index(k)))
+            .map(|&k| self.program.indices[k as usize].name.clone())
+            .collect()
     }
 
     pub fn orb(&self, orb: Orb, summed: &[String]) -> String {
@@ -118,9 +142,22 @@ pub fn join_signed(items: impl IntoIterator<Item = (bool, String)>, minus: &str)
     (first_negative, out)
 }
 
-/// Does the expression use f_pq or E_ref (and so need their definitions beside it)?
-pub fn uses_fock(expr: &Expr) -> bool {
-    expr.terms.iter().any(|t| matches!(t.kind(), IntegralKind::Fock | IntegralKind::RefEnergy))
+/// Which of f_pq and E_ref an expression uses, so that only their definitions stand beside it.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct Definitions {
+    pub fock: bool,
+    pub reference: bool,
+}
+
+impl Definitions {
+    pub fn used_in(expr: &Expr) -> Definitions {
+        let uses = |kind| expr.terms.iter().any(|t| t.kind() == kind);
+        Definitions { fock: uses(IntegralKind::Fock), reference: uses(IntegralKind::RefEnergy) }
+    }
+
+    pub fn any(self) -> bool {
+        self.fock || self.reference
+    }
 }
 
 /// The one-line summary of what a derivation was checked against.
@@ -197,11 +234,12 @@ pub fn test_vectors(
                 request.bra.terms.len() + request.ket.terms.len() <= crate::check::verify::FULL_CHECK_LIMIT;
             let (expected, source) = if small {
                 match crate::check::verify::compare(program, request, derivation, &binding, &ints)? {
-                    Some(c) => (c[0].brute_force, "brute force"),
+                    // + 0.0: a zero is written as 0.0, never -0.0
+                    Some(c) => (c[0].brute_force + 0.0, "brute force"),
                     None => continue,
                 }
             } else {
-                (evaluate(&derivation.value, &binding, &ints), "verified expression")
+                (evaluate(&derivation.value, &binding, &ints) + 0.0, "verified expression")
             };
             out.push(TestVector { binding, orbitals: next, expected, source });
         }

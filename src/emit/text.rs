@@ -1,7 +1,7 @@
 //! The readable text form of derivations: Σ, δ, h_pq, J_pq, K_pq and (pq|rs), one group of
 //! terms per line, in Unicode or plain ASCII.
 
-use super::{Group, Namer, groups, integral_parts, join_signed, uses_fock, verification_line};
+use super::{Definitions, Group, Namer, groups, integral_parts, join_signed, verification_line};
 use crate::check::verify::Report;
 use crate::engine::derive::Derivation;
 use crate::engine::exact::{Exact, ExactDisplay};
@@ -45,11 +45,54 @@ fn factor_text(factor: &Factor, namer: &Namer, summed: &[String]) -> String {
         IntegralKind::OneElectron => format!("h_{}", subscript(&n)),
         IntegralKind::Coulomb => format!("J_{}", subscript(&n)),
         IntegralKind::Exchange => format!("K_{}", subscript(&n)),
-        IntegralKind::General if n.iter().all(|x| x.chars().count() == 1) => {
-            format!("({}{}|{}{})", n[0], n[1], n[2], n[3])
-        }
-        IntegralKind::General => format!("({} {}|{} {})", n[0], n[1], n[2], n[3]),
+        IntegralKind::General => general(&n),
     }
+}
+
+/// `(pq|rs)` when every name is one letter, `(p q|r s)` otherwise.
+fn general(n: &[String]) -> String {
+    if n.iter().all(|x| x.chars().count() == 1) {
+        format!("({}{}|{}{})", n[0], n[1], n[2], n[3])
+    } else {
+        format!("({} {}|{} {})", n[0], n[1], n[2], n[3])
+    }
+}
+
+/// The definitions of f_pq and E_ref over the closed spaces of `d` that `used` asks for, as
+/// `f_pq = …` and `E_ref = …` with the kind each defines, summed over letters the expression
+/// does not use.
+pub fn definitions(
+    d: &Derivation,
+    namer: &Namer,
+    used: Definitions,
+    ascii: bool,
+) -> Vec<(IntegralKind, String)> {
+    let style = Style { ascii };
+    let closed = d.closed.members();
+    let over =
+        closed.iter().map(|&s| namer.space(s)).collect::<Vec<_>>().join(if ascii { " + " } else { " ∪ " });
+    let [k, l] = namer.definition_names(&closed);
+    let (sum, member, minus) = (style.sigma(), style.member(), style.minus());
+    let [p, q] = ["p", "q"].map(String::from);
+    let mut out = vec![];
+    if used.fock {
+        out.push((
+            IntegralKind::Fock,
+            format!(
+                "f_pq = h_pq + {sum}_{{{k}{member}{over}}} (2 {} {minus} {})",
+                general(&[p.clone(), q.clone(), k.clone(), k.clone()]),
+                general(&[p, k.clone(), k.clone(), q])
+            ),
+        ));
+    }
+    if used.reference {
+        let kl = subscript(&[k.clone(), l.clone()]);
+        out.push((IntegralKind::RefEnergy, format!(
+            "E_ref = 2 {sum}_{{{k}{member}{over}}} h_{} + {sum}_{{{k},{l}{member}{over}}} (2 J_{kl} {minus} K_{kl})",
+            subscript(&[k.clone(), k.clone()])
+        )));
+    }
+    out
 }
 
 /// `2 J_ab`, `K_ab`, `1/2 K_pr`; the sign is written by the caller.
@@ -184,13 +227,10 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], a
                 out.push_str(&format!("  {line}\n"));
             }
         }
-        if uses_fock(&d.value) {
-            let spaces: Vec<&str> = d.closed.members().iter().map(|&s| namer.space(s)).collect();
-            let over = spaces.join(if ascii { " + " } else { " ∪ " });
-            let (sum, member, minus) = (style.sigma(), style.member(), style.minus());
-            out.push_str(&format!(
-                "  with f_pq = h_pq + {sum}_{{k{member}{over}}} (2 (pq|kk) {minus} (pk|kq)) and E_ref = 2 {sum}_{{k{member}{over}}} h_kk + {sum}_{{k,l{member}{over}}} (2 J_kl {minus} K_kl)\n"
-            ));
+        let legend = definitions(d, &namer, Definitions::used_in(&d.value), ascii);
+        if !legend.is_empty() {
+            let legend: Vec<String> = legend.into_iter().map(|(_, text)| text).collect();
+            out.push_str(&format!("  with {}\n", legend.join(" and ")));
         }
         for note in &d.notes {
             let note = if note.starts_with("warning:") { note.clone() } else { format!("note: {note}") };

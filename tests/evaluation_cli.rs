@@ -176,17 +176,18 @@ fn eval_with_bad_line(bad_line: &str) -> (Run, PathBuf) {
 
 #[test]
 fn malformed_integral_file_line_is_named() {
-    let cases: [(&str, &[&str]); 6] = [
-        (" 0.25 1 x 0 0", &["`x` is not an orbital number"]),
-        (" 0.25 1 1", &["5 fields", "found 3"]),
-        (" abc 1 1 0 0", &["`abc` is not a finite number"]),
-        (" NaN 1 1 0 0", &["`NaN` is not a finite number"]),
-        (" 0.25 1 3 0 0", &["orbital 3 is beyond NORB=2"]),
-        (" 0.25 1 0 1 0", &["index pattern 1 0 1 0"]),
+    // the column is that of the offending field (past the end for a missing one)
+    let cases: [(&str, usize, &[&str]); 6] = [
+        (" 0.25 1 x 0 0", 9, &["`x` is not an orbital number"]),
+        (" 0.25 1 1", 10, &["5 fields", "found 3"]),
+        (" abc 1 1 0 0", 2, &["`abc` is not a finite number"]),
+        (" NaN 1 1 0 0", 2, &["`NaN` is not a finite number"]),
+        (" 0.25 1 3 0 0", 9, &["orbital 3 is beyond NORB=2"]),
+        (" 0.25 1 0 1 0", 7, &["index pattern 1 0 1 0"]),
     ];
-    for (line, says) in cases {
+    for (line, column, says) in cases {
         let (run, path) = eval_with_bad_line(line);
-        let place = format!("{}:7: ", path.display());
+        let place = format!("{}:7:{column}: ", path.display());
         let mut all = vec![place.as_str()];
         all.extend_from_slice(says);
         assert_fails(&run, &all);
@@ -200,7 +201,7 @@ fn integral_file_without_header_end() {
     let path = dir.path().join("nohead.fcidump");
     std::fs::write(&path, " &FCI NORB=2,NELEC=2,MS2=0,\n 0.6 1 1 1 1\n").unwrap();
     let run = eval_in(dir.path(), path.to_str().unwrap(), &BINDINGS);
-    assert_fails(&run, &[&format!("{}:1: ", path.display()), "`&END`"]);
+    assert_fails(&run, &[&format!("{}:1:1: ", path.display()), "`&END`"]);
 }
 
 /// The reference total energies (hartree) for the closed-shell determinant, the open-shell
@@ -224,7 +225,8 @@ fn json_results_in_request_order() {
     assert!(run.stderr.is_empty(), "{}", run.stderr);
     let json: serde_json::Value = serde_json::from_str(&run.stdout).expect("the output is JSON");
     let top = json.as_object().expect("an object");
-    assert_eq!(top.keys().collect::<Vec<_>>(), vec!["results"], "{}", run.stdout);
+    assert_eq!(top.keys().collect::<Vec<_>>(), vec!["results", "warnings"], "{}", run.stdout);
+    assert_eq!(json["warnings"], serde_json::json!([]), "the water file has a constant and NELEC=10");
     let results = json["results"].as_array().expect("results is a list");
     let requests: Vec<&str> =
         results.iter().map(|r| r["request"].as_str().expect("a request text")).collect();

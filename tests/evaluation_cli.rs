@@ -125,6 +125,39 @@ fn orbital_beyond_the_integral_file() {
 }
 
 #[test]
+fn numbers_and_ranges_are_checked_against_the_file_before_they_are_expanded() {
+    // each would otherwise allocate a list of up to 2^64 orbital numbers
+    for spec in ["1-18446744073709551615", "1-100000000000", "3-99999999999999999999999"] {
+        let run = eval(&strs(&bindings_with("core", Some(spec), &[])));
+        assert_fails(&run, &[&format!("--bind core={spec}"), "orbital 8 is beyond", "7 orbitals"]);
+    }
+    let run = eval(&strs(&bindings_with("core", Some("99999999999999999999999"), &[])));
+    assert_fails(&run, &["orbital 99999999999999999999999 is beyond", "7 orbitals"]);
+    let run = eval(&strs(&bindings_with("core", Some("100000000000-200000000000"), &[])));
+    assert_fails(&run, &["orbital 100000000000 is beyond"]);
+}
+
+#[test]
+fn a_space_bound_to_no_orbitals_is_written_none() {
+    let run = eval(&strs(&bindings_with("core", Some(""), &[])));
+    assert_fails(&run, &["--bind core=", "no orbitals are given", "core=none"]);
+    let run = eval(&strs(&bindings_with("a", Some("none"), &[])));
+    assert_fails(&run, &["--bind a=none", "`a` is one orbital"]);
+    // with core=none every state here is one of two electrons: each energy and element is
+    // evaluated (and warned about, since the file was made for 10)
+    let run = eval(&strs(&bindings_with("core", Some("none"), &[])));
+    assert_eq!(run.code, Some(0), "{}", run.stderr);
+    assert_eq!(run.stdout.lines().count(), 4, "{}", run.stdout);
+    assert_eq!(run.stderr.matches("has 2 electrons under the bindings").count(), 4, "{}", run.stderr);
+}
+
+#[test]
+fn an_orbital_listed_twice_in_one_binding_is_refused() {
+    let run = eval(&strs(&bindings_with("core", Some("1-3,3"), &[])));
+    assert_fails(&run, &["--bind core=1-3,3", "orbital 3 is listed twice"]);
+}
+
+#[test]
 fn malformed_bind_specs() {
     let cases: [(&str, Option<&str>, &[&str]); 6] = [
         ("core", Some("5-1"), &["core=5-1", "5-1 runs backwards"]),

@@ -35,6 +35,10 @@ exist for that assignment.  The script is deterministic.
 import os
 import sys
 
+# Single-threaded linear algebra keeps the output bit-for-bit reproducible.
+for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ[_var] = "1"
+
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
 import json  # noqa: E402

@@ -11,6 +11,7 @@
 //!   such bindings are refused; without it, those rows are right;
 //! - a state whose electron count differs from the file's NELEC is evaluated, with a warning;
 //! - a space bound to no orbitals (`core=none`) holds no electrons and adds nothing;
+//! - a coupled state too large to expand is bound and evaluated like any other;
 //! - zero prints as zero.
 
 use serde_json::Value;
@@ -333,4 +334,52 @@ fn zero_prints_as_zero() {
     let text = eval(&recorded_run("singles_water"), &[]).stdout;
     assert!(!text.contains("-0.000000000000"), "{text}");
     assert!(text.contains("     3    6          0.000000000000\n"), "{text}");
+}
+
+/// The coupled states of tests/inputs/csf_water.spinfold one by one (`csfs` numbers the paths
+/// in increasing order: `singlet.1` here is `singlet_1`).
+const COUPLED: &str = "\
+orbitals p q r s
+space core
+csf singlet_1 = | core^2 p q r s | S=0 path=1/2,0,1/2,0
+csf singlet_2 = | core^2 p q r s | S=0 path=1/2,1,1/2,0
+csf triplet_1 = | core^2 p q r s | S=1 path=1/2,0,1/2,1
+csf triplet_2 = | core^2 p q r s | S=1 path=1/2,1,1/2,1
+csf triplet_3 = | core^2 p q r s | S=1 path=1/2,1,3/2,1
+csf quintet = | core^2 p q r s | S=2 M=0
+csf doublet_1 = | core^2 p q r | S=1/2 path=1/2,0,1/2
+csf doublet_2 = | core^2 p q r | S=1/2 path=1/2,1,1/2
+csf quartet = | core^2 p q r | S=3/2 M=-1/2
+";
+
+#[test]
+fn a_coupled_state_too_large_to_expand_is_bound_and_evaluated() {
+    let text = std::fs::read_to_string(format!("{ROOT}/tests/fixtures/csf_water_reference.json")).unwrap();
+    let reference: Value = serde_json::from_str(&text).unwrap();
+    let states = reference["states"].as_object().unwrap();
+    let name = |key: &str| key.replace('.', "_");
+    let requests: String = states.keys().map(|key| format!("energy {}\n", name(key))).collect();
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("csf.spinfold"), format!("{COUPLED}{requests}")).unwrap();
+    // past --max-determinants 2 each state keeps only its coupling, and its energy comes by
+    // spin algebra
+    let output = Command::new(env!("CARGO_BIN_EXE_spinfold"))
+        .args(["eval", "csf.spinfold", "--max-determinants", "2", "--json", "--integrals"])
+        .arg(format!("{ROOT}/tests/fixtures/water_sto3g_rhf.fcidump"))
+        .args(["--bind", "core=1-3", "--bind", "p=4", "--bind", "q=5", "--bind", "r=6", "--bind", "s=7"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(0), "{stderr}");
+    let json: Value = serde_json::from_slice(&output.stdout).unwrap();
+    assert_eq!(json["results"].as_array().unwrap().len(), states.len());
+    // PySCF CI vectors (csf_water_reference.json)
+    for (result, (key, state)) in json["results"].as_array().unwrap().iter().zip(states) {
+        assert_eq!(result["request"], format!("energy {}", name(key)));
+        let want = state["energy"]["value"].as_f64().unwrap();
+        assert_close(&format!("energy {key}"), result["value"].as_f64().unwrap(), want);
+    }
+    // the cations (doublets and the quartet: 9 electrons) are pointed out
+    assert_eq!(json["warnings"].as_array().unwrap().len(), 3, "{}", json["warnings"]);
 }

@@ -3,8 +3,9 @@
 
 use crate::engine::exact::Exact;
 use crate::error::{Error, ErrorKind, Result};
-use crate::language::program::{DetSpec, Occupant, Program, Request, State, Symbols};
+use crate::language::program::{Occupant, Program, Request, State, Symbols};
 use crate::numbers::evaluate::Binding;
+use std::borrow::Cow;
 use std::collections::{BTreeMap, BTreeSet};
 
 fn fail(why: String) -> Error {
@@ -60,23 +61,22 @@ fn beyond(orbital: &str, norb: usize) -> String {
     format!("orbital {orbital} is beyond the {norb} orbitals of the integral file")
 }
 
-/// The determinants a state is written with; a coupled state too large to expand is named by
-/// its reference determinant, which mentions the same symbols and electrons.
-fn written_determinants(state: &State) -> Vec<&DetSpec> {
+/// A state as its determinants are written; a coupled state too large to expand stands as its
+/// reference determinant, which mentions the same symbols and holds as many electrons.
+fn written(state: &State) -> Cow<'_, State> {
     match &state.coupling {
-        Some(coupling) if state.is_unexpanded() => vec![&coupling.reference],
-        _ => state.terms.iter().map(|(_, det)| det).collect(),
+        Some(coupling) if state.is_unexpanded() => {
+            Cow::Owned(State::new(vec![(Exact::one(), coupling.reference.clone())]))
+        }
+        _ => Cow::Borrowed(state),
     }
 }
 
 /// The orbitals, spaces (closed ones and those of generic indices) and generic indices that a
 /// request's states mention.
 pub fn symbols_of(program: &Program, request: &Request) -> (BTreeSet<u32>, BTreeSet<u32>, BTreeSet<u32>) {
-    let states: Vec<State> = [&request.bra, &request.ket]
-        .into_iter()
-        .map(|s| State::new(written_determinants(s).into_iter().map(|d| (Exact::one(), d.clone())).collect()))
-        .collect();
-    let symbols = Symbols::of(&states);
+    let (bra, ket) = (written(&request.bra), written(&request.ket));
+    let symbols = Symbols::of([bra.as_ref(), ket.as_ref()]);
     let mut spaces = symbols.closed;
     spaces.extend(symbols.indices.iter().map(|&k| program.indices[k as usize].space));
     (symbols.orbitals, spaces, symbols.indices)
@@ -85,7 +85,7 @@ pub fn symbols_of(program: &Program, request: &Request) -> (BTreeSet<u32>, BTree
 /// The number of electrons of a request's states under a binding: one per explicit electron
 /// and two per member of each closed space.
 pub fn electrons(request: &Request, binding: &Binding) -> usize {
-    written_determinants(&request.bra).first().map_or(0, |det| {
+    written(&request.bra).terms.first().map_or(0, |(_, det)| {
         det.occupants
             .iter()
             .map(|o| match *o {

@@ -255,10 +255,12 @@ pub struct HashedIntegrals {
     pub orbitals: usize,
 }
 
-/// The pair index of the 8-fold symmetry: max(x,y)(max(x,y)+1)/2 + min(x,y).
+/// The pair index of the 8-fold symmetry: max(x,y)(max(x,y)+1)/2 + min(x,y). The product is
+/// taken in 128 bits: for the pair of pairs of a large file it passes 64 bits before halving.
 pub fn pair_index(x: u64, y: u64) -> u64 {
     let (hi, lo) = if x >= y { (x, y) } else { (y, x) };
-    hi * (hi + 1) / 2 + lo
+    let half = u128::from(hi) * (u128::from(hi) + 1) / 2;
+    u64::try_from(half + u128::from(lo)).expect("pair indices of checked orbital counts fit 64 bits")
 }
 
 /// splitmix64 of key ^ seed, as a float in [-0.5, 0.5).
@@ -288,6 +290,17 @@ impl Integrals for HashedIntegrals {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The last class of the largest accepted orbital count is numbered without overflow, and
+    /// one more orbital would not fit.
+    #[test]
+    fn the_largest_class_index_fits() {
+        let n = 110_217u64;
+        let last = n as usize - 1;
+        assert_eq!(Class::eri(last, last, last, last), Class::Eri(eri_classes(n).unwrap() - 1));
+        assert_eq!(Class::h(last, last), Class::H(pair_classes(n).unwrap() - 1));
+        assert_eq!(eri_classes(n + 1), None);
+    }
 
     #[test]
     fn random_integrals_have_the_eightfold_symmetry() {

@@ -10,7 +10,7 @@ use crate::language::program::RequestKind;
 use crate::numbers::bind::Bindings;
 use crate::numbers::fcidump::IntegralDump;
 use crate::numbers::integrals::Integrals;
-use crate::numbers::tabulate::{Evaluated, tabulate};
+use crate::numbers::tabulate::{Evaluated, equal_text, tabulate};
 use itertools::Itertools;
 
 /// The seed of the random integrals used by verification unless another is asked for.
@@ -134,11 +134,6 @@ fn fixed(value: f64) -> String {
         Some(magnitude) if magnitude.bytes().all(|b| b == b'0' || b == b'.') => magnitude.to_string(),
         _ => text,
     }
-}
-
-/// The equal blocks of omitted rows in words: "i = j and a = b".
-fn equal_text(equal: &[Vec<String>]) -> String {
-    equal.iter().map(|b| b.join(" = ")).join(" and ")
 }
 
 /// Results as text: `request  value` lines; tables for unbound indices, with a line under the

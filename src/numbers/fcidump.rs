@@ -234,6 +234,42 @@ fn bytes_text(bytes: u64) -> String {
     }
 }
 
+/// The first data line that gives `class`, found by reading the lines again.
+fn first_line_of<I>(
+    path: &str,
+    open: impl Fn() -> Result<I>,
+    header_lines: usize,
+    norb: usize,
+    class: Class,
+) -> Result<Option<(usize, String)>>
+where
+    I: Iterator<Item = std::io::Result<String>>,
+{
+    Ok(open()?
+        .enumerate()
+        .skip(header_lines)
+        .map_while(|(k, l)| l.ok().map(|l| (k + 1, l)))
+        .find(|(k, l)| entry(path, *k, l, norb).ok().flatten().is_some_and(|e| e.class == Some(class))))
+}
+
+/// The error for a class given a second time, at `at` on the line `text`, with another value
+/// than on the line `first`.
+fn given_twice(path: &str, at: At, class: Class, text: &str, first: Option<(usize, String)>) -> Error {
+    let what = match class {
+        Class::Constant => "the constant",
+        _ => "one integral (under the 8-fold symmetry of real orbitals)",
+    };
+    let earlier = match first {
+        Some((line, first)) => format!("`{}` on line {line}", first.trim()),
+        None => "an earlier line".into(),
+    };
+    fail(
+        path,
+        at,
+        format!("{what} is given twice with different values: `{}` here and {earlier}", text.trim()),
+    )
+}
+
 /// Reads the lines that `open` yields (it may be called again, to find the first of two
 /// lines giving one integral), keeping each table within `budget_bytes`.
 fn read_from<I>(path: &str, open: impl Fn() -> Result<I>, budget_bytes: u64) -> Result<IntegralDump>
@@ -273,27 +309,8 @@ where
             Ok(None) => {}
             Ok(Some(earlier)) if agree(earlier, value) => {}
             Ok(Some(_)) => {
-                let (first, first_text) = open()?
-                    .enumerate()
-                    .skip(header_lines)
-                    .filter_map(|(k, l)| l.ok().map(|l| (k + 1, l)))
-                    .find(|(k, l)| {
-                        entry(path, *k, l, norb).ok().flatten().is_some_and(|e| e.class == Some(class))
-                    })
-                    .expect("the first line of a class given twice is found again");
-                let what = match class {
-                    Class::Constant => "the constant",
-                    _ => "one integral (under the 8-fold symmetry of real orbitals)",
-                };
-                return Err(fail(
-                    path,
-                    value_at,
-                    format!(
-                        "{what} is given twice with different values: `{}` here and `{}` on line {first}",
-                        text.trim(),
-                        first_text.trim()
-                    ),
-                ));
+                let first = first_line_of(path, &open, header_lines, norb, class)?;
+                return Err(given_twice(path, value_at, class, &text, first));
             }
             Err(TableFull { classes, budget_bytes }) => {
                 return Err(fail(

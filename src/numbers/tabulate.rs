@@ -89,6 +89,22 @@ fn exclusion<'a>(d: &'a Derivation, equal: &[Vec<u32>]) -> Option<Exclusion<'a>>
     }
 }
 
+/// The blocks of equal indices in words: "i = j and a = b".
+pub fn equal_text(equal: &[Vec<String>]) -> String {
+    equal.iter().map(|b| b.join(" = ")).join(" and ")
+}
+
+/// The error for bindings that fix an assignment without a value.
+fn refusal(d: &Derivation, why: Exclusion, bindings: String, equal: String) -> Error {
+    let request = d.text.clone();
+    Error::new(match why {
+        Exclusion::Distinct => ErrorKind::DistinctCoincide { request, bindings, equal },
+        Exclusion::Vanishes(state) => {
+            ErrorKind::StateVanishes { request, bindings, state: state.into(), equal }
+        }
+    })
+}
+
 /// A request evaluated over every assignment of its unbound indices. The constant energy of
 /// the integrals enters energies and elements, times <bra|ket>.
 pub fn tabulate(
@@ -103,8 +119,6 @@ pub fn tabulate(
     let names = |blocks: &[Vec<u32>]| -> Vec<Vec<String>> {
         blocks.iter().map(|b| b.iter().map(|&k| name(k)).collect()).collect()
     };
-    let equal_text =
-        |blocks: &[Vec<u32>]| names(blocks).iter().map(|b| b.join(" = ")).collect::<Vec<_>>().join(" and ");
     // with no unbound index, the one empty assignment
     let rows = unbound
         .iter()
@@ -124,19 +138,14 @@ pub fn tabulate(
         }
         let equal = equal_blocks(&d.free_indices, &b);
         if let Some(why) = exclusion(d, &equal) {
+            // the bindings alone fix this coincidence: the user asked for a value that has none
             if equal.iter().flatten().all(|k| !unbound.contains(k)) {
                 let bindings = equal
                     .iter()
                     .flatten()
                     .map(|&k| format!("--bind {}={}", name(k), b.indices[k as usize].map_or(0, |m| m + 1)))
                     .join(" ");
-                let (request, equal) = (d.text.clone(), equal_text(&equal));
-                return Err(Error::new(match why {
-                    Exclusion::Distinct => ErrorKind::DistinctCoincide { request, bindings, equal },
-                    Exclusion::Vanishes(state) => {
-                        ErrorKind::StateVanishes { request, bindings, state: state.into(), equal }
-                    }
-                }));
+                return Err(refusal(d, why, bindings, equal_text(&names(&equal))));
             }
             let (equal, reason) = (names(&equal), why.reason());
             match omitted.iter_mut().find(|o| o.equal == equal && o.reason == reason) {

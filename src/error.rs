@@ -55,34 +55,119 @@ impl PartialEq for Span {
 /// What went wrong. Each kind carries the names it is about; `Error` adds the place.
 #[derive(Clone, Debug, PartialEq)]
 pub enum ErrorKind {
-    Syntax { expected: String },
-    Undefined { name: String },
-    WrongKind { name: String, is: String, wanted: String },
-    Redefined { name: String, first: Option<Span> },
-    Pauli { spin_orbital: String },
-    SpaceNotDoubled { space: String },
-    SpaceInExcitation { space: String },
-    ExcitationLengths { from: usize, to: usize },
-    NotExciting { spin_orbital: String, det: String },
-    NotADeterminant { name: String },
-    BadCoefficient { why: String },
+    Syntax {
+        expected: String,
+    },
+    Undefined {
+        name: String,
+    },
+    WrongKind {
+        name: String,
+        is: String,
+        wanted: String,
+    },
+    Redefined {
+        name: String,
+        first: Option<Span>,
+    },
+    Pauli {
+        spin_orbital: String,
+    },
+    SpaceNotDoubled {
+        space: String,
+    },
+    SpaceInExcitation {
+        space: String,
+    },
+    ExcitationLengths {
+        from: usize,
+        to: usize,
+    },
+    NotExciting {
+        spin_orbital: String,
+        det: String,
+    },
+    NotADeterminant {
+        name: String,
+    },
+    BadCoefficient {
+        why: String,
+    },
     NumberAlone,
     StateTimesState,
     DivisionByState,
     DivisionByZero,
-    EmptyState { name: String },
-    ZeroNorm { state: String },
-    ElectronCount { bra: usize, ket: usize },
-    ClosedSpaces { bra: String, ket: String },
-    RequestArity { kind: String, wanted: usize, got: usize },
-    TooLarge { what: String, limit: usize },
-    Coupling { why: String },
-    Io { path: String, why: String },
-    NotUtf8 { byte: u8, line: usize, position: usize },
-    IntegralFile { path: String, line: usize, why: String },
-    Binding { why: String },
-    Usage { why: String },
-    VerificationFailed { request: String, report: String },
+    EmptyState {
+        name: String,
+    },
+    ZeroNorm {
+        state: String,
+    },
+    ElectronCount {
+        bra: usize,
+        ket: usize,
+    },
+    ClosedSpaces {
+        bra: String,
+        ket: String,
+    },
+    RequestArity {
+        kind: String,
+        wanted: usize,
+        got: usize,
+    },
+    TooLarge {
+        what: String,
+        limit: usize,
+    },
+    Coupling {
+        why: String,
+    },
+    Io {
+        path: String,
+        why: String,
+    },
+    NotUtf8 {
+        byte: u8,
+        line: usize,
+        position: usize,
+    },
+    IntegralFile {
+        path: String,
+        line: usize,
+        column: usize,
+        why: String,
+    },
+    Binding {
+        why: String,
+    },
+    /// A request's bindings fix an assignment in which one of its states does not exist.
+    StateVanishes {
+        request: String,
+        bindings: String,
+        state: String,
+        equal: String,
+    },
+    /// Bindings that put two generic indices on one orbital, for a request derived with
+    /// --distinct.
+    DistinctCoincide {
+        request: String,
+        bindings: String,
+        equal: String,
+    },
+    /// A value that is not a finite number in double precision.
+    NonFinite {
+        request: String,
+        value: String,
+        row: String,
+    },
+    Usage {
+        why: String,
+    },
+    VerificationFailed {
+        request: String,
+        report: String,
+    },
 }
 
 /// An error with its place in the input, when it has one.
@@ -176,8 +261,17 @@ impl Error {
             NotUtf8 { byte, line, position } => format!(
                 "the input is not UTF-8 text: byte {position} of line {line} (0x{byte:02x}) is not part of a character"
             ),
-            IntegralFile { path, line, why } => format!("{path}:{line}: {why}"),
+            IntegralFile { path, line, column, why } => format!("{path}:{line}:{column}: {why}"),
             Binding { why } => why.clone(),
+            StateVanishes { request, bindings, state, equal } => {
+                format!("`{request}` has no value for {bindings}: the state `{state}` vanishes when {equal}")
+            }
+            DistinctCoincide { request, bindings, equal } => format!(
+                "`{request}` was derived with --distinct, which takes different letters to be different orbitals, but {bindings} give {equal}"
+            ),
+            NonFinite { request, value, row } => format!(
+                "`{request}` evaluates to {value}{row}: the integrals are too large for double precision"
+            ),
             Usage { why } => why.clone(),
             VerificationFailed { request, report } => {
                 format!("verification failed for `{request}`: {report}")
@@ -212,6 +306,9 @@ impl Error {
             Coupling { .. } => "write `csf X = | core^2 p q r | S=1/2 path=1/2,0,1/2`: the intermediate spin after each open shell, ending at S".into(),
             TooLarge { .. } => "raise the limit with --max-determinants if the machine has the memory".into(),
             NotUtf8 { .. } => "save the input as UTF-8 (names are ASCII; comments may hold any UTF-8 text)".into(),
+            StateVanishes { .. } => "bind the indices to different orbitals, or leave one unbound: a table leaves out the rows where the state does not exist".into(),
+            DistinctCoincide { .. } => "drop --distinct: without it the expression holds for every assignment, equal indices included".into(),
+            NonFinite { .. } => "check the values of the integral file".into(),
             IntegralFile { .. } => "the integral file must be in the integral-dump text format described in README.md".into(),
             _ => return None,
         })

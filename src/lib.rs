@@ -37,7 +37,7 @@ mod output;
 mod pipeline;
 
 pub use check::verify::{Checked, Comparison, Report, TOLERANCE, compare, verify};
-pub use engine::derive::{Derivation, Options, Route, derive};
+pub use engine::derive::{Derivation, Options, Route, VanishingCase, derive};
 pub use engine::exact::Exact;
 pub use engine::expression::{Expr, Factor, IntegralKind, Term};
 pub use error::{Error, ErrorKind, Result, Source, Span};
@@ -47,9 +47,10 @@ pub use language::program::{Coupling, Program, Request, RequestKind, State};
 pub use numbers::bind::Bindings;
 pub use numbers::evaluate::{Binding, evaluate};
 pub use numbers::fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump};
-pub use numbers::integrals::{DenseIntegrals, Integrals};
+pub use numbers::integrals::{IntegralTable, Integrals, TABLE_BUDGET_BYTES};
+pub use numbers::tabulate::{Entry, Evaluated, Omitted};
 pub use output::{remove_temporaries_on_signal, write_files, write_output};
 pub use pipeline::{
-    DEFAULT_SEED, Entry, Evaluated, Format, derive_checked, evaluate_all, render, render_each, render_states,
+    DEFAULT_SEED, Format, derive_checked, eval_warnings, evaluate_all, render, render_each, render_states,
     results_json, results_text,
 };

@@ -4,8 +4,9 @@
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
     Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, Options, Program, Result, Route,
-    Source, Span, derive_checked, evaluate_all, parse_with, read_dump, remove_temporaries_on_signal, render,
-    render_each, render_states, results_json, results_text, write_files, write_output,
+    Source, Span, derive_checked, eval_warnings, evaluate_all, parse_with, read_dump,
+    remove_temporaries_on_signal, render, render_each, render_states, results_json, results_text,
+    write_files, write_output,
 };
 use std::io::Read;
 
@@ -107,8 +108,8 @@ enum Command {
         /// Integral file in the common integral-dump text format (chemists' notation, 1-based).
         #[arg(long)]
         integrals: String,
-        /// Bind an orbital, space or generic index to 1-based orbitals: a=6, core=1-5, core=1,2,4, i=3.
-        /// An unbound generic index is tabulated over its space.
+        /// Bind an orbital, space or generic index to 1-based orbitals: a=6, core=1-5, core=1,2,4,
+        /// core=none (no orbitals), i=3. An unbound generic index is tabulated over its space.
         #[arg(long = "bind", value_name = "NAME=SPEC")]
         bind: Vec<String>,
         /// Print {"results": [...]} as JSON.
@@ -197,7 +198,11 @@ fn run(cli: Cli) -> Result<()> {
             let (program, checked) = derived(&common)?;
             let bindings = Bindings::parse(&program, &bind, dump.header.norb)?;
             let results = evaluate_all(&program, &checked, &bindings, &dump.integrals)?;
-            let text = if json { results_json(&results) } else { results_text(&results) };
+            let warnings = eval_warnings(&dump, &results);
+            for warning in &warnings {
+                eprintln!("warning: {warning}");
+            }
+            let text = if json { results_json(&results, &warnings) } else { results_text(&results) };
             write_output(output.as_deref(), &text)
         }
     }

@@ -6,11 +6,12 @@ use crate::emit;
 use crate::engine::derive::{Options, derive};
 use crate::error::Result;
 use crate::language::program::Program;
+use crate::language::program::RequestKind;
 use crate::numbers::bind::Bindings;
-use crate::numbers::evaluate::evaluate;
+use crate::numbers::fcidump::IntegralDump;
 use crate::numbers::integrals::Integrals;
+use crate::numbers::tabulate::{Evaluated, equal_text, tabulate};
 use itertools::Itertools;
-use serde::Serialize;
 
 /// The seed of the random integrals used by verification unless another is asked for.
 pub const DEFAULT_SEED: u64 = 20261201;
@@ -92,24 +93,8 @@ pub fn render_states(program: &Program, json: bool) -> String {
     if json { emit::states::render_json(program) } else { emit::states::render_text(program) }
 }
 
-/// One number: the value of a request for one assignment of its unbound indices.
-#[derive(Clone, Debug, Serialize, PartialEq)]
-pub struct Entry {
-    /// index name → 1-based orbital number
-    pub indices: Vec<(String, usize)>,
-    pub value: f64,
-}
-
-/// The value of a request: one number, or a table over its unbound indices.
-#[derive(Clone, Debug, PartialEq)]
-pub struct Evaluated {
-    pub request: String,
-    pub entries: Vec<Entry>,
-    pub tabulated: bool,
-}
-
 /// Evaluates every derivation with real integrals: energies include the file's constant,
-/// elements the constant times the overlap.
+/// elements the constant times the overlap; overlaps and spin values are pure numbers.
 pub fn evaluate_all(
     program: &Program,
     derivations: &[Checked],
@@ -120,68 +105,76 @@ pub fn evaluate_all(
         .requests
         .iter()
         .zip(derivations)
-        .map(|(request, (d, _))| {
-            let (binding, unbound) = bindings.for_request(program, request)?;
-            let choices: Vec<Vec<(u32, usize)>> = unbound
-                .iter()
-                .map(|&k| {
-                    binding.spaces[program.indices[k as usize].space as usize]
-                        .iter()
-                        .map(|&m| (k, m))
-                        .collect()
-                })
-                .collect();
-            let assignments: Vec<Vec<(u32, usize)>> = if choices.is_empty() {
-                vec![vec![]]
-            } else {
-                choices.into_iter().multi_cartesian_product().collect()
-            };
-            let entries = assignments
-                .into_iter()
-                .map(|assignment| {
-                    let mut b = binding.clone();
-                    for &(k, m) in &assignment {
-                        b.indices[k as usize] = Some(m);
-                    }
-                    let value =
-                        evaluate(&d.value, &b, ints) + ints.constant() * evaluate(&d.overlap, &b, ints);
-                    let indices = assignment
-                        .iter()
-                        .map(|&(k, m)| (program.indices[k as usize].name.clone(), m + 1))
-                        .collect();
-                    Entry { indices, value }
-                })
-                .collect();
-            Ok(Evaluated { request: d.text.clone(), entries, tabulated: !unbound.is_empty() })
-        })
+        .map(|(request, (d, _))| tabulate(program, request, d, bindings, ints))
         .collect()
 }
 
-/// Results as text: `request  value` lines, tables for unbound indices.
+/// What the user should know about an evaluation: what the integral reader assumed, and
+/// energies or elements of states whose electron count differs from the file's NELEC (an ion
+/// on the neutral molecule's integrals is legitimate, a slip in the bindings is not).
+pub fn eval_warnings(dump: &IntegralDump, results: &[Evaluated]) -> Vec<String> {
+    let mut out = dump.warnings.clone();
+    if let Some(nelec) = dump.header.nelec {
+        for r in results {
+            if matches!(r.kind, RequestKind::Energy | RequestKind::Element) && r.electrons != nelec {
+                out.push(format!(
+                    "`{}` has {} electrons under the bindings, but the integral file was made for NELEC={nelec}",
+                    r.request, r.electrons
+                ));
+            }
+        }
+    }
+    out
+}
+
+/// A value with 12 decimals; one that rounds to zero prints as zero, without a sign.
+fn fixed(value: f64) -> String {
+    let text = format!("{value:.12}");
+    match text.strip_prefix('-') {
+        Some(magnitude) if magnitude.bytes().all(|b| b == b'0' || b == b'.') => magnitude.to_string(),
+        _ => text,
+    }
+}
+
+/// Results as text: `request  value` lines; tables for unbound indices, with a line under the
+/// table for each group of rows left out.
 pub fn results_text(results: &[Evaluated]) -> String {
     let mut out = String::new();
     for r in results {
         if !r.tabulated {
-            out.push_str(&format!("{:<32} {:>22.12}\n", r.request, r.entries[0].value + 0.0));
+            out.push_str(&format!("{:<32} {:>22}\n", r.request, fixed(r.entries[0].value)));
             continue;
         }
         out.push_str(&format!("{}\n", r.request));
-        let names: Vec<&str> = r.entries[0].indices.iter().map(|(n, _)| n.as_str()).collect();
-        out.push_str(&format!("  {}  {:>22}\n", names.iter().map(|n| format!("{n:>4}")).join(" "), "value"));
+        out.push_str(&format!(
+            "  {}  {:>22}\n",
+            r.columns.iter().map(|n| format!("{n:>4}")).join(" "),
+            "value"
+        ));
         for e in &r.entries {
             out.push_str(&format!(
-                "  {}  {:>22.12}\n",
+                "  {}  {:>22}\n",
                 e.indices.iter().map(|(_, m)| format!("{m:>4}")).join(" "),
-                e.value
+                fixed(e.value)
+            ));
+        }
+        for o in &r.omitted {
+            let rows = if o.count == 1 { "row" } else { "rows" };
+            out.push_str(&format!(
+                "  left out: {} {rows} where {}: {}\n",
+                o.count,
+                equal_text(&o.equal),
+                o.reason
             ));
         }
     }
     out
 }
 
-/// Results as JSON: `{"results": [{"request": ..., "value": ...}, ...]}`; a tabulated request
-/// has `"values": [{"indices": {"i": 1, ...}, "value": ...}]` instead of `"value"`.
-pub fn results_json(results: &[Evaluated]) -> String {
+/// Results as JSON: `{"results": [{"request": ..., "value": ...}, ...], "warnings": [...]}`; a
+/// tabulated request has `"values": [{"indices": {"i": 1, ...}, "value": ...}]` instead of
+/// `"value"`, and `"omitted": [{"count": ..., "equal": [["i", "j"]], "reason": ...}]`.
+pub fn results_json(results: &[Evaluated], warnings: &[String]) -> String {
     let list: Vec<serde_json::Value> = results
         .iter()
         .map(|r| {
@@ -195,12 +188,13 @@ pub fn results_json(results: &[Evaluated]) -> String {
                         serde_json::json!({"indices": indices, "value": e.value})
                     })
                     .collect();
-                serde_json::json!({"request": r.request, "values": values})
+                serde_json::json!({"request": r.request, "values": values, "omitted": r.omitted})
             } else {
                 serde_json::json!({"request": r.request, "value": r.entries[0].value})
             }
         })
         .collect();
-    serde_json::to_string_pretty(&serde_json::json!({ "results": list })).expect("plain data serializes")
+    serde_json::to_string_pretty(&serde_json::json!({ "results": list, "warnings": warnings }))
+        .expect("plain data serializes")
         + "\n"
 }

@@ -2,7 +2,7 @@
 //! result and as a number on random integrals (common practice; CONVENTIONS.md check value).
 
 use spinfold::{
-    Binding, DenseIntegrals, Format, Integrals, Options, derive, derive_checked, evaluate, parse, render,
+    Binding, Format, IntegralTable, Integrals, Options, derive, derive_checked, evaluate, parse, render,
 };
 
 const INPUT: &str = "space occ\ndet ground = | occ^2 |\nenergy ground\n";
@@ -22,7 +22,7 @@ fn the_formula_holds_numerically_for_several_sizes() {
     let program = parse("closed.spinfold", INPUT).unwrap();
     let d = derive(&program, &program.requests[0], &Options::default()).unwrap();
     for n in 1..=6 {
-        let ints = DenseIntegrals::random(n, 40 + n as u64);
+        let ints = IntegralTable::random(n, 40 + n as u64);
         let mut expected = 0.0;
         for k in 0..n {
             expected += 2.0 * ints.h(k, k);
@@ -43,7 +43,7 @@ fn a_core_and_valence_split_gives_the_same_energy() {
     let d = derive(&program, &program.requests[0], &Options::default()).unwrap();
     let whole = parse("closed.spinfold", INPUT).unwrap();
     let w = derive(&whole, &whole.requests[0], &Options::default()).unwrap();
-    let ints = DenseIntegrals::random(5, 9);
+    let ints = IntegralTable::random(5, 9);
     let split = Binding { orbitals: vec![], spaces: vec![vec![0, 1], vec![2, 3, 4]], indices: vec![] };
     let all = Binding { orbitals: vec![], spaces: vec![vec![0, 1, 2, 3, 4]], indices: vec![] };
     assert!((evaluate(&d.value, &split, &ints) - evaluate(&w.value, &all, &ints)).abs() < 1e-12);

@@ -25,7 +25,7 @@ use num_rational::BigRational;
 use proptest::prelude::*;
 use proptest::test_runner::{RngAlgorithm, RngSeed};
 use spinfold::{
-    Binding, DEFAULT_SEED, DenseIntegrals, Derivation, ErrorKind, Exact, Expr, Factor, IntegralKind, Options,
+    Binding, DEFAULT_SEED, Derivation, ErrorKind, Exact, Expr, Factor, IntegralKind, IntegralTable, Options,
     Program, Report, derive, evaluate, parse, verify,
 };
 use std::collections::BTreeSet;
@@ -612,7 +612,7 @@ fn derive_all(g: &Generated, requests: &[String]) -> Result<Vec<Derivation>, Tes
 
 /// Every binding of the named orbitals, spaces (two size configurations) and the generic
 /// indices, with random integrals for each configuration.
-fn bindings(program: &Program) -> Vec<(Binding, DenseIntegrals)> {
+fn bindings(program: &Program) -> Vec<(Binding, IntegralTable)> {
     let mut out = vec![];
     for configuration in 0..2 {
         let mut next = program.orbitals.len();
@@ -623,7 +623,7 @@ fn bindings(program: &Program) -> Vec<(Binding, DenseIntegrals)> {
                 (next - n..next).collect()
             })
             .collect();
-        let ints = DenseIntegrals::random(next, 1000 + configuration as u64);
+        let ints = IntegralTable::random(next, 1000 + configuration as u64);
         let mut assignments: Vec<Vec<Option<usize>>> = vec![vec![]];
         for index in &program.indices {
             assignments = assignments

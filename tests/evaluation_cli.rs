@@ -125,6 +125,39 @@ fn orbital_beyond_the_integral_file() {
 }
 
 #[test]
+fn numbers_and_ranges_are_checked_against_the_file_before_they_are_expanded() {
+    // each would otherwise allocate a list of up to 2^64 orbital numbers
+    for spec in ["1-18446744073709551615", "1-100000000000", "3-99999999999999999999999"] {
+        let run = eval(&strs(&bindings_with("core", Some(spec), &[])));
+        assert_fails(&run, &[&format!("--bind core={spec}"), "orbital 8 is beyond", "7 orbitals"]);
+    }
+    let run = eval(&strs(&bindings_with("core", Some("99999999999999999999999"), &[])));
+    assert_fails(&run, &["orbital 99999999999999999999999 is beyond", "7 orbitals"]);
+    let run = eval(&strs(&bindings_with("core", Some("100000000000-200000000000"), &[])));
+    assert_fails(&run, &["orbital 100000000000 is beyond"]);
+}
+
+#[test]
+fn a_space_bound_to_no_orbitals_is_written_none() {
+    let run = eval(&strs(&bindings_with("core", Some(""), &[])));
+    assert_fails(&run, &["--bind core=", "no orbitals are given", "core=none"]);
+    let run = eval(&strs(&bindings_with("a", Some("none"), &[])));
+    assert_fails(&run, &["--bind a=none", "`a` is one orbital"]);
+    // with core=none every state here is one of two electrons: each energy and element is
+    // evaluated (and warned about, since the file was made for 10)
+    let run = eval(&strs(&bindings_with("core", Some("none"), &[])));
+    assert_eq!(run.code, Some(0), "{}", run.stderr);
+    assert_eq!(run.stdout.lines().count(), 4, "{}", run.stdout);
+    assert_eq!(run.stderr.matches("has 2 electrons under the bindings").count(), 4, "{}", run.stderr);
+}
+
+#[test]
+fn an_orbital_listed_twice_in_one_binding_is_refused() {
+    let run = eval(&strs(&bindings_with("core", Some("1-3,3"), &[])));
+    assert_fails(&run, &["--bind core=1-3,3", "orbital 3 is listed twice"]);
+}
+
+#[test]
 fn malformed_bind_specs() {
     let cases: [(&str, Option<&str>, &[&str]); 6] = [
         ("core", Some("5-1"), &["core=5-1", "5-1 runs backwards"]),
@@ -176,17 +209,18 @@ fn eval_with_bad_line(bad_line: &str) -> (Run, PathBuf) {
 
 #[test]
 fn malformed_integral_file_line_is_named() {
-    let cases: [(&str, &[&str]); 6] = [
-        (" 0.25 1 x 0 0", &["`x` is not an orbital number"]),
-        (" 0.25 1 1", &["5 fields", "found 3"]),
-        (" abc 1 1 0 0", &["`abc` is not a finite number"]),
-        (" NaN 1 1 0 0", &["`NaN` is not a finite number"]),
-        (" 0.25 1 3 0 0", &["orbital 3 is beyond NORB=2"]),
-        (" 0.25 1 0 1 0", &["index pattern 1 0 1 0"]),
+    // the column is that of the offending field (past the end for a missing one)
+    let cases: [(&str, usize, &[&str]); 6] = [
+        (" 0.25 1 x 0 0", 9, &["`x` is not an orbital number"]),
+        (" 0.25 1 1", 10, &["5 fields", "found 3"]),
+        (" abc 1 1 0 0", 2, &["`abc` is not a finite number"]),
+        (" NaN 1 1 0 0", 2, &["`NaN` is not a finite number"]),
+        (" 0.25 1 3 0 0", 9, &["orbital 3 is beyond NORB=2"]),
+        (" 0.25 1 0 1 0", 7, &["index pattern 1 0 1 0"]),
     ];
-    for (line, says) in cases {
+    for (line, column, says) in cases {
         let (run, path) = eval_with_bad_line(line);
-        let place = format!("{}:7: ", path.display());
+        let place = format!("{}:7:{column}: ", path.display());
         let mut all = vec![place.as_str()];
         all.extend_from_slice(says);
         assert_fails(&run, &all);
@@ -200,7 +234,7 @@ fn integral_file_without_header_end() {
     let path = dir.path().join("nohead.fcidump");
     std::fs::write(&path, " &FCI NORB=2,NELEC=2,MS2=0,\n 0.6 1 1 1 1\n").unwrap();
     let run = eval_in(dir.path(), path.to_str().unwrap(), &BINDINGS);
-    assert_fails(&run, &[&format!("{}:1: ", path.display()), "`&END`"]);
+    assert_fails(&run, &[&format!("{}:1:1: ", path.display()), "`&END`"]);
 }
 
 /// The reference total energies (hartree) for the closed-shell determinant, the open-shell
@@ -224,7 +258,8 @@ fn json_results_in_request_order() {
     assert!(run.stderr.is_empty(), "{}", run.stderr);
     let json: serde_json::Value = serde_json::from_str(&run.stdout).expect("the output is JSON");
     let top = json.as_object().expect("an object");
-    assert_eq!(top.keys().collect::<Vec<_>>(), vec!["results"], "{}", run.stdout);
+    assert_eq!(top.keys().collect::<Vec<_>>(), vec!["results", "warnings"], "{}", run.stdout);
+    assert_eq!(json["warnings"], serde_json::json!([]), "the water file has a constant and NELEC=10");
     let results = json["results"].as_array().expect("results is a list");
     let requests: Vec<&str> =
         results.iter().map(|r| r["request"].as_str().expect("a request text")).collect();

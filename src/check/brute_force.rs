@@ -172,12 +172,12 @@ mod tests {
     use super::*;
     use crate::engine::exact::Exact;
     use crate::language::program::DetSpec;
-    use crate::numbers::integrals::DenseIntegrals;
+    use crate::numbers::integrals::IntegralTable;
 
     #[test]
     fn closed_shell_energy_matches_the_textbook_formula() {
         // one doubly occupied orbital: E = 2 h_11 + (11|11)
-        let ints = DenseIntegrals::random(2, 3);
+        let ints = IntegralTable::random(2, 3);
         let state = State::new(vec![(
             Exact::one(),
             DetSpec { occupants: vec![Occupant::Closed(0)], excitations: vec![] },

@@ -9,7 +9,7 @@ use crate::language::orbital::Spin;
 use crate::language::program::{DetSpec, Occupant, Program, Request, RequestKind, State};
 use crate::numbers::bind::symbols_of;
 use crate::numbers::evaluate::{Binding, evaluate};
-use crate::numbers::integrals::{DenseIntegrals, Integrals};
+use crate::numbers::integrals::{IntegralTable, Integrals};
 use itertools::Itertools;
 use rand::seq::SliceRandom;
 use rand::{RngExt, SeedableRng};
@@ -302,7 +302,7 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
                 .map(|(s, n)| format!("{}={n}", s.name))
                 .join(", "),
         );
-        let ints = DenseIntegrals::random(next, seed.wrapping_add(c as u64));
+        let ints = IntegralTable::random(next, seed.wrapping_add(c as u64));
         let choices: Vec<Vec<(u32, usize)>> = derivation
             .free_indices
             .iter()

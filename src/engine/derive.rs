@@ -7,10 +7,10 @@ use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, RestrictedSum};
 use crate::engine::fock::fock_form;
 use crate::engine::slater_condon::{self, BitState, Universe};
-use crate::engine::spin_operator::spin_values;
+use crate::engine::spin_operator::{SpinValues, spin_values};
 use crate::error::{Error, ErrorKind, Result};
 use crate::language::orbital::{Orb, SpaceId, SpaceSet};
-use crate::language::program::{Program, Request, RequestKind, State, Symbols};
+use crate::language::program::{Coupling, Program, Request, RequestKind, State, Symbols};
 use std::collections::{BTreeMap, BTreeSet};
 
 /// How derivations are carried out.
@@ -54,18 +54,40 @@ pub struct Derivation {
     pub ket: String,
     /// energy: <X|H|X>/<X|X>; element: <X|H|Y>; overlap: <X|Y>. Electronic part only.
     pub value: Expr,
-    /// <bra|ket>, the factor of the constant (nuclear repulsion) energy.
+    /// <bra|ket> (1 for an energy, 0 for a spin request).
     pub overlap: Expr,
     /// For spin requests <S_z> (the value is <S²>); zero otherwise.
     pub s_z: Expr,
     /// Conditions under which the expression does not apply, in words.
     pub notes: Vec<String>,
+    /// The coincidence cases in which the bra or the ket vanishes: there the state does not
+    /// exist, and the expression (energy, element or overlap alike) has no meaning.
+    pub vanishing: Vec<VanishingCase>,
     /// Generic indices that the result depends on, in declaration order.
     pub free_indices: Vec<u32>,
     /// The closed spaces of the bra and ket: what f_pq and E_ref sum over.
     pub closed: SpaceSet,
     /// Derived assuming different generic indices are different orbitals.
     pub distinct: bool,
+}
+
+impl Derivation {
+    /// What the constant energy of an integral file (nuclear repulsion) multiplies: <bra|ket>
+    /// for energies and elements of H; nothing for an overlap or a spin expectation value,
+    /// which are pure numbers.
+    pub fn constant_factor(&self) -> Option<&Expr> {
+        matches!(self.kind, RequestKind::Energy | RequestKind::Element).then_some(&self.overlap)
+    }
+}
+
+/// A coincidence of generic indices in which a state of the request has no determinant left.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct VanishingCase {
+    /// The blocks of equal generic indices (two or more each, ascending); indices in no block
+    /// differ from every other.
+    pub equal: Vec<Vec<u32>>,
+    /// The operand that vanishes, as written (the bra when both do).
+    pub state: String,
 }
 
 use crate::engine::spin_operator::CaseState;
@@ -148,15 +170,22 @@ fn check_comparable(program: &Program, request: &Request, bra: &CaseState, ket: 
     Ok(())
 }
 
+/// The blocks of equal indices of a case, each ascending, ordered by their smallest index.
+fn equal_blocks(case: &Case) -> Vec<Vec<u32>> {
+    let mut blocks: BTreeMap<u32, Vec<u32>> = BTreeMap::new();
+    for (representative, other) in case.deltas() {
+        if let (Orb::Index(r), Orb::Index(k)) = (representative, other) {
+            blocks.entry(r).or_insert_with(|| vec![r]).push(k);
+        }
+    }
+    blocks.into_values().collect()
+}
+
 /// The equalities of a case in words: "t = u = v", blocks joined by "and".
 fn case_text(program: &Program, case: &Case) -> String {
-    let mut blocks: BTreeMap<Orb, Vec<Orb>> = BTreeMap::new();
-    for (representative, other) in case.deltas() {
-        blocks.entry(representative).or_insert_with(|| vec![representative]).push(other);
-    }
-    blocks
-        .values()
-        .map(|block| block.iter().map(|&o| program.orb_name(o)).collect::<Vec<_>>().join(" = "))
+    equal_blocks(case)
+        .iter()
+        .map(|block| block.iter().map(|&k| program.orb_name(Orb::Index(k))).collect::<Vec<_>>().join(" = "))
         .collect::<Vec<_>>()
         .join(" and ")
 }
@@ -166,7 +195,7 @@ fn case_text(program: &Program, case: &Case) -> String {
 fn by_spin_algebra(
     program: &Program,
     request: &Request,
-    coupling: &crate::language::program::Coupling,
+    coupling: &Coupling,
     options: &Options,
 ) -> Result<Derivation> {
     let reference = State::new(vec![(Exact::one(), coupling.reference.clone())]);
@@ -205,19 +234,8 @@ pub fn check_definition(
     derive(program, &request, &Options { distinct: true, ..Options::default() }).map(|_| ())
 }
 
-/// Derives one request.
-pub fn derive(program: &Program, request: &Request, options: &Options) -> Result<Derivation> {
-    if let Some(coupling) = request.bra.coupling.as_ref().filter(|_| request.kind == RequestKind::Energy) {
-        let named = coupling.open.iter().all(|o| matches!(o, Orb::Named(_)));
-        let wanted = match options.route {
-            Route::Auto => request.bra.is_unexpanded(),
-            Route::Determinants => false,
-            Route::SpinAlgebra => true,
-        };
-        if named && wanted {
-            return by_spin_algebra(program, request, coupling, options);
-        }
-    }
+/// Refuses states that cannot be expanded for this request, or that exceed the size limit.
+fn check_sizes(request: &Request, options: &Options) -> Result<()> {
     for (state, label) in [(&request.bra, &request.bra_text), (&request.ket, &request.ket_text)] {
         if state.is_unexpanded() {
             let n = state.coupling.as_ref().map_or(0, |c| c.determinants);
@@ -243,125 +261,200 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
             ));
         }
     }
+    Ok(())
+}
+
+/// The energy of one coupled state goes by spin algebra when the route asks for it (or, by
+/// default, when the state is too large to expand) and its open shells are named orbitals.
+fn wants_spin_algebra<'a>(request: &'a Request, options: &Options) -> Option<&'a Coupling> {
+    let coupling = request.bra.coupling.as_deref().filter(|_| request.kind == RequestKind::Energy)?;
+    let named = coupling.open.iter().all(|o| matches!(o, Orb::Named(_)));
+    let wanted = match options.route {
+        Route::Auto => request.bra.is_unexpanded(),
+        Route::Determinants => false,
+        Route::SpinAlgebra => true,
+    };
+    (named && wanted).then_some(coupling)
+}
+
+/// The bra and the ket built in one case. In the finest case a determinant that vanishes is an
+/// error; in coarser ones a vanishing state is just empty.
+fn case_states(
+    program: &Program,
+    request: &Request,
+    case: &Case,
+    finest: bool,
+) -> Result<(CaseState, CaseState)> {
+    let build = |state: &State, label: &str| {
+        case_state(state, case).map_err(|why| vanishing_error(program, request, why, label))
+    };
+    match (build(&request.bra, &request.bra_text), build(&request.ket, &request.ket_text)) {
+        (Ok(b), Ok(k)) => Ok((b, k)),
+        (Err(e), _) | (_, Err(e)) if finest => Err(e),
+        _ => Ok((CaseState::new(), CaseState::new())),
+    }
+}
+
+/// In the case where all indices differ, bra and ket must be comparable and non-empty; their
+/// closed spaces are what f_pq and E_ref sum over.
+fn check_finest(program: &Program, request: &Request, bra: &CaseState, ket: &CaseState) -> Result<SpaceSet> {
+    check_comparable(program, request, bra, ket)?;
+    for (s, label) in [(bra, &request.bra_text), (ket, &request.ket_text)] {
+        if s.is_empty() {
+            return Err(Error::at(ErrorKind::EmptyState { name: label.clone() }, &request.span));
+        }
+    }
+    Ok(bra.keys().next().map_or(SpaceSet::default(), |d| SpaceSet::of(&d.closed)))
+}
+
+/// A warning when the state of a spin request is not an eigenfunction of S² or S_z in a case.
+fn spin_warning(
+    program: &Program,
+    request: &Request,
+    case: &Case,
+    finest: bool,
+    v: &SpinValues,
+) -> Option<String> {
+    let which = match (v.eigen_s, v.eigen_m) {
+        (true, true) => return None,
+        (false, false) => "S² or S_z",
+        (false, true) => "S²",
+        (true, false) => "S_z",
+    };
+    let place = if finest { String::new() } else { format!(" when {}", case_text(program, case)) };
+    Some(format!(
+        "warning: `{}` is not an eigenfunction of {which}{place}: <S^2> = {}, <S_z> = {}",
+        request.bra_text, v.s_squared, v.s_z
+    ))
+}
+
+/// The value, the overlap and (for spin requests) <S_z> of one case; None where the case has
+/// no value because the state vanishes there (noted in `notes`).
+fn case_channels(
+    program: &Program,
+    request: &Request,
+    case: &Case,
+    finest: bool,
+    (bra, ket): (&CaseState, &CaseState),
+    notes: &mut Vec<String>,
+) -> Result<[Option<Expr>; 3]> {
+    let closed: Vec<RestrictedSum> = bra
+        .keys()
+        .chain(ket.keys())
+        .next()
+        .map(|d| {
+            d.closed
+                .iter()
+                .map(|&s| RestrictedSum { space: s, excluded: case.extracted(s).to_vec() })
+                .collect()
+        })
+        .unwrap_or_default();
+    let with_span = |e: Error| Error { span: Some(request.span.clone()), ..e };
+    let universe = Universe::new(bra.keys().chain(ket.keys())).map_err(with_span)?;
+    let bra_bits = BitState::new(bra, &universe).map_err(with_span)?;
+    let ket_bits = if request.bra == request.ket {
+        None
+    } else {
+        Some(BitState::new(ket, &universe).map_err(with_span)?)
+    };
+    let ket_bits = ket_bits.as_ref().unwrap_or(&bra_bits);
+    let s = Expr::constant(slater_condon::overlap(&bra_bits, ket_bits));
+    let mut vanishes = || {
+        notes.push(format!(
+            "the state vanishes when {}; the expression does not apply there",
+            case_text(program, case)
+        ));
+    };
+    let zero_norm = || Error::at(ErrorKind::ZeroNorm { state: request.bra_text.clone() }, &request.span);
+    Ok(match request.kind {
+        RequestKind::Overlap => [Some(s.clone()), Some(s), None],
+        RequestKind::Element => {
+            [Some(slater_condon::hamiltonian(&bra_bits, ket_bits, &universe, &closed)), Some(s), None]
+        }
+        RequestKind::Energy => match slater_condon::overlap(&bra_bits, &bra_bits).inverse() {
+            Some(inverse) => [
+                Some(slater_condon::hamiltonian(&bra_bits, &bra_bits, &universe, &closed).scaled(&inverse)),
+                Some(s),
+                None,
+            ],
+            None if finest => return Err(zero_norm()),
+            None => {
+                vanishes();
+                [None, Some(s), None]
+            }
+        },
+        RequestKind::Spin => match spin_values(bra) {
+            Some(v) => {
+                notes.extend(spin_warning(program, request, case, finest, &v));
+                [Some(Expr::constant(v.s_squared)), Some(s), Some(Expr::constant(v.s_z))]
+            }
+            None if finest => return Err(zero_norm()),
+            None => {
+                vanishes();
+                [None, Some(s), None]
+            }
+        },
+    })
+}
+
+/// Möbius inversion over the coincidence lattice: each case keeps only what it adds to the
+/// finer cases it contains, and the result is the sum of those parts, each under the deltas
+/// that select its case.
+#[derive(Default)]
+struct Mobius {
+    parts: Vec<(Case, [Expr; 3])>,
+}
+
+impl Mobius {
+    /// Adds a case; cases come finest first, so every finer case is already here.
+    fn add(&mut self, case: &Case, channels: [Option<Expr>; 3]) {
+        let own = std::array::from_fn(|c| {
+            let finer = self
+                .parts
+                .iter()
+                .filter(|(other, _)| other.refines(case))
+                .fold(Expr::zero(), |acc, (_, own)| acc.plus(&own[c].substitute(&|x| case.orb(x))));
+            channels[c].as_ref().map_or(Expr::zero(), |v| v.minus(&finer))
+        });
+        self.parts.push((case.clone(), own));
+    }
+
+    fn assemble(&self) -> [Expr; 3] {
+        std::array::from_fn(|c| {
+            self.parts
+                .iter()
+                .fold(Expr::zero(), |acc, (case, own)| acc.plus(&own[c].with_deltas(&case.deltas())))
+        })
+    }
+}
+
+/// Derives one request.
+pub fn derive(program: &Program, request: &Request, options: &Options) -> Result<Derivation> {
+    if let Some(coupling) = wants_spin_algebra(request, options) {
+        return by_spin_algebra(program, request, coupling, options);
+    }
+    check_sizes(request, options)?;
     let (used, closed_spaces, all_indices) = used_indices(program, &[&request.bra, &request.ket]);
     let cases = coincidence::cases(&used, &closed_spaces, options.distinct);
     let mut notes = vec![];
-    let mut parts: Vec<(Case, Vec<Expr>)> = vec![];
+    let mut vanishing = vec![];
+    let mut mobius = Mobius::default();
     let mut closed_set = SpaceSet::default();
     for (n, case) in cases.iter().enumerate() {
         let finest = n == 0;
-        let build = |state: &State, label: &str| {
-            case_state(state, case).map_err(|why| vanishing_error(program, request, why, label))
-        };
-        let (bra, ket) =
-            match (build(&request.bra, &request.bra_text), build(&request.ket, &request.ket_text)) {
-                (Ok(b), Ok(k)) => (b, k),
-                (Err(e), _) | (_, Err(e)) if finest => return Err(e),
-                _ => (CaseState::new(), CaseState::new()),
-            };
+        let (bra, ket) = case_states(program, request, case, finest)?;
         if finest {
-            check_comparable(program, request, &bra, &ket)?;
-            closed_set = bra.keys().next().map_or(SpaceSet::default(), |d| SpaceSet::of(&d.closed));
-            for (s, label) in [(&bra, &request.bra_text), (&ket, &request.ket_text)] {
-                if s.is_empty() {
-                    return Err(Error::at(ErrorKind::EmptyState { name: label.clone() }, &request.span));
-                }
-            }
+            closed_set = check_finest(program, request, &bra, &ket)?;
         }
-        let closed: Vec<RestrictedSum> = bra
-            .keys()
-            .chain(ket.keys())
-            .next()
-            .map(|d| {
-                d.closed
-                    .iter()
-                    .map(|&s| RestrictedSum { space: s, excluded: case.extracted(s).to_vec() })
-                    .collect()
-            })
-            .unwrap_or_default();
-        let universe = Universe::new(bra.keys().chain(ket.keys()))
-            .map_err(|e| Error { span: Some(request.span.clone()), ..e })?;
-        let with_span = |e: Error| Error { span: Some(request.span.clone()), ..e };
-        let bra_bits = BitState::new(&bra, &universe).map_err(with_span)?;
-        let ket_bits = if request.bra == request.ket {
-            None
-        } else {
-            Some(BitState::new(&ket, &universe).map_err(with_span)?)
-        };
-        let ket_bits = ket_bits.as_ref().unwrap_or(&bra_bits);
-        let s = Expr::constant(slater_condon::overlap(&bra_bits, ket_bits));
-        let vanishes = |notes: &mut Vec<String>| {
-            notes.push(format!(
-                "the state vanishes when {}; the expression does not apply there",
-                case_text(program, case)
-            ));
-        };
-        let zero_norm = || Error::at(ErrorKind::ZeroNorm { state: request.bra_text.clone() }, &request.span);
-        // the value, the overlap and (for spin requests) <S_z> of this case
-        let channels: [Option<Expr>; 3] = match request.kind {
-            RequestKind::Overlap => [Some(s.clone()), Some(s), None],
-            RequestKind::Element => {
-                [Some(slater_condon::hamiltonian(&bra_bits, ket_bits, &universe, &closed)), Some(s), None]
-            }
-            RequestKind::Energy => match slater_condon::overlap(&bra_bits, &bra_bits).inverse() {
-                Some(inverse) => [
-                    Some(
-                        slater_condon::hamiltonian(&bra_bits, &bra_bits, &universe, &closed).scaled(&inverse),
-                    ),
-                    Some(s),
-                    None,
-                ],
-                None if finest => return Err(zero_norm()),
-                None => {
-                    vanishes(&mut notes);
-                    [None, Some(s), None]
-                }
-            },
-            RequestKind::Spin => match spin_values(&bra) {
-                Some(v) => {
-                    if !v.eigen_s || !v.eigen_m {
-                        let which = match (v.eigen_s, v.eigen_m) {
-                            (false, false) => "S² or S_z",
-                            (false, true) => "S²",
-                            _ => "S_z",
-                        };
-                        let place = if finest {
-                            String::new()
-                        } else {
-                            format!(" when {}", case_text(program, case))
-                        };
-                        notes.push(format!(
-                            "warning: `{}` is not an eigenfunction of {which}{place}: <S^2> = {}, <S_z> = {}",
-                            request.bra_text, v.s_squared, v.s_z
-                        ));
-                    }
-                    [Some(Expr::constant(v.s_squared)), Some(s), Some(Expr::constant(v.s_z))]
-                }
-                None if finest => return Err(zero_norm()),
-                None => {
-                    vanishes(&mut notes);
-                    [None, Some(s), None]
-                }
-            },
-        };
-        // Möbius inversion over the coincidence lattice: what this case adds to the finer ones
-        let own: Vec<Expr> = (0..3)
-            .map(|c| {
-                let finer = parts
-                    .iter()
-                    .filter(|(other, _)| other.refines(case))
-                    .fold(Expr::zero(), |acc, (_, own)| acc.plus(&own[c].substitute(&|x| case.orb(x))));
-                channels[c].as_ref().map_or(Expr::zero(), |v| v.minus(&finer))
-            })
-            .collect();
-        parts.push((case.clone(), own));
+        let empty =
+            [(&bra, &request.bra_text), (&ket, &request.ket_text)].into_iter().find(|(s, _)| s.is_empty());
+        if let Some((_, label)) = empty.filter(|_| !finest) {
+            vanishing.push(VanishingCase { equal: equal_blocks(case), state: label.clone() });
+        }
+        let channels = case_channels(program, request, case, finest, (&bra, &ket), &mut notes)?;
+        mobius.add(case, channels);
     }
-    let assembled: Vec<Expr> = (0..3)
-        .map(|c| {
-            parts.iter().fold(Expr::zero(), |acc, (case, own)| acc.plus(&own[c].with_deltas(&case.deltas())))
-        })
-        .collect();
-    let [mut value, mut overlap_expr, s_z] = <[Expr; 3]>::try_from(assembled).expect("three channels");
+    let [mut value, mut overlap_expr, s_z] = mobius.assemble();
     if options.fock {
         value = fock_form(&value, closed_set);
     }
@@ -380,6 +473,7 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         overlap: overlap_expr,
         s_z,
         notes,
+        vanishing,
         free_indices: all_indices.into_iter().collect(),
         closed: closed_set,
         distinct: options.distinct,

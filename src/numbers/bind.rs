@@ -1,49 +1,99 @@
 //! Binding input symbols to the orbitals of an integral file: `a=6`, `core=1-5`,
-//! `core=1,2,4`, `i=3`; checked for gaps, overlaps and numbers beyond the file's orbitals.
+//! `core=1,2,4`, `core=none`, `i=3`; checked for gaps, overlaps and numbers beyond the file.
 
+use crate::engine::exact::Exact;
 use crate::error::{Error, ErrorKind, Result};
-use crate::language::program::{Program, Request, Symbols};
+use crate::language::program::{Occupant, Program, Request, State, Symbols};
 use crate::numbers::evaluate::Binding;
+use std::borrow::Cow;
 use std::collections::{BTreeMap, BTreeSet};
 
 fn fail(why: String) -> Error {
     Error::new(ErrorKind::Binding { why })
 }
 
-/// `1-5,7` → [1, 2, 3, 4, 5, 7] (1-based, as written).
-fn parse_set(name: &str, spec: &str) -> Result<Vec<usize>> {
-    let mut out = vec![];
+/// The spelling of an empty set of orbitals: a space bound to no orbitals.
+pub const NO_ORBITALS: &str = "none";
+
+/// `1-5,7` → [1, 2, 3, 4, 5, 7] (1-based, as written); `none` → []. Every number is checked
+/// against the file's `norb` orbitals before a range is expanded.
+fn parse_set(name: &str, spec: &str, norb: usize) -> Result<Vec<usize>> {
+    if spec == NO_ORBITALS {
+        return Ok(vec![]);
+    }
+    let wrong = |why: String| fail(format!("in --bind {name}={spec}: {why}"));
+    // a 1-based orbital number; None when it is too large for any file
+    let number = |t: &str| -> Result<Option<usize>> {
+        let t = t.trim();
+        if t.is_empty() {
+            return Err(wrong("an orbital number (1-based) is missing".into()));
+        }
+        if !t.bytes().all(|b| b.is_ascii_digit()) || t.bytes().all(|b| b == b'0') {
+            return Err(wrong(format!("`{t}` is not an orbital number (1-based)")));
+        }
+        Ok(t.parse::<usize>().ok())
+    };
+    let mut out = BTreeSet::new();
     for piece in spec.split(',') {
-        let number = |t: &str| {
-            t.trim().parse::<usize>().ok().filter(|&n| n > 0).ok_or_else(|| {
-                if t.trim().is_empty() {
-                    fail(format!("in --bind {name}={spec}: an orbital number (1-based) is missing"))
-                } else {
-                    fail(format!("in --bind {name}={spec}: `{t}` is not an orbital number (1-based)"))
-                }
-            })
+        let (from, to) = piece.split_once('-').unwrap_or((piece, piece));
+        let (first, last) = (number(from)?, number(to)?);
+        if let (Some(a), Some(b)) = (first, last)
+            && a > b
+        {
+            return Err(wrong(format!("the range {a}-{b} runs backwards")));
+        }
+        let (first, last) = match (first, last) {
+            (Some(a), Some(b)) if b <= norb => (a, b),
+            // name the first orbital past the file
+            (Some(a), _) if a <= norb => return Err(wrong(beyond(&(norb + 1).to_string(), norb))),
+            _ => return Err(wrong(beyond(from.trim(), norb))),
         };
-        match piece.split_once('-') {
-            Some((a, b)) => {
-                let (a, b) = (number(a)?, number(b)?);
-                if a > b {
-                    return Err(fail(format!("in --bind {name}={spec}: the range {a}-{b} runs backwards")));
-                }
-                out.extend(a..=b);
+        for n in first..=last {
+            if !out.insert(n) {
+                return Err(wrong(format!("orbital {n} is listed twice")));
             }
-            None => out.push(number(piece)?),
         }
     }
-    Ok(out)
+    Ok(out.into_iter().collect())
+}
+
+fn beyond(orbital: &str, norb: usize) -> String {
+    format!("orbital {orbital} is beyond the {norb} orbitals of the integral file")
+}
+
+/// A state as its determinants are written; a coupled state too large to expand stands as its
+/// reference determinant, which mentions the same symbols and holds as many electrons.
+fn written(state: &State) -> Cow<'_, State> {
+    match &state.coupling {
+        Some(coupling) if state.is_unexpanded() => {
+            Cow::Owned(State::new(vec![(Exact::one(), coupling.reference.clone())]))
+        }
+        _ => Cow::Borrowed(state),
+    }
 }
 
 /// The orbitals, spaces (closed ones and those of generic indices) and generic indices that a
 /// request's states mention.
 pub fn symbols_of(program: &Program, request: &Request) -> (BTreeSet<u32>, BTreeSet<u32>, BTreeSet<u32>) {
-    let symbols = Symbols::of([&request.bra, &request.ket]);
+    let (bra, ket) = (written(&request.bra), written(&request.ket));
+    let symbols = Symbols::of([bra.as_ref(), ket.as_ref()]);
     let mut spaces = symbols.closed;
     spaces.extend(symbols.indices.iter().map(|&k| program.indices[k as usize].space));
     (symbols.orbitals, spaces, symbols.indices)
+}
+
+/// The number of electrons of a request's states under a binding: one per explicit electron
+/// and two per member of each closed space.
+pub fn electrons(request: &Request, binding: &Binding) -> usize {
+    written(&request.bra).terms.first().map_or(0, |(_, det)| {
+        det.occupants
+            .iter()
+            .map(|o| match *o {
+                Occupant::Electron(_) => 1,
+                Occupant::Closed(s) => 2 * binding.spaces[s as usize].len(),
+            })
+            .sum()
+    })
 }
 
 /// Parsed `--bind` options, by name, 1-based.
@@ -67,18 +117,18 @@ impl Bindings {
                     "--bind {option}: `{name}` is not an orbital, space or generic index of the input"
                 )));
             }
-            let set = parse_set(name, spec)?;
             let is_space = program.spaces.iter().any(|s| s.name == name);
-            if !is_space && set.len() != 1 {
+            if !is_space && (spec == NO_ORBITALS || spec.contains([',', '-'])) {
                 return Err(fail(format!(
                     "--bind {option}: `{name}` is one orbital, so it takes one number"
                 )));
             }
-            if let Some(&beyond) = set.iter().find(|&&n| n > norb) {
+            if is_space && spec.is_empty() {
                 return Err(fail(format!(
-                    "--bind {option}: orbital {beyond} is beyond the {norb} orbitals of the integral file"
+                    "--bind {option}: no orbitals are given; a space bound to no orbitals is written {name}={NO_ORBITALS}"
                 )));
             }
+            let set = parse_set(name, spec, norb)?;
             if specs.insert(name.to_string(), set).is_some() {
                 return Err(fail(format!(
                     "--bind {option}: `{name}` is bound twice; give each name one --bind"

@@ -1,7 +1,8 @@
 //! Numbers: integral tables and the integral-dump reader, `--bind` bindings of input symbols
-//! to orbitals, and the evaluation of derived expressions with them.
+//! to orbitals, and the evaluation of derived expressions with them, row by row.
 
 pub mod bind;
 pub mod evaluate;
 pub mod fcidump;
 pub mod integrals;
+pub mod tabulate;

@@ -48,36 +48,130 @@ impl PartialEq for Span {
     }
 }
 
+/// The statements of the input language, as the help after a syntax error lists them.
+pub const STATEMENTS: &str =
+    "`orbitals`, `space`, `det`, `state`, `csf`, `csfs`, `energy`, `element`, `overlap`, `spin`";
+
 /// What went wrong. Each kind carries the names it is about; `Error` adds the place.
 #[derive(Clone, Debug, PartialEq)]
 pub enum ErrorKind {
-    Syntax { expected: String },
-    Undefined { name: String },
-    WrongKind { name: String, is: String, wanted: String },
-    Redefined { name: String, first: Option<Span> },
-    Pauli { spin_orbital: String },
-    SpaceNotDoubled { space: String },
-    SpaceInExcitation { space: String },
-    ExcitationLengths { from: usize, to: usize },
-    NotExciting { spin_orbital: String, det: String },
-    NotADeterminant { name: String },
-    BadCoefficient { why: String },
+    Syntax {
+        expected: String,
+    },
+    Undefined {
+        name: String,
+    },
+    WrongKind {
+        name: String,
+        is: String,
+        wanted: String,
+    },
+    Redefined {
+        name: String,
+        first: Option<Span>,
+    },
+    /// An option of a `csf` line given a second time.
+    RepeatedOption {
+        option: String,
+        first: Span,
+    },
+    Pauli {
+        spin_orbital: String,
+    },
+    SpaceNotDoubled {
+        space: String,
+    },
+    SpaceInExcitation {
+        space: String,
+    },
+    ExcitationLengths {
+        from: usize,
+        to: usize,
+    },
+    NotExciting {
+        spin_orbital: String,
+        det: String,
+    },
+    NotADeterminant {
+        name: String,
+    },
+    BadCoefficient {
+        why: String,
+    },
     NumberAlone,
     StateTimesState,
     DivisionByState,
     DivisionByZero,
-    EmptyState { name: String },
-    ZeroNorm { state: String },
-    ElectronCount { bra: usize, ket: usize },
-    ClosedSpaces { bra: String, ket: String },
-    RequestArity { kind: String, wanted: usize, got: usize },
-    TooLarge { what: String, limit: usize },
-    Coupling { why: String },
-    Io { path: String, why: String },
-    IntegralFile { path: String, line: usize, why: String },
-    Binding { why: String },
-    Usage { why: String },
-    VerificationFailed { request: String, report: String },
+    EmptyState {
+        name: String,
+    },
+    ZeroNorm {
+        state: String,
+    },
+    ElectronCount {
+        bra: usize,
+        ket: usize,
+    },
+    ClosedSpaces {
+        bra: String,
+        ket: String,
+    },
+    RequestArity {
+        kind: String,
+        wanted: usize,
+        got: usize,
+    },
+    /// `what` (a phrase ending in a verb, e.g. "`X` spans") has `count` of the limit's unit.
+    TooLarge {
+        what: String,
+        count: String,
+        limit: Limit,
+    },
+    /// A square root sqrt(p/q) whose p·q is `product`, past what exact coefficients hold.
+    RootTooLarge {
+        product: String,
+    },
+    Coupling {
+        why: String,
+    },
+    Io {
+        path: String,
+        why: String,
+    },
+    IntegralFile {
+        path: String,
+        line: usize,
+        why: String,
+    },
+    Binding {
+        why: String,
+    },
+    Usage {
+        why: String,
+    },
+    VerificationFailed {
+        request: String,
+        report: String,
+    },
+}
+
+/// A bound that keeps a run within time and memory: its value, what it counts, and either the
+/// option that changes it or, for a fixed bound, why it is there.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Limit {
+    pub value: u128,
+    /// What the limit counts, in the plural ("determinants", "coincidence cases").
+    pub unit: &'static str,
+    pub change: Change,
+}
+
+/// How a limit can be changed.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Change {
+    /// The command-line option that sets it, and another way around it if there is one.
+    Option { option: &'static str, or: Option<&'static str> },
+    /// No option changes it; the reason it is fixed.
+    Fixed(String),
 }
 
 /// An error with its place in the input, when it has one.
@@ -116,6 +210,7 @@ impl Error {
                 format!("`{name}` is {is}, but {wanted} is needed here")
             }
             Redefined { name, .. } => format!("`{name}` is defined twice"),
+            RepeatedOption { option, .. } => format!("`{option}=` is given twice in this csf"),
             Pauli { spin_orbital } => match spin_orbital.strip_suffix("^2") {
                 Some(space) => format!(
                     "the space `{space}` is closed twice in this determinant: each of its orbitals would hold four electrons (Pauli principle)"
@@ -165,7 +260,15 @@ impl Error {
                     if *got == 1 { "is" } else { "are" }
                 )
             }
-            TooLarge { what, limit } => format!("{what} exceeds the limit of {limit}"),
+            TooLarge { what, count, limit } => {
+                format!(
+                    "{what} {count} {}, which exceeds the limit of {} {}",
+                    limit.unit, limit.value, limit.unit
+                )
+            }
+            RootTooLarge { product } => format!(
+                "this coefficient is not exact: the square root sqrt(p/q) has p·q = {product}, which exceeds the limit of 2^32 - 1 = 4294967295 for p·q"
+            ),
             Coupling { why } => format!("this spin coupling cannot be built: {why}"),
             Io { path, why } => format!("cannot use `{path}`: {why}"),
             IntegralFile { path, line, why } => format!("{path}:{line}: {why}"),
@@ -181,10 +284,13 @@ impl Error {
     pub fn help(&self) -> Option<String> {
         use ErrorKind::*;
         Some(match &self.kind {
-            Syntax { .. } => "see the input language in README.md; statements are `orbitals`, `space`, `det`, `state`, `energy`, `element`, `overlap`".into(),
-            Undefined { .. } => "declare it first with `orbitals`, `space`, `det` or `state`".into(),
+            Syntax { .. } => format!("see the input language in README.md; statements are {STATEMENTS}"),
+            Undefined { .. } => {
+                "declare it first with `orbitals`, `space`, `det`, `state`, `csf` or `csfs`".into()
+            }
             WrongKind { .. } => "check which name was meant".into(),
             Redefined { .. } => "give each orbital, space, index, determinant and state its own name".into(),
+            RepeatedOption { option, .. } => format!("keep one `{option}=`: each of `S=`, `M=` and `path=` is given at most once"),
             Pauli { spin_orbital } => match spin_orbital.strip_suffix("^2") {
                 Some(space) => format!("write `{space}^2` once"),
                 None => "remove one of the two, or put the electron in another orbital or spin".into(),
@@ -200,9 +306,19 @@ impl Error {
             EmptyState { .. } | ZeroNorm { .. } => "check the signs and coefficients of the combination".into(),
             ElectronCount { .. } => "the Hamiltonian conserves the number of electrons: every determinant of the bra and the ket must have the same count".into(),
             ClosedSpaces { .. } => "write the same closed spaces in every determinant of the bra and the ket; their sizes are unknown".into(),
-            RequestArity { .. } => "write `energy X`, `element X Y` or `overlap X Y`".into(),
+            RequestArity { .. } => "write `energy X`, `spin X`, `element X Y` or `overlap X Y`".into(),
             Coupling { .. } => "write `csf X = | core^2 p q r | S=1/2 path=1/2,0,1/2`: the intermediate spin after each open shell, ending at S".into(),
-            TooLarge { .. } => "raise the limit with --max-determinants if the machine has the memory".into(),
+            TooLarge { limit, .. } => match &limit.change {
+                Change::Option { option, or } => {
+                    let raise = format!("raise the limit with `{option} N` if the machine has the memory and time for it");
+                    match or {
+                        Some(other) => format!("{raise}, or use {other}"),
+                        None => raise,
+                    }
+                }
+                Change::Fixed(why) => format!("no option changes this limit: {why}"),
+            },
+            RootTooLarge { .. } => "no option changes this limit: the radicand of an exact coefficient is a 64-bit integer, and the product of two such roots must still fit; take square factors out of the root (sqrt(40000000000) is 200000)".into(),
             IntegralFile { .. } => "the integral file must be in the integral-dump text format described in README.md".into(),
             _ => return None,
         })
@@ -221,8 +337,14 @@ impl Error {
         let file = SimpleFile::new(span.source.name.as_str(), span.source.text.as_str());
         let (line, column) = span.source.line_column(span.range.start);
         let mut labels = vec![Label::primary((), span.range.clone()).with_message(self.label())];
-        if let ErrorKind::Redefined { first: Some(first), .. } = &self.kind {
-            labels.push(Label::secondary((), first.range.clone()).with_message("first defined here"));
+        match &self.kind {
+            ErrorKind::Redefined { first: Some(first), .. } => {
+                labels.push(Label::secondary((), first.range.clone()).with_message("first defined here"));
+            }
+            ErrorKind::RepeatedOption { first, .. } => {
+                labels.push(Label::secondary((), first.range.clone()).with_message("first given here"));
+            }
+            _ => {}
         }
         let mut diagnostic = Diagnostic::error()
             .with_message(format!("{}:{}:{}: {}", span.source.name, line, column, self.message()))
@@ -240,6 +362,7 @@ impl Error {
         match &self.kind {
             ErrorKind::Syntax { .. } => "here".into(),
             ErrorKind::Redefined { .. } => "defined again here".into(),
+            ErrorKind::RepeatedOption { .. } => "given again here".into(),
             _ => "here".into(),
         }
     }

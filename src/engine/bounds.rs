@@ -64,11 +64,11 @@ pub fn check(program: &Program, request: &Request, options: &Options) -> Result<
     if cases > options.max_cases.into() {
         return Err(Error::at(
             ErrorKind::TooLarge {
-                what: format!("`{}` needs", request.text),
+                what: format!("the generic indices of `{}` coincide in", request.text),
                 count: cases.to_string(),
                 limit: Limit {
                     value: options.max_cases as u128,
-                    unit: "coincidence cases (ways its generic indices can coincide)",
+                    unit: "cases",
                     change: Change::Option {
                         option: "--max-cases",
                         or: Some(

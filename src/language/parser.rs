@@ -4,7 +4,7 @@
 use crate::engine::coupling::{Twice, determinant_count, expanded, half, path_count, path_problem, paths};
 use crate::engine::derive::check_definition;
 use crate::engine::exact::Exact;
-use crate::error::{Change, Error, ErrorKind, Limit, Result, Source, Span};
+use crate::error::{Change, Error, ErrorKind, Limit, Result, STATEMENTS, Source, Span};
 use crate::language::orbital::{Orb, Spin, SpinOrbital};
 use crate::language::program::{
     Coupling, DetSpec, Excitation, Index, NamedState, Occupant, Orbital, Program, Request, RequestKind,
@@ -75,8 +75,8 @@ pub fn parse_with(name: &str, text: &str, limits: Limits) -> Result<Program> {
     Ok(resolver.program)
 }
 
-fn describe(rule: &Rule) -> &'static str {
-    match rule {
+fn describe(rule: &Rule) -> String {
+    let words = match rule {
         Rule::name => "a name",
         Rule::number => "a number",
         Rule::sum | Rule::product | Rule::unit => "a state or coefficient",
@@ -96,9 +96,10 @@ fn describe(rule: &Rule) -> &'static str {
         | Rule::kw_det
         | Rule::kw_state
         | Rule::kw_csf
-        | Rule::request_kind => "a statement",
+        | Rule::request_kind => return format!("a statement ({STATEMENTS})"),
         _ => "something else",
-    }
+    };
+    words.to_string()
 }
 
 fn syntax_error(source: &Arc<Source>, error: pest::error::Error<Rule>) -> Error {
@@ -113,7 +114,7 @@ fn syntax_error(source: &Arc<Source>, error: pest::error::Error<Rule>) -> Error 
     let expected = match &error.variant {
         _ if unclosed => "the closing `|` of the determinant".to_string(),
         pest::error::ErrorVariant::ParsingError { positives, .. } => {
-            let mut words: Vec<&str> = positives.iter().map(describe).collect();
+            let mut words: Vec<String> = positives.iter().map(describe).collect();
             words.sort();
             words.dedup();
             if words.is_empty() { "a statement".to_string() } else { words.join(" or ") }
@@ -400,8 +401,6 @@ impl Resolver {
         let options = self.csf_options(inner, family)?;
         let written = self.inline_det(det)?.terms[0].1.clone();
         let open = self.open_shells(&written, &det_span)?;
-        let single = State::new(vec![(Exact::one(), written.clone())]);
-        check_definition(&self.program, &single, name.as_str(), &det_span)?;
         let n = open.len();
         let (s, m) = total_spin(&options, n, &span)?;
         let determinants = determinant_count(n, m);
@@ -411,6 +410,9 @@ impl Resolver {
             return Err(self.family_too_large(n, &determinants, &span));
         }
         let chosen = self.coupling_paths(options.path, family, n, s, &span)?;
+        // the written determinant must exist, as a `det` must: Pauli, closed spaces, size
+        let single = State::new(vec![(Exact::one(), written.clone())]);
+        check_definition(&self.program, &single, name.as_str(), &det_span)?;
         let reference = DetSpec {
             occupants: written
                 .occupants

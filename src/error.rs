@@ -125,7 +125,7 @@ pub enum ErrorKind {
     TooLarge {
         what: String,
         count: String,
-        limit: Limit,
+        limit: Box<Limit>,
     },
     /// A square root sqrt(p/q) whose p·q is `product`, past what exact coefficients hold.
     RootTooLarge {

@@ -27,20 +27,20 @@ pub fn check(program: &Program, request: &Request, options: &Options) -> Result<
                 ErrorKind::TooLarge {
                     what: format!("`{label}` has"),
                     count: n.to_string(),
-                    limit: Limit {
+                    limit: Box::new(Limit {
                         value: MAX_EXPANDED_SHELLS as u128,
                         unit: "open shells",
                         change: Change::Fixed(format!(
                             "{without} {} determinants; past {MAX_EXPANDED_SHELLS} open shells their exact coefficients outgrow 64-bit integers",
                             coupling.determinants
                         )),
-                    },
+                    }),
                 }
             } else {
                 ErrorKind::TooLarge {
                     what: without,
                     count: coupling.determinants.to_string(),
-                    limit: determinants.clone(),
+                    limit: Box::new(determinants.clone()),
                 }
             };
             return Err(Error::at(kind, &request.span));
@@ -50,7 +50,7 @@ pub fn check(program: &Program, request: &Request, options: &Options) -> Result<
                 ErrorKind::TooLarge {
                     what: format!("`{label}` has"),
                     count: state.terms.len().to_string(),
-                    limit: determinants.clone(),
+                    limit: Box::new(determinants.clone()),
                 },
                 &request.span,
             ));
@@ -66,7 +66,7 @@ pub fn check(program: &Program, request: &Request, options: &Options) -> Result<
             ErrorKind::TooLarge {
                 what: format!("the generic indices of `{}` coincide in", request.text),
                 count: cases.to_string(),
-                limit: Limit {
+                limit: Box::new(Limit {
                     value: options.max_cases as u128,
                     unit: "cases",
                     change: Change::Option {
@@ -75,7 +75,7 @@ pub fn check(program: &Program, request: &Request, options: &Options) -> Result<
                             "--distinct, which takes different generic indices as different orbitals, needs one case",
                         ),
                     },
-                },
+                }),
             },
             &request.span,
         ));

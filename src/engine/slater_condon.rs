@@ -32,13 +32,13 @@ impl Universe {
             return Err(Error::new(ErrorKind::TooLarge {
                 what: "this request occupies".into(),
                 count: orbs.len().to_string(),
-                limit: Limit {
+                limit: Box::new(Limit {
                     value: 64,
                     unit: "explicit orbitals",
                     change: Change::Fixed(
                         "a determinant is held as a 128-bit string, two bits per orbital".into(),
                     ),
-                },
+                }),
             }));
         }
         Ok(Universe { orbs })
@@ -92,13 +92,13 @@ impl BitState {
                     Error::new(ErrorKind::TooLarge {
                         what: "a coefficient, over the common denominator of the state, has a numerator of".into(),
                         count: numerator.bits().to_string(),
-                        limit: Limit {
+                        limit: Box::new(Limit {
                             value: 127,
                             unit: "bits",
                             change: Change::Fixed(
                                 "the Slater–Condon sums run in 128-bit integers; coefficients with fewer different denominators keep the numerators small".into(),
                             ),
-                        },
+                        }),
                     })
                 })?;
                 entries.push(Entry { bits, a, r });

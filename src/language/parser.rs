@@ -188,13 +188,13 @@ fn check_nesting(source: &Arc<Source>) -> Result<()> {
                         ErrorKind::TooLarge {
                             what: "this parenthesis opens".into(),
                             count: depth.to_string(),
-                            limit: Limit {
+                            limit: Box::new(Limit {
                                 value: MAX_NESTING as u128,
                                 unit: "nested levels",
                                 change: Change::Fixed(
                                     "the parser descends once per level and must stay within its stack; define the inner part as a `state` of its own, or multiply out the numbers".into(),
                                 ),
-                            },
+                            }),
                         },
                         &span,
                     ));
@@ -563,11 +563,11 @@ impl Resolver {
                 ErrorKind::TooLarge {
                     what: format!("{n} open shells coupled to S = {} make", half(s)),
                     count: count.to_string(),
-                    limit: Limit {
+                    limit: Box::new(Limit {
                         value: self.limits.max_paths as u128,
                         unit: "coupled states",
                         change: Change::Option { option: "--max-paths", or: None },
-                    },
+                    }),
                 },
                 span,
             ));
@@ -582,23 +582,23 @@ impl Resolver {
             ErrorKind::TooLarge {
                 what: "each coupled state of this family has".into(),
                 count: n.to_string(),
-                limit: Limit {
+                limit: Box::new(Limit {
                     value: MAX_EXPANDED_SHELLS as u128,
                     unit: "open shells",
                     change: Change::Fixed(
                         "past it the exact coefficients' square roots outgrow 64-bit integers; a single `csf` with `path=` is kept unexpanded, and its energy and spin come from spin algebra".into(),
                     ),
-                },
+                }),
             }
         } else {
             ErrorKind::TooLarge {
                 what: "each coupled state of this family spans".into(),
                 count: determinants.to_string(),
-                limit: Limit {
+                limit: Box::new(Limit {
                     value: self.limits.max_determinants as u128,
                     unit: "determinants",
                     change: Change::Option { option: "--max-determinants", or: None },
-                },
+                }),
             }
         };
         Error::at(kind, span)

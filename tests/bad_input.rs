@@ -526,7 +526,7 @@ fn parentheses_nested_too_deep_are_refused_before_parsing() {
         ")".repeat(1800)
     );
     let run = derive("deep.spinfold", &input);
-    assert_reported(&run, "deep.spinfold", &input, at(3, 11 + 64, "("), &["65 nested levels", "limit of 64"]);
+    assert_reported(&run, "deep.spinfold", &input, at(3, 11 + 32, "("), &["33 nested levels", "limit of 32"]);
     assert!(run.stderr.contains("`state`"), "says how to avoid the nesting:\n{}", run.stderr);
 }
 
@@ -534,7 +534,7 @@ fn parentheses_nested_too_deep_are_refused_before_parsing() {
 fn square_roots_nested_too_deep_are_refused_before_parsing() {
     let input = format!("orbitals a b\nstate S = {}1{} | a b |\n", "sqrt(".repeat(3000), ")".repeat(3000));
     let run = derive("roots.spinfold", &input);
-    assert_reported(&run, "roots.spinfold", &input, at(2, 11 + 5 * 64 + 4, "("), &["limit of 64"]);
+    assert_reported(&run, "roots.spinfold", &input, at(2, 11 + 5 * 32 + 4, "("), &["limit of 32"]);
 }
 
 #[test]

@@ -142,7 +142,7 @@ pub const MAX_EXPANDED_SHELLS: usize = 24;
 
 /// The deepest nesting of parentheses (and `sqrt(`) in one line. The parser and the resolver
 /// descend once per level; this keeps both far inside the stack of any thread, debug build or not.
-pub const MAX_NESTING: usize = 64;
+pub const MAX_NESTING: usize = 32;
 
 /// Limits that keep a run within memory.
 #[derive(Clone, Copy, Debug)]

@@ -38,6 +38,21 @@ fn two_open_shells_from_csfs_equal_the_hand_built_states() {
     assert_ne!(v[0], v[2]);
 }
 
+#[test]
+fn a_doubly_occupied_orbital_in_a_csf_stays_doubly_occupied() {
+    // the open shells b, c couple to a singlet over a^2: the hand-built singlet pair over a^2
+    let input = "orbitals a b c\nspace core\ncsf X = | core^2 a^2 b c | S=0\n\
+                 state Y = (| core^2 a^2 b c' | - | core^2 a^2 b' c |)/sqrt(2)\nenergy X\nenergy Y\n";
+    let program = parse("double.spinfold", input).unwrap();
+    assert_eq!(program.states[0].state.terms.len(), 2);
+    let energy = |k: usize, route| {
+        derive(&program, &program.requests[k], &Options { route, ..Options::default() }).unwrap().value
+    };
+    let hand_built = energy(1, spinfold::Route::Auto);
+    assert_eq!(energy(0, spinfold::Route::Determinants), hand_built);
+    assert_eq!(energy(0, spinfold::Route::SpinAlgebra), hand_built);
+}
+
 const THREE: &str = "orbitals p q r\nspace core\n\
     csf D1 = | core^2 p q r | S=1/2 path=1/2,0,1/2\n\
     csf D2 = | core^2 p q r | S=1/2 path=1/2,1,1/2\n\

@@ -67,8 +67,8 @@ pub fn parse_with(name: &str, text: &str, limits: Limits) -> Result<Program> {
         resolver.statement(statement)?;
     }
     if limits.expand_unused {
-        for k in std::mem::take(&mut resolver.deferred) {
-            resolver.deferred.insert(k);
+        let deferred: Vec<u32> = resolver.deferred.iter().copied().collect();
+        for k in deferred {
             resolver.expand(k);
         }
     }
@@ -413,17 +413,9 @@ impl Resolver {
         // the written determinant must exist, as a `det` must: Pauli, closed spaces, size
         let single = State::new(vec![(Exact::one(), written.clone())]);
         check_definition(&self.program, &single, name.as_str(), &det_span)?;
-        let reference = DetSpec {
-            occupants: written
-                .occupants
-                .iter()
-                .map(|o| match *o {
-                    Occupant::Electron(so) => Occupant::Electron(SpinOrbital::new(so.orb, Spin::Alpha)),
-                    closed => closed,
-                })
-                .collect(),
-            excitations: vec![],
-        };
+        // open shells carry no spin mark, so the determinant as written has them all alpha;
+        // doubly occupied orbitals keep their two spins
+        let reference = written.clone();
         let orbs: Vec<Orb> = open
             .iter()
             .map(|&k| match written.occupants[k] {

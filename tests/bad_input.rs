@@ -144,6 +144,14 @@ fn misspelt_keyword_is_a_parse_error() {
 }
 
 #[test]
+fn misspelt_keyword_on_the_first_line_is_a_parse_error() {
+    let input = "orbital a b\ndet D = | a b |\n";
+    let run = derive("first.spinfold", input);
+    assert_reported(&run, "first.spinfold", input, at(1, 1, "o"), &["expected a statement", "`orbitals`"]);
+    assert!(!run.stderr.contains("something else"), "{}", run.stderr);
+}
+
+#[test]
 fn missing_bar_is_a_parse_error() {
     let input = "orbitals a b\ndet D = | a b\nenergy D\n";
     let run = derive("bar.spinfold", input);

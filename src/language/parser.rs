@@ -91,7 +91,9 @@ fn describe(rule: &Rule) -> String {
         Rule::reference => "a state name",
         Rule::csf_option | Rule::option_name => "`S=`, `M=` or `path=`",
         Rule::spin_value => "a spin such as 1/2",
-        Rule::kw_orbitals
+        // `file` is what pest names when the first line does not start a statement
+        Rule::file
+        | Rule::kw_orbitals
         | Rule::kw_space
         | Rule::kw_det
         | Rule::kw_state

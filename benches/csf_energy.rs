@@ -33,8 +33,9 @@ fn peak_memory_kib() -> Option<u64> {
 /// In the child: derive and verify once, print "seconds peak_kib determinants terms".
 fn child(n: usize) {
     let start = Instant::now();
-    let program = parse_with("bench.spinfold", &input(n), Limits { max_determinants: 1_000_000 })
-        .expect("the input parses");
+    let program =
+        parse_with("bench.spinfold", &input(n), Limits { max_determinants: 1_000_000, ..Limits::default() })
+            .expect("the input parses");
     let options = Options { max_determinants: 1_000_000, ..Options::default() };
     let derived =
         derive_checked(&program, &options, Some(DEFAULT_SEED)).expect("derivation and verification pass");

@@ -52,6 +52,10 @@ impl PartialEq for Span {
     }
 }
 
+/// The statements of the input language, as the help after a syntax error lists them.
+pub const STATEMENTS: &str =
+    "`orbitals`, `space`, `det`, `state`, `csf`, `csfs`, `energy`, `element`, `overlap`, `spin`";
+
 /// What went wrong. Each kind carries the names it is about; `Error` adds the place.
 #[derive(Clone, Debug, PartialEq)]
 pub enum ErrorKind {
@@ -69,6 +73,11 @@ pub enum ErrorKind {
     Redefined {
         name: String,
         first: Option<Span>,
+    },
+    /// An option of a `csf` line given a second time.
+    RepeatedOption {
+        option: String,
+        first: Span,
     },
     Pauli {
         spin_orbital: String,
@@ -116,9 +125,15 @@ pub enum ErrorKind {
         wanted: usize,
         got: usize,
     },
+    /// `what` (a phrase ending in a verb, e.g. "`X` spans") has `count` of the limit's unit.
     TooLarge {
         what: String,
-        limit: usize,
+        count: String,
+        limit: Box<Limit>,
+    },
+    /// A square root sqrt(p/q) whose p·q is `product`, past what exact coefficients hold.
+    RootTooLarge {
+        product: String,
     },
     Coupling {
         why: String,
@@ -170,6 +185,25 @@ pub enum ErrorKind {
     },
 }
 
+/// A bound that keeps a run within time and memory: its value, what it counts, and either the
+/// option that changes it or, for a fixed bound, why it is there.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Limit {
+    pub value: u128,
+    /// What the limit counts, in the plural ("determinants", "coincidence cases").
+    pub unit: &'static str,
+    pub change: Change,
+}
+
+/// How a limit can be changed.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Change {
+    /// The command-line option that sets it, and another way around it if there is one.
+    Option { option: &'static str, or: Option<&'static str> },
+    /// No option changes it; the reason it is fixed.
+    Fixed(String),
+}
+
 /// An error with its place in the input, when it has one.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Error {
@@ -206,6 +240,7 @@ impl Error {
                 format!("`{name}` is {is}, but {wanted} is needed here")
             }
             Redefined { name, .. } => format!("`{name}` is defined twice"),
+            RepeatedOption { option, .. } => format!("`{option}=` is given twice in this csf"),
             Pauli { spin_orbital } => match spin_orbital.strip_suffix("^2") {
                 Some(space) => format!(
                     "the space `{space}` is closed twice in this determinant: each of its orbitals would hold four electrons (Pauli principle)"
@@ -255,7 +290,15 @@ impl Error {
                     if *got == 1 { "is" } else { "are" }
                 )
             }
-            TooLarge { what, limit } => format!("{what} exceeds the limit of {limit}"),
+            TooLarge { what, count, limit } => {
+                format!(
+                    "{what} {count} {}, which exceeds the limit of {} {}",
+                    limit.unit, limit.value, limit.unit
+                )
+            }
+            RootTooLarge { product } => format!(
+                "this coefficient is not exact: the square root sqrt(p/q) has p·q = {product}, which exceeds the limit of 2^32 - 1 = 4294967295 for p·q"
+            ),
             Coupling { why } => format!("this spin coupling cannot be built: {why}"),
             Io { path, why } => format!("cannot use `{path}`: {why}"),
             NotUtf8 { byte, line, position } => format!(
@@ -283,10 +326,13 @@ impl Error {
     pub fn help(&self) -> Option<String> {
         use ErrorKind::*;
         Some(match &self.kind {
-            Syntax { .. } => "see the input language in README.md; statements are `orbitals`, `space`, `det`, `state`, `energy`, `element`, `overlap`".into(),
-            Undefined { .. } => "declare it first with `orbitals`, `space`, `det` or `state`".into(),
+            Syntax { .. } => format!("see the input language in README.md; statements are {STATEMENTS}"),
+            Undefined { .. } => {
+                "declare it first with `orbitals`, `space`, `det`, `state`, `csf` or `csfs`".into()
+            }
             WrongKind { .. } => "check which name was meant".into(),
             Redefined { .. } => "give each orbital, space, index, determinant and state its own name".into(),
+            RepeatedOption { option, .. } => format!("keep one `{option}=`: each of `S=`, `M=` and `path=` is given at most once"),
             Pauli { spin_orbital } => match spin_orbital.strip_suffix("^2") {
                 Some(space) => format!("write `{space}^2` once"),
                 None => "remove one of the two, or put the electron in another orbital or spin".into(),
@@ -302,9 +348,19 @@ impl Error {
             EmptyState { .. } | ZeroNorm { .. } => "check the signs and coefficients of the combination".into(),
             ElectronCount { .. } => "the Hamiltonian conserves the number of electrons: every determinant of the bra and the ket must have the same count".into(),
             ClosedSpaces { .. } => "write the same closed spaces in every determinant of the bra and the ket; their sizes are unknown".into(),
-            RequestArity { .. } => "write `energy X`, `element X Y` or `overlap X Y`".into(),
+            RequestArity { .. } => "write `energy X`, `spin X`, `element X Y` or `overlap X Y`".into(),
             Coupling { .. } => "write `csf X = | core^2 p q r | S=1/2 path=1/2,0,1/2`: the intermediate spin after each open shell, ending at S".into(),
-            TooLarge { .. } => "raise the limit with --max-determinants if the machine has the memory".into(),
+            TooLarge { limit, .. } => match &limit.change {
+                Change::Option { option, or } => {
+                    let raise = format!("raise the limit with `{option} N` if the machine has the memory and time for it");
+                    match or {
+                        Some(other) => format!("{raise}, or use {other}"),
+                        None => raise,
+                    }
+                }
+                Change::Fixed(why) => format!("no option changes this limit: {why}"),
+            },
+            RootTooLarge { .. } => "no option changes this limit: the radicand of an exact coefficient is a 64-bit integer, and the product of two such roots must still fit; take square factors out of the root (sqrt(40000000000) is 200000)".into(),
             NotUtf8 { .. } => "save the input as UTF-8 (names are ASCII; comments may hold any UTF-8 text)".into(),
             StateVanishes { .. } => "bind the indices to different orbitals, or leave one unbound: a table leaves out the rows where the state does not exist".into(),
             DistinctCoincide { .. } => "drop --distinct: without it the expression holds for every assignment, equal indices included".into(),
@@ -330,10 +386,15 @@ impl Error {
         let (line, column) = span.source.line_column(span.range.start);
         let header = visible(&format!("{}:{line}:{column}: {}", span.source.name, self.message()));
         let mut labels = vec![Label::primary((), shown.range(&span.range)).with_message(self.label())];
-        if let ErrorKind::Redefined { first: Some(first), .. } = &self.kind
+        let secondary = match &self.kind {
+            ErrorKind::Redefined { first: Some(first), .. } => Some((first, "first defined here")),
+            ErrorKind::RepeatedOption { first, .. } => Some((first, "first given here")),
+            _ => None,
+        };
+        if let Some((first, message)) = secondary
             && Arc::ptr_eq(&first.source, &span.source)
         {
-            labels.push(Label::secondary((), shown.range(&first.range)).with_message("first defined here"));
+            labels.push(Label::secondary((), shown.range(&first.range)).with_message(message));
         }
         let diagnostic = Diagnostic::error()
             .with_message(&header)
@@ -349,6 +410,7 @@ impl Error {
         match &self.kind {
             ErrorKind::Syntax { .. } => "here".into(),
             ErrorKind::Redefined { .. } => "defined again here".into(),
+            ErrorKind::RepeatedOption { .. } => "given again here".into(),
             _ => "here".into(),
         }
     }

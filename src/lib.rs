@@ -37,12 +37,12 @@ mod output;
 mod pipeline;
 
 pub use check::verify::{Checked, Comparison, Report, TOLERANCE, compare, verify};
-pub use engine::derive::{Derivation, Options, Route, VanishingCase, derive};
+pub use engine::derive::{Derivation, MAX_CASES, Options, Route, VanishingCase, derive};
 pub use engine::exact::Exact;
 pub use engine::expression::{Expr, Factor, IntegralKind, Term};
-pub use error::{Error, ErrorKind, Result, Source, Span};
+pub use error::{Change, Error, ErrorKind, Limit, Result, Source, Span};
 pub use language::orbital::{Orb, SpaceId, SpaceSet, Spin, SpinOrbital};
-pub use language::parser::{Limits, parse, parse_with};
+pub use language::parser::{Limits, MAX_NESTING, parse, parse_with};
 pub use language::program::{Coupling, Program, Request, RequestKind, State};
 pub use numbers::bind::Bindings;
 pub use numbers::evaluate::{Binding, evaluate};

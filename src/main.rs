@@ -3,8 +3,8 @@
 
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
-    Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, Options, Program, Result, Route,
-    Source, Span, derive_checked, eval_warnings, evaluate_all, parse_with, read_dump,
+    Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, MAX_CASES, Options, Program, Result,
+    Route, Source, Span, derive_checked, eval_warnings, evaluate_all, parse_with, read_dump,
     remove_temporaries_on_signal, render, render_each, render_states, results_json, results_text,
     write_files, write_output,
 };
@@ -51,6 +51,13 @@ struct Derivation {
     /// Largest number of determinants a state may expand to.
     #[arg(long, default_value_t = 200_000)]
     max_determinants: usize,
+    /// Most coupled states (coupling paths) one `csfs` line may define.
+    #[arg(long, default_value_t = Limits::default().max_paths)]
+    max_paths: usize,
+    /// Most coincidence cases of its generic indices one request may need (the product over
+    /// spaces of the Bell number of the indices used there; 1 with --distinct).
+    #[arg(long, default_value_t = MAX_CASES)]
+    max_cases: usize,
     /// How the energy of one coupled state is derived: auto (determinants when it can be
     /// expanded), determinants, or spin-algebra.
     #[arg(long, value_enum, default_value = "auto")]
@@ -97,6 +104,9 @@ enum Command {
         /// Largest number of determinants a state may expand to.
         #[arg(long, default_value_t = 200_000)]
         max_determinants: usize,
+        /// Most coupled states (coupling paths) one `csfs` line may define.
+        #[arg(long, default_value_t = Limits::default().max_paths)]
+        max_paths: usize,
         /// Write to this file instead of standard output.
         #[arg(short, long)]
         output: Option<String>,
@@ -154,8 +164,14 @@ fn read_input(file: &str) -> Result<(String, String)> {
 
 fn derived(common: &Derivation) -> Result<(Program, Vec<Checked>)> {
     let (name, text) = read_input(&common.file)?;
-    let program = parse_with(&name, &text, Limits { max_determinants: common.max_determinants })?;
+    let limits = Limits {
+        max_determinants: common.max_determinants,
+        max_paths: common.max_paths,
+        ..Limits::default()
+    };
+    let program = parse_with(&name, &text, limits)?;
     let options = Options {
+        max_cases: common.max_cases,
         distinct: common.distinct,
         max_determinants: common.max_determinants,
         fock: common.fock,
@@ -188,9 +204,11 @@ fn run(cli: Cli) -> Result<()> {
                 (_, output) => write_output(output.as_deref(), &render(&program, &checked, format)?),
             }
         }
-        Command::States { file, json, max_determinants, output } => {
+        Command::States { file, json, max_determinants, max_paths, output } => {
             let (name, text) = read_input(&file)?;
-            let program = parse_with(&name, &text, Limits { max_determinants })?;
+            // listing every state expands every member of a family, used or not
+            let program =
+                parse_with(&name, &text, Limits { max_determinants, max_paths, expand_unused: true })?;
             write_output(output.as_deref(), &render_states(&program, json))
         }
         Command::Eval { common, integrals, bind, json, output } => {

@@ -145,6 +145,14 @@ fn misspelt_keyword_is_a_parse_error() {
 }
 
 #[test]
+fn misspelt_keyword_on_the_first_line_is_a_parse_error() {
+    let input = "orbital a b\ndet D = | a b |\n";
+    let run = derive("first.spinfold", input);
+    assert_reported(&run, "first.spinfold", input, at(1, 1, "o"), &["expected a statement", "`orbitals`"]);
+    assert!(!run.stderr.contains("something else"), "{}", run.stderr);
+}
+
+#[test]
 fn missing_bar_is_a_parse_error() {
     let input = "orbitals a b\ndet D = | a b\nenergy D\n";
     let run = derive("bar.spinfold", input);
@@ -614,4 +622,93 @@ fn input_that_is_not_utf8_is_refused_at_its_first_bad_byte() {
     let run = derive_bytes("bom_latin1.spinfold", b"\xef\xbb\xbforbitals a\xff\n");
     assert!(run.stderr.starts_with("error: bom_latin1.spinfold:1:11: "), "{}", run.stderr);
     assert!(run.stderr.contains("byte 11 of line 1 (0xff)"), "{}", run.stderr);
+}
+
+#[test]
+fn the_help_after_a_parse_error_lists_every_statement() {
+    let input = "orbitals a b\ncfs X = | a b | S=0\n";
+    let run = derive("statements.spinfold", input);
+    assert_reported(&run, "statements.spinfold", input, at(2, 1, "c"), &["expected a statement"]);
+    for keyword in
+        ["orbitals", "space", "det", "state", "csf", "csfs", "energy", "element", "overlap", "spin"]
+    {
+        assert!(run.stderr.contains(&format!("`{keyword}`")), "{keyword}:\n{}", run.stderr);
+    }
+}
+
+#[test]
+fn parentheses_nested_too_deep_are_refused_before_parsing() {
+    // 1800 levels overflowed the parser's stack and aborted the process
+    let input = format!(
+        "orbitals a b\ndet D = | a b |\nstate S = {}D{}\nenergy S\n",
+        "(".repeat(1800),
+        ")".repeat(1800)
+    );
+    let run = derive("deep.spinfold", &input);
+    assert_reported(&run, "deep.spinfold", &input, at(3, 11 + 32, "("), &["33 nested levels", "limit of 32"]);
+    assert!(run.stderr.contains("`state`"), "says how to avoid the nesting:\n{}", run.stderr);
+}
+
+#[test]
+fn square_roots_nested_too_deep_are_refused_before_parsing() {
+    let input = format!("orbitals a b\nstate S = {}1{} | a b |\n", "sqrt(".repeat(3000), ")".repeat(3000));
+    let run = derive("roots.spinfold", &input);
+    assert_reported(&run, "roots.spinfold", &input, at(2, 11 + 5 * 32 + 4, "("), &["limit of 32"]);
+}
+
+#[test]
+fn a_parenthesis_in_a_comment_does_not_count() {
+    let input = format!("orbitals a b # {}\ndet D = | a b |\nenergy ((D))\n", "(".repeat(100));
+    let run = derive("comment.spinfold", &input);
+    assert_eq!(run.code, Some(0), "{}", run.stderr);
+}
+
+#[test]
+fn a_square_root_too_large_names_its_fixed_limit() {
+    let input = "orbitals a b\nstate X = sqrt(99999999999/7) | a b |\n";
+    let run = derive("big_root.spinfold", input);
+    assert_reported(
+        &run,
+        "big_root.spinfold",
+        input,
+        at(2, 16, "99999999999/7"),
+        &["p·q = 699999999993", "2^32"],
+    );
+    assert!(run.stderr.contains("no option changes this limit"), "{}", run.stderr);
+    assert!(!run.stderr.contains("--max"), "no option to suggest:\n{}", run.stderr);
+}
+
+#[test]
+fn an_option_given_twice_in_a_csf_is_refused_at_the_second() {
+    for (line, column, second) in [
+        ("csf X = | a b c | S=1/2 path=1/2,0,1/2 S=3/2", 40, "S=3/2"),
+        ("csf X = | a b c | S=1/2 M=1/2 M=-1/2 path=1/2,0,1/2", 31, "M=-1/2"),
+        ("csf X = | a b c | S=1/2 path=1/2,0,1/2 path=1/2,1,1/2", 40, "path=1/2,1,1/2"),
+    ] {
+        let input = format!("orbitals a b c\n{line}\nenergy X\n");
+        let run = derive("twice.spinfold", &input);
+        let option = second.split('=').next().unwrap();
+        assert_reported(
+            &run,
+            "twice.spinfold",
+            &input,
+            at(2, column, second),
+            &[&format!("`{option}=` is given twice")],
+        );
+        assert!(run.stderr.contains("first given here"), "{}", run.stderr);
+    }
+}
+
+#[test]
+fn a_csf_breaking_the_pauli_principle_is_reported_at_its_definition() {
+    // i is a member of the closed space occ, so `occ^2 i` puts a third electron in it
+    let input = "space occ: i\norbitals a\ncsf S = | occ^2 i a | S=0\nenergy S\n";
+    let run = derive("pauli_csf.spinfold", input);
+    assert_reported(
+        &run,
+        "pauli_csf.spinfold",
+        input,
+        at(3, 9, "| occ^2 i a |"),
+        &["occupied twice", "Pauli"],
+    );
 }

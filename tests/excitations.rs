@@ -23,8 +23,13 @@ fn example(name: &str) -> Program {
     parse(name, &std::fs::read_to_string(path).unwrap()).unwrap()
 }
 
-const FOCK: Options =
-    Options { distinct: false, max_determinants: 200_000, fock: true, route: spinfold::Route::Auto };
+const FOCK: Options = Options {
+    distinct: false,
+    max_determinants: 200_000,
+    fock: true,
+    route: spinfold::Route::Auto,
+    max_cases: spinfold::MAX_CASES,
+};
 
 #[test]
 fn cis_blocks_come_out_in_the_textbook_form() {

@@ -1,6 +1,6 @@
-//! The Rust emitter's output for every bundled example, plain and in Fock form, is gathered
-//! into one scratch crate that must be rustfmt-clean, compile and pass clippy with warnings
-//! denied, and pass the tests embedded in each module.
+//! The Rust emitter's output for every bundled example and for an input of keyword names,
+//! plain and in Fock form, is gathered into one scratch crate that must be rustfmt-clean,
+//! compile and pass clippy with warnings denied, and pass the tests embedded in each module.
 
 use std::path::Path;
 use std::process::Command;
@@ -46,6 +46,8 @@ fn generated_modules_are_clean_and_prove_themselves() {
         .filter(|p| p.extension().is_some_and(|x| x == "spinfold"))
         .collect();
     examples.sort();
+    // names that are Rust keywords, reserved words, or clash once made lower case
+    examples.push(root.join("tests/inputs/keyword_names.spinfold"));
     for example in &examples {
         let stem = example.file_stem().unwrap().to_string_lossy().to_string();
         for (suffix, extra) in [("", None), ("_fock", Some("--fock"))] {

@@ -38,6 +38,21 @@ fn two_open_shells_from_csfs_equal_the_hand_built_states() {
     assert_ne!(v[0], v[2]);
 }
 
+#[test]
+fn a_doubly_occupied_orbital_in_a_csf_stays_doubly_occupied() {
+    // the open shells b, c couple to a singlet over a^2: the hand-built singlet pair over a^2
+    let input = "orbitals a b c\nspace core\ncsf X = | core^2 a^2 b c | S=0\n\
+                 state Y = (| core^2 a^2 b c' | - | core^2 a^2 b' c |)/sqrt(2)\nenergy X\nenergy Y\n";
+    let program = parse("double.spinfold", input).unwrap();
+    assert_eq!(program.states[0].state.terms.len(), 2);
+    let energy = |k: usize, route| {
+        derive(&program, &program.requests[k], &Options { route, ..Options::default() }).unwrap().value
+    };
+    let hand_built = energy(1, spinfold::Route::Auto);
+    assert_eq!(energy(0, spinfold::Route::Determinants), hand_built);
+    assert_eq!(energy(0, spinfold::Route::SpinAlgebra), hand_built);
+}
+
 const THREE: &str = "orbitals p q r\nspace core\n\
     csf D1 = | core^2 p q r | S=1/2 path=1/2,0,1/2\n\
     csf D2 = | core^2 p q r | S=1/2 path=1/2,1,1/2\n\
@@ -61,7 +76,8 @@ fn three_open_shell_doublets_in_closed_form() {
 
 #[test]
 fn every_coupled_state_has_exact_spin() {
-    // <S^2> = S(S+1) and <S_z> = M exactly, for every path of up to eight open shells
+    // <S^2> = S(S+1) and <S_z> = M exactly, for every path of up to eight open shells, both as
+    // read off the coupling and as computed from the determinants
     for n in 1..=8usize {
         let names: Vec<String> = (1..=n).map(|k| format!("o{k}")).collect();
         for twice_s in (0..=n).rev().step_by(2) {
@@ -79,10 +95,13 @@ fn every_coupled_state_has_exact_spin() {
                 program = parse("spin.spinfold", &format!("{input}{requests}")).unwrap();
                 let expected = Exact::fraction((twice_s * (twice_s + 2)) as i64, 4);
                 for request in &program.requests {
-                    let d = derive(&program, request, &Options::default()).unwrap();
-                    assert_eq!(d.value, Expr::constant(expected.clone()), "{input}{}", request.text);
-                    assert_eq!(d.s_z, Expr::constant(Exact::fraction(twice_m, 2)));
-                    assert!(d.notes.is_empty(), "an eigenfunction draws no warning");
+                    // read off the coupling, and computed from the determinants
+                    for route in [spinfold::Route::Auto, spinfold::Route::Determinants] {
+                        let d = derive(&program, request, &Options { route, ..Options::default() }).unwrap();
+                        assert_eq!(d.value, Expr::constant(expected.clone()), "{input}{}", request.text);
+                        assert_eq!(d.s_z, Expr::constant(Exact::fraction(twice_m, 2)));
+                        assert!(d.notes.is_empty(), "an eigenfunction draws no warning");
+                    }
                 }
             }
         }
@@ -133,7 +152,7 @@ fn a_request_past_the_size_limit_stops_with_a_clear_error() {
          element X X\n",
         names.join(" ")
     );
-    let small = Limits { max_determinants: 10_000 };
+    let small = Limits { max_determinants: 10_000, ..Limits::default() };
     // past the limit the function is kept unexpanded: its energy still comes from spin algebra,
     // but a request that needs its 12870 determinants stops
     let program = parse_with("big.spinfold", &input, small).unwrap();
@@ -142,6 +161,7 @@ fn a_request_past_the_size_limit_stops_with_a_clear_error() {
         derive(&program, &program.requests[0], &Options { max_determinants: 10_000, ..Options::default() })
             .unwrap_err();
     assert!(error.render().contains("12870 determinants"), "{}", error.render());
+    assert!(error.render().contains("--max-determinants"), "names the option that lifts it");
     assert_eq!(error.exit_code(), 2);
     // so does a family of coupled states past the limit, where it is defined
     let family = format!("orbitals {0}\nspace core\ncsfs F = | core^2 {0} | S=0\n", names.join(" "));
@@ -152,7 +172,9 @@ fn a_request_past_the_size_limit_stops_with_a_clear_error() {
             .contains("exceeds the limit of 10000")
     );
     assert!(
-        parse_with("big.spinfold", &input, Limits { max_determinants: 20_000 }).unwrap().states[0]
+        parse_with("big.spinfold", &input, Limits { max_determinants: 20_000, ..Limits::default() })
+            .unwrap()
+            .states[0]
             .state
             .terms
             .len()
@@ -212,10 +234,12 @@ fn forty_open_shells_come_from_spin_algebra_without_expansion() {
     );
     // 40 h, 780 J and 780 K terms among the open shells, and the core terms
     assert_eq!(d.value.terms.iter().filter(|t| t.sums.is_empty()).count(), 40 + 780 + 780);
-    // asking for more than its energy needs the determinants
-    let more = parse("forty.spinfold", &format!("{input}spin X\n")).unwrap();
-    let error = derive(&more, &more.requests[1], &Options::default()).unwrap_err();
-    assert!(error.render().contains("137846528820 determinants"));
+    // asking for more than its energy and spin needs the determinants, which no option allows
+    let more = parse("forty.spinfold", &format!("{input}overlap X X\n")).unwrap();
+    let report = derive(&more, &more.requests[1], &Options::default()).unwrap_err().render();
+    assert!(report.contains("137846528820 determinants"), "{report}");
+    assert!(report.contains("40 open shells, which exceeds the limit of 24 open shells"), "{report}");
+    assert!(report.contains("no option changes this limit") && !report.contains("--max"), "{report}");
 }
 
 #[test]

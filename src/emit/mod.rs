@@ -278,7 +278,9 @@ impl Identifiers {
         let mut name = base.clone();
         let mut n = 2;
         while self.taken.contains(&name) {
-            name = format!("{base}_{n}");
+            // `self_` and a clash make `self_2`: never a double underscore, which Rust's
+            // snake-case lint refuses
+            name = format!("{}_{n}", base.trim_end_matches('_'));
             n += 1;
         }
         self.taken.insert(name.clone());

@@ -67,9 +67,10 @@ struct DetOut {
 struct StateOut {
     name: String,
     determinants: Vec<DetOut>,
-    /// For a coupled state too large to expand: how many determinants it spans (the list is empty).
+    /// For a coupled state too large to expand: how many determinants it spans (the list is
+    /// empty), a number, or a string of digits past 2^64.
     #[serde(skip_serializing_if = "Option::is_none")]
-    unexpanded: Option<usize>,
+    unexpanded: Option<serde_json::Value>,
 }
 
 /// `{"states": [{"name", "determinants": [{"coefficient", "occupants", "excitations"}]}]}`.
@@ -78,7 +79,11 @@ pub fn render_json(program: &Program) -> String {
         .states
         .iter()
         .map(|s| StateOut {
-            unexpanded: s.state.coupling.as_ref().filter(|_| s.state.is_unexpanded()).map(|c| c.determinants),
+            unexpanded: s.state.coupling.as_ref().filter(|_| s.state.is_unexpanded()).map(|c| {
+                // exact: a number while it fits 64 bits, its decimal digits past that
+                u64::try_from(&c.determinants)
+                    .map_or_else(|_| c.determinants.to_string().into(), serde_json::Value::from)
+            }),
             name: s.name.clone(),
             determinants: s
                 .state

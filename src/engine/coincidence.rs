@@ -2,6 +2,8 @@
 //! A result that holds for every case is assembled from the cases with Kronecker deltas.
 
 use crate::language::orbital::{Orb, SpaceId, SpinOrbital};
+use num_bigint::BigUint;
+use num_traits::One;
 use std::collections::BTreeMap;
 
 /// One pattern of equalities: every used index mapped to the representative (smallest) index
@@ -108,6 +110,29 @@ pub fn cases(used: &BTreeMap<SpaceId, Vec<u32>>, closed: &[SpaceId], distinct: b
     out
 }
 
+/// How many cases `cases` makes, without making them: the product over spaces of the Bell
+/// number of the indices used there, or 1 with `distinct`.
+pub fn count(used: &BTreeMap<SpaceId, Vec<u32>>, distinct: bool) -> BigUint {
+    if distinct {
+        return BigUint::one();
+    }
+    used.values().map(|indices| bell(indices.len())).product()
+}
+
+/// The Bell number B(n), the number of partitions of n items, by the Bell triangle.
+fn bell(n: usize) -> BigUint {
+    let mut row = vec![BigUint::one()];
+    for _ in 0..n {
+        let mut next = vec![row.last().expect("a row is never empty").clone()];
+        for x in &row {
+            let sum = next.last().expect("started with one entry") + x;
+            next.push(sum);
+        }
+        row = next;
+    }
+    row[0].clone()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -118,6 +143,19 @@ mod tests {
         assert_eq!(partitions(&[0, 1]).len(), 2);
         assert_eq!(partitions(&[0, 1, 2]).len(), 5);
         assert_eq!(partitions(&[0, 1, 2, 3]).len(), 15);
+    }
+
+    #[test]
+    fn counted_cases_match_the_cases_made() {
+        // Bell numbers 1, 1, 2, 5, 15, 52, 203 (common practice)
+        assert_eq!(
+            (0..7).map(|n| bell(n).to_string()).collect::<Vec<_>>(),
+            ["1", "1", "2", "5", "15", "52", "203"]
+        );
+        let used = BTreeMap::from([(0, vec![0, 1, 2]), (1, vec![3, 4]), (2, vec![5, 6, 7, 8])]);
+        assert_eq!(count(&used, false), BigUint::from(cases(&used, &[0], false).len()));
+        assert_eq!(count(&used, false), BigUint::from(5u32 * 2 * 15));
+        assert_eq!(count(&used, true), BigUint::from(cases(&used, &[], true).len()));
     }
 
     #[test]

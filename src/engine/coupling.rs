@@ -2,9 +2,11 @@
 //! coupled one at a time along a path of intermediate spins, with Condon–Shortley signs.
 
 use crate::engine::exact::Exact;
-use num_bigint::BigInt;
+use crate::language::orbital::Spin;
+use crate::language::program::{Coupling, DetSpec, Occupant};
+use num_bigint::{BigInt, BigUint};
 use num_rational::BigRational;
-use num_traits::Pow;
+use num_traits::{One, Pow, Zero};
 
 /// A spin quantum number as twice its value, so 1/2 is 1 and 3/2 is 3.
 pub type Twice = i64;
@@ -109,6 +111,35 @@ pub fn paths(n: usize, s: Twice) -> Vec<Vec<Twice>> {
     out
 }
 
+/// The binomial coefficient C(n, k), exactly (0 when k > n).
+pub fn binomial(n: usize, k: usize) -> BigUint {
+    if k > n {
+        return BigUint::zero();
+    }
+    // each partial product C(n, i + 1) = C(n, i) (n − i) / (i + 1) is a whole number
+    (0..k.min(n - k)).fold(BigUint::one(), |acc, i| acc * (n - i) / (i + 1))
+}
+
+/// How many paths `paths(n, s)` lists, without listing them: the branching-diagram number
+/// f(n, S) = C(n, n/2 − S) − C(n, n/2 − S − 1); zero when n shells cannot couple to S.
+pub fn path_count(n: usize, s: Twice) -> BigUint {
+    if s < 0 || s > n as Twice || (n as Twice - s) % 2 != 0 {
+        return BigUint::zero();
+    }
+    let k = (n - s as usize) / 2;
+    let below = if k == 0 { BigUint::zero() } else { binomial(n, k - 1) };
+    binomial(n, k) - below
+}
+
+/// How many determinants a coupled function of n open shells with M = m/2 spans: the ways to
+/// give (n + 2M)/2 of the shells alpha spin.
+pub fn determinant_count(n: usize, m: Twice) -> BigUint {
+    match usize::try_from((n as Twice + m) / 2) {
+        Ok(alpha) if (n as Twice + m) % 2 == 0 => binomial(n, alpha),
+        _ => BigUint::zero(),
+    }
+}
+
 /// Checks a path for n shells ending at s; None if it is admissible, else why not.
 pub fn path_problem(path: &[Twice], n: usize, s: Twice) -> Option<String> {
     if path.len() != n {
@@ -170,6 +201,24 @@ pub fn expand(path: &[Twice], m: Twice) -> Vec<SpinTerm> {
     out
 }
 
+/// The determinants of a coupled function, with their coefficients: the reference's open
+/// shells given the spins of each term of `expand`.
+pub fn expanded(coupling: &Coupling) -> Vec<(Exact, DetSpec)> {
+    let open = coupling.reference.open_shells();
+    expand(&coupling.path, coupling.m)
+        .into_iter()
+        .map(|(spins, coefficient)| {
+            let mut det = coupling.reference.clone();
+            for (&k, alpha) in open.iter().zip(spins) {
+                if let Occupant::Electron(so) = &mut det.occupants[k] {
+                    so.spin = if alpha { Spin::Alpha } else { Spin::Beta };
+                }
+            }
+            (coefficient, det)
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -188,6 +237,22 @@ mod tests {
         assert_eq!(paths(6, 0).len(), 5);
         assert_eq!(paths(3, 3), vec![vec![1, 2, 3]]);
         assert_eq!(paths(3, 1), vec![vec![1, 0, 1], vec![1, 2, 1]]);
+    }
+
+    #[test]
+    fn path_counts_by_formula_match_the_listed_paths() {
+        for n in 0..=14usize {
+            for s in -1..=n as Twice + 1 {
+                assert_eq!(path_count(n, s), BigUint::from(paths(n, s).len()), "n={n} 2S={s}");
+            }
+        }
+    }
+
+    #[test]
+    fn counts_stay_exact_past_64_bits() {
+        // C(100, 50) and the 50th Catalan number, f(100, 0) (Python's math.comb)
+        assert_eq!(binomial(100, 50).to_string(), "100891344545564193334812497256");
+        assert_eq!(path_count(100, 0).to_string(), "1978261657756160653623774456");
     }
 
     #[test]

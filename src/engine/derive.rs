@@ -24,7 +24,12 @@ pub struct Options {
     pub fock: bool,
     /// How the energy of a single coupled state is found.
     pub route: Route,
+    /// The most coincidence cases of the generic indices a request may need.
+    pub max_cases: usize,
 }
+
+/// The default of `Options::max_cases`.
+pub const MAX_CASES: usize = 1000;
 
 /// The way to the energy of one configuration state function.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
@@ -40,7 +45,13 @@ pub enum Route {
 
 impl Default for Options {
     fn default() -> Options {
-        Options { distinct: false, max_determinants: 200_000, fock: false, route: Route::Auto }
+        Options {
+            distinct: false,
+            max_determinants: 200_000,
+            fock: false,
+            route: Route::Auto,
+            max_cases: MAX_CASES,
+        }
     }
 }
 
@@ -234,36 +245,6 @@ pub fn check_definition(
     derive(program, &request, &Options { distinct: true, ..Options::default() }).map(|_| ())
 }
 
-/// Refuses states that cannot be expanded for this request, or that exceed the size limit.
-fn check_sizes(request: &Request, options: &Options) -> Result<()> {
-    for (state, label) in [(&request.bra, &request.bra_text), (&request.ket, &request.ket_text)] {
-        if state.is_unexpanded() {
-            let n = state.coupling.as_ref().map_or(0, |c| c.determinants);
-            return Err(Error::at(
-                ErrorKind::TooLarge {
-                    what: format!(
-                        "`{label}` spans {n} determinants; only its energy can be had without them (by spin algebra), and"
-                    ),
-                    limit: options.max_determinants,
-                },
-                &request.span,
-            ));
-        }
-    }
-    for (state, label) in [(&request.bra, &request.bra_text), (&request.ket, &request.ket_text)] {
-        if state.terms.len() > options.max_determinants {
-            return Err(Error::at(
-                ErrorKind::TooLarge {
-                    what: format!("`{label}` with {} determinants", state.terms.len()),
-                    limit: options.max_determinants,
-                },
-                &request.span,
-            ));
-        }
-    }
-    Ok(())
-}
-
 /// The energy of one coupled state goes by spin algebra when the route asks for it (or, by
 /// default, when the state is too large to expand) and its open shells are named orbitals.
 fn wants_spin_algebra<'a>(request: &'a Request, options: &Options) -> Option<&'a Coupling> {
@@ -433,7 +414,10 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
     if let Some(coupling) = wants_spin_algebra(request, options) {
         return by_spin_algebra(program, request, coupling, options);
     }
-    check_sizes(request, options)?;
+    if let Some(spin) = crate::engine::spin_operator::coupled_spin(program, request, options) {
+        return Ok(spin);
+    }
+    crate::engine::bounds::check(program, request, options)?;
     let (used, closed_spaces, all_indices) = used_indices(program, &[&request.bra, &request.ket]);
     let cases = coincidence::cases(&used, &closed_spaces, options.distinct);
     let mut notes = vec![];

@@ -6,7 +6,7 @@ use crate::engine::determinant::CaseDet;
 use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, Factor, RawTerm, RestrictedSum};
 use crate::engine::spin_integrate::{antisymmetrized, one_electron};
-use crate::error::{Error, ErrorKind, Result};
+use crate::error::{Change, Error, ErrorKind, Limit, Result};
 use crate::language::orbital::{Orb, Spin, SpinOrbital};
 use num_bigint::BigInt;
 use num_integer::Integer;
@@ -30,8 +30,15 @@ impl Universe {
         orbs.dedup();
         if orbs.len() > 64 {
             return Err(Error::new(ErrorKind::TooLarge {
-                what: format!("a request with {} explicitly occupied orbitals", orbs.len()),
-                limit: 64,
+                what: "this request occupies".into(),
+                count: orbs.len().to_string(),
+                limit: Box::new(Limit {
+                    value: 64,
+                    unit: "explicit orbitals",
+                    change: Change::Fixed(
+                        "a determinant is held as a 128-bit string, two bits per orbital".into(),
+                    ),
+                }),
             }));
         }
         Ok(Universe { orbs })
@@ -80,8 +87,19 @@ impl BitState {
             let bits = universe.bits(det);
             for (q, r) in c.parts() {
                 let scale = multiplier.entry(q.denom().clone()).or_insert_with(|| &denominator / q.denom());
-                let a = (q.numer() * &*scale).to_i128().ok_or_else(|| {
-                    Error::new(ErrorKind::TooLarge { what: "a coefficient's numerator".into(), limit: 128 })
+                let numerator = q.numer() * &*scale;
+                let a = numerator.to_i128().ok_or_else(|| {
+                    Error::new(ErrorKind::TooLarge {
+                        what: "a coefficient, over the common denominator of the state, has a numerator of".into(),
+                        count: numerator.bits().to_string(),
+                        limit: Box::new(Limit {
+                            value: 127,
+                            unit: "bits",
+                            change: Change::Fixed(
+                                "the Slater–Condon sums run in 128-bit integers; coefficients with fewer different denominators keep the numerators small".into(),
+                            ),
+                        }),
+                    })
                 })?;
                 entries.push(Entry { bits, a, r });
             }

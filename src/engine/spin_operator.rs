@@ -1,9 +1,14 @@
 //! Total spin of a state: S² = S₋S₊ + S_z² + S_z applied to its determinants exactly, giving
-//! <S²>, <S_z> and whether the state is an eigenfunction of each.
+//! <S²>, <S_z> and whether the state is an eigenfunction of each; for a coupled state, read off
+//! its coupling.
 
+use crate::engine::coincidence;
+use crate::engine::derive::{Derivation, Options, Route};
 use crate::engine::determinant::{CaseDet, annihilate, create, sort_with_sign};
 use crate::engine::exact::Exact;
-use crate::language::orbital::{Spin, SpinOrbital};
+use crate::engine::expression::Expr;
+use crate::language::orbital::{SpaceSet, Spin, SpinOrbital};
+use crate::language::program::{Occupant, Program, Request, RequestKind, State, Symbols};
 use std::collections::BTreeMap;
 
 pub type CaseState = BTreeMap<CaseDet, Exact>;
@@ -71,4 +76,56 @@ pub fn spin_values(state: &CaseState) -> Option<SpinValues> {
     let first = state.keys().next().map(s_z);
     let eigen_m = state.keys().all(|d| Some(s_z(d)) == first);
     Some(SpinValues { s_squared, s_z: &weighted * &inverse, eigen_s, eigen_m })
+}
+
+/// A `spin` request on a configuration state function: <S²> = S(S+1) and <S_z> = M exactly, by
+/// construction of its coupling, with no determinant touched. None when the state is not one
+/// (a combination, an excited csf), when its generic indices may coincide (the determinants
+/// settle what happens then), or when `--route determinants` asks for determinants.
+pub fn coupled_spin(program: &Program, request: &Request, options: &Options) -> Option<Derivation> {
+    if request.kind != RequestKind::Spin || options.route == Route::Determinants {
+        return None;
+    }
+    let coupling = request.bra.coupling.as_ref()?;
+    let reference = State::new(vec![(Exact::one(), coupling.reference.clone())]);
+    let indices = Symbols::of([&reference]).indices;
+    let mut used: BTreeMap<u32, Vec<u32>> = BTreeMap::new();
+    for &k in &indices {
+        used.entry(program.indices[k as usize].space).or_default().push(k);
+    }
+    if coincidence::count(&used, options.distinct) != 1u32.into() {
+        return None;
+    }
+    let closed: Vec<u32> = coupling
+        .reference
+        .occupants
+        .iter()
+        .filter_map(|o| match o {
+            Occupant::Closed(s) => Some(*s),
+            Occupant::Electron(_) => None,
+        })
+        .collect();
+    let s = coupling.s();
+    let mut notes = vec![];
+    if request.bra.is_unexpanded() {
+        notes.push(format!(
+            "read off the coupling, without expanding the {} determinants of `{}`",
+            coupling.determinants, request.bra_text
+        ));
+    }
+    Some(Derivation {
+        kind: request.kind,
+        text: request.text.clone(),
+        bra: request.bra_text.clone(),
+        ket: request.ket_text.clone(),
+        value: Expr::constant(Exact::fraction(s * (s + 2), 4)),
+        overlap: Expr::zero(),
+        s_z: Expr::constant(Exact::fraction(coupling.m, 2)),
+        notes,
+        // one coincidence case only, and a coupled state never vanishes in it
+        vanishing: vec![],
+        free_indices: indices.into_iter().collect(),
+        closed: SpaceSet::of(&closed),
+        distinct: options.distinct,
+    })
 }

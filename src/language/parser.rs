@@ -1,19 +1,21 @@
 //! Reads the input language (grammar/spinfold.pest) and resolves names into a `Program`,
 //! checking every definition as it goes so that errors point at the text that caused them.
 
-use crate::engine::coupling::{Twice, expand, half, path_problem, paths};
+use crate::engine::coupling::{Twice, determinant_count, expanded, half, path_count, path_problem, paths};
+use crate::engine::derive::check_definition;
 use crate::engine::exact::Exact;
-use crate::error::{Error, ErrorKind, Result, Source, Span};
+use crate::error::{Change, Error, ErrorKind, Limit, Result, STATEMENTS, Source, Span};
 use crate::language::orbital::{Orb, Spin, SpinOrbital};
 use crate::language::program::{
     Coupling, DetSpec, Excitation, Index, NamedState, Occupant, Orbital, Program, Request, RequestKind,
     Space, State,
 };
-use num_bigint::BigInt;
+use num_bigint::{BigInt, BigUint};
 use num_rational::BigRational;
+use num_traits::One;
 use pest::Parser;
-use pest::iterators::Pair;
-use std::collections::HashMap;
+use pest::iterators::{Pair, Pairs};
+use std::collections::{BTreeSet, HashMap};
 use std::sync::Arc;
 
 #[derive(pest_derive::Parser)]
@@ -45,6 +47,7 @@ pub fn parse(name: &str, text: &str) -> Result<Program> {
 /// Parses with explicit limits.
 pub fn parse_with(name: &str, text: &str, limits: Limits) -> Result<Program> {
     let source = Source::new(name, text);
+    check_nesting(&source)?;
     let mut pairs = Grammar::parse(Rule::file, text).map_err(|e| syntax_error(&source, e))?;
     let file = pairs.next().expect("the file rule always matches once");
     let mut resolver = Resolver {
@@ -58,15 +61,22 @@ pub fn parse_with(name: &str, text: &str, limits: Limits) -> Result<Program> {
         },
         symbols: HashMap::new(),
         limits,
+        deferred: BTreeSet::new(),
     };
     for statement in file.into_inner() {
         resolver.statement(statement)?;
     }
+    if limits.expand_unused {
+        let deferred: Vec<u32> = resolver.deferred.iter().copied().collect();
+        for k in deferred {
+            resolver.expand(k);
+        }
+    }
     Ok(resolver.program)
 }
 
-fn describe(rule: &Rule) -> &'static str {
-    match rule {
+fn describe(rule: &Rule) -> String {
+    let words = match rule {
         Rule::name => "a name",
         Rule::number => "a number",
         Rule::sum | Rule::product | Rule::unit => "a state or coefficient",
@@ -81,16 +91,17 @@ fn describe(rule: &Rule) -> &'static str {
         Rule::reference => "a state name",
         Rule::csf_option | Rule::option_name => "`S=`, `M=` or `path=`",
         Rule::spin_value => "a spin such as 1/2",
-        Rule::kw_orbitals
+        // `file` is what pest names when the first line does not start a statement
+        Rule::file
+        | Rule::kw_orbitals
         | Rule::kw_space
         | Rule::kw_det
         | Rule::kw_state
         | Rule::kw_csf
-        | Rule::request_kind => {
-            "a statement (`orbitals`, `space`, `det`, `state`, `csf`, `csfs`, `energy`, `element`, `overlap`, `spin`)"
-        }
+        | Rule::request_kind => return format!("a statement ({STATEMENTS})"),
         _ => "something else",
-    }
+    };
+    words.to_string()
 }
 
 fn syntax_error(source: &Arc<Source>, error: pest::error::Error<Rule>) -> Error {
@@ -105,7 +116,7 @@ fn syntax_error(source: &Arc<Source>, error: pest::error::Error<Rule>) -> Error 
     let expected = match &error.variant {
         _ if unclosed => "the closing `|` of the determinant".to_string(),
         pest::error::ErrorVariant::ParsingError { positives, .. } => {
-            let mut words: Vec<&str> = positives.iter().map(describe).collect();
+            let mut words: Vec<String> = positives.iter().map(describe).collect();
             words.sort();
             words.dedup();
             if words.is_empty() { "a statement".to_string() } else { words.join(" or ") }
@@ -122,22 +133,80 @@ struct Resolver {
     program: Program,
     symbols: HashMap<String, (Symbol, Span)>,
     limits: Limits,
+    /// Members of `csfs` families that nothing has used yet: only their couplings are kept,
+    /// and each is expanded into determinants when a request or definition first names it.
+    deferred: BTreeSet<u32>,
 }
 
-/// The most open shells a coupled state is expanded into determinants for.
+/// The most open shells a coupled state is expanded into determinants for: past it the
+/// coefficients' square roots outgrow 64-bit radicands.
 pub const MAX_EXPANDED_SHELLS: usize = 24;
+
+/// The deepest nesting of parentheses (and `sqrt(`) in one line. The parser and the resolver
+/// descend once per level; this keeps both far inside the stack of any thread, debug build or not.
+pub const MAX_NESTING: usize = 32;
 
 /// Limits that keep a run within memory.
 #[derive(Clone, Copy, Debug)]
 pub struct Limits {
     /// The largest number of determinants a coupled state may expand to.
     pub max_determinants: usize,
+    /// The most coupling paths, so coupled states, that one `csfs` line may define.
+    pub max_paths: usize,
+    /// Expand every member of a `csfs` family, not only those a request or definition uses
+    /// (to list them all).
+    pub expand_unused: bool,
 }
 
 impl Default for Limits {
     fn default() -> Limits {
-        Limits { max_determinants: 200_000 }
+        Limits { max_determinants: 200_000, max_paths: 1000, expand_unused: false }
     }
+}
+
+/// The options of a `csf` line, each given at most once.
+#[derive(Default)]
+struct CsfOptions {
+    s: Option<Twice>,
+    m: Option<Twice>,
+    path: Option<(Vec<Twice>, Span)>,
+}
+
+/// Stops a line whose parentheses nest deeper than `MAX_NESTING`, before the parser descends
+/// into it: one pass over the text, comments skipped, the depth starting afresh on each line
+/// (no group spans a line).
+fn check_nesting(source: &Arc<Source>) -> Result<()> {
+    let (mut depth, mut comment) = (0usize, false);
+    for (k, byte) in source.text.bytes().enumerate() {
+        match byte {
+            b'\n' | b'\r' => (depth, comment) = (0, false),
+            _ if comment => {}
+            b'#' => comment = true,
+            b'(' => {
+                depth += 1;
+                if depth > MAX_NESTING {
+                    let span = Span { source: source.clone(), range: k..k + 1 };
+                    return Err(Error::at(
+                        ErrorKind::TooLarge {
+                            what: "this parenthesis opens".into(),
+                            count: depth.to_string(),
+                            limit: Box::new(Limit {
+                                value: MAX_NESTING as u128,
+                                unit: "nested levels",
+                                change: Change::Fixed(
+                                    "the parser descends once per level and must stay within its stack; define the inner part as a `state` of its own, or multiply out the numbers".into(),
+                                ),
+                            }),
+                        },
+                        &span,
+                    ));
+                }
+            }
+            b')' => depth = depth.saturating_sub(1),
+            _ => {}
+        }
+    }
+    Ok(())
 }
 
 impl Resolver {
@@ -187,128 +256,225 @@ impl Resolver {
     fn statement(&mut self, pair: Pair<Rule>) -> Result<()> {
         let rule = pair.as_rule();
         let span = self.span(&pair);
-        let mut inner = pair.into_inner();
+        let inner = pair.into_inner();
         match rule {
-            Rule::orbitals_stmt => {
-                inner.next();
-                for name in inner {
-                    let id = self.program.orbitals.len() as u32;
-                    self.declare(&name, Symbol::Orbital(id))?;
-                    self.program
-                        .orbitals
-                        .push(Orbital { name: name.as_str().into(), span: self.span(&name) });
-                }
-            }
-            Rule::space_stmt => {
-                inner.next();
-                let name = inner.next().expect("grammar: space name");
-                let space = self.program.spaces.len() as u32;
-                self.declare(&name, Symbol::Space(space))?;
-                let mut indices = vec![];
-                for index in inner {
-                    let id = self.program.indices.len() as u32;
-                    self.declare(&index, Symbol::Index(id))?;
-                    self.program.indices.push(Index {
-                        name: index.as_str().into(),
-                        space,
-                        span: self.span(&index),
-                    });
-                    indices.push(id);
-                }
-                self.program.spaces.push(Space {
-                    name: name.as_str().into(),
-                    indices,
-                    span: self.span(&name),
-                });
-            }
-            Rule::det_stmt | Rule::state_stmt => {
-                inner.next();
-                let name = inner.next().expect("grammar: state name");
-                let value = inner.next().expect("grammar: state value");
-                let is_determinant = rule == Rule::det_stmt;
-                let value_span = self.span(&value);
-                let state = match self.value(value)? {
-                    Value::State(s) => s,
-                    Value::Number(_) => return Err(Error::at(ErrorKind::NumberAlone, &value_span)),
-                };
-                if is_determinant && state.terms.len() != 1 {
-                    return Err(Error::at(
-                        ErrorKind::NotADeterminant { name: value_span.text().into() },
-                        &value_span,
-                    ));
-                }
-                if state.terms.iter().all(|(c, _)| c.is_zero()) || state.terms.is_empty() {
-                    return Err(Error::at(ErrorKind::EmptyState { name: name.as_str().into() }, &value_span));
-                }
-                crate::engine::derive::check_definition(&self.program, &state, name.as_str(), &value_span)?;
-                let id = self.program.states.len() as u32;
-                self.declare(&name, Symbol::State(id))?;
-                self.program.states.push(NamedState {
-                    name: name.as_str().into(),
-                    state,
-                    is_determinant,
-                    span: self.span(&name),
-                });
-            }
-            Rule::csf_stmt => self.csf(span, inner)?,
-            Rule::request_stmt => {
-                let keyword = inner.next().expect("grammar: request keyword");
-                let kind = match keyword.as_str() {
-                    "energy" => RequestKind::Energy,
-                    "element" => RequestKind::Element,
-                    "spin" => RequestKind::Spin,
-                    _ => RequestKind::Overlap,
-                };
-                let wanted = if matches!(kind, RequestKind::Energy | RequestKind::Spin) { 1 } else { 2 };
-                let operands: Vec<Pair<Rule>> = inner.collect();
-                if operands.len() != wanted {
-                    return Err(Error::at(
-                        ErrorKind::RequestArity { kind: kind.keyword().into(), wanted, got: operands.len() },
-                        &span,
-                    ));
-                }
-                let mut states = vec![];
-                for operand in &operands {
-                    let operand_span = self.span(operand);
-                    let text = without_comment(operand.as_str());
-                    match self.value(operand.clone().into_inner().next().expect("grammar: operand"))? {
-                        Value::State(s) => states.push((s, text)),
-                        Value::Number(_) => {
-                            return Err(Error::at(ErrorKind::NumberAlone, &operand_span));
-                        }
-                    }
-                }
-                let (bra, bra_text) = states[0].clone();
-                let (ket, ket_text) = states.last().cloned().expect("one or two operands");
-                self.program.requests.push(Request {
-                    kind,
-                    text: without_comment(span.text()),
-                    bra,
-                    ket,
-                    bra_text,
-                    ket_text,
-                    span,
-                });
-            }
-            Rule::EOI => {}
+            Rule::orbitals_stmt => self.orbitals(inner),
+            Rule::space_stmt => self.space(inner),
+            Rule::det_stmt | Rule::state_stmt => self.definition(rule == Rule::det_stmt, inner),
+            Rule::csf_stmt => self.csf(span, inner),
+            Rule::request_stmt => self.request(span, inner),
+            Rule::EOI => Ok(()),
             other => unreachable!("grammar: unexpected statement {other:?}"),
+        }
+    }
+
+    /// `orbitals a b c`
+    fn orbitals(&mut self, inner: Pairs<Rule>) -> Result<()> {
+        for name in inner.skip(1) {
+            let id = self.program.orbitals.len() as u32;
+            self.declare(&name, Symbol::Orbital(id))?;
+            self.program.orbitals.push(Orbital { name: name.as_str().into(), span: self.span(&name) });
         }
         Ok(())
     }
 
-    /// `csf X = | ... | S=.. M=.. path=..` and `csfs X = | ... | S=.. M=..`.
-    fn csf<'a>(&mut self, span: Span, mut inner: impl Iterator<Item = Pair<'a, Rule>>) -> Result<()> {
-        let keyword = inner.next().expect("grammar: csf keyword");
-        let family = keyword.as_str() == "csfs";
+    /// `space act: t u`
+    fn space(&mut self, mut inner: Pairs<Rule>) -> Result<()> {
+        inner.next();
+        let name = inner.next().expect("grammar: space name");
+        let space = self.program.spaces.len() as u32;
+        self.declare(&name, Symbol::Space(space))?;
+        let mut indices = vec![];
+        for index in inner {
+            let id = self.program.indices.len() as u32;
+            self.declare(&index, Symbol::Index(id))?;
+            self.program.indices.push(Index { name: index.as_str().into(), space, span: self.span(&index) });
+            indices.push(id);
+        }
+        self.program.spaces.push(Space { name: name.as_str().into(), indices, span: self.span(&name) });
+        Ok(())
+    }
+
+    /// `det X = ...` (one determinant) and `state X = ...` (a combination).
+    fn definition(&mut self, is_determinant: bool, mut inner: Pairs<Rule>) -> Result<()> {
+        inner.next();
+        let name = inner.next().expect("grammar: state name");
+        let value = inner.next().expect("grammar: state value");
+        self.expand_used(&value);
+        let value_span = self.span(&value);
+        let state = match self.value(value)? {
+            Value::State(s) => s,
+            Value::Number(_) => return Err(Error::at(ErrorKind::NumberAlone, &value_span)),
+        };
+        if is_determinant && state.terms.len() != 1 {
+            return Err(Error::at(
+                ErrorKind::NotADeterminant { name: value_span.text().into() },
+                &value_span,
+            ));
+        }
+        if state.terms.iter().all(|(c, _)| c.is_zero()) || state.terms.is_empty() {
+            return Err(Error::at(ErrorKind::EmptyState { name: name.as_str().into() }, &value_span));
+        }
+        check_definition(&self.program, &state, name.as_str(), &value_span)?;
+        let id = self.program.states.len() as u32;
+        self.declare(&name, Symbol::State(id))?;
+        self.program.states.push(NamedState {
+            name: name.as_str().into(),
+            state,
+            is_determinant,
+            span: self.span(&name),
+        });
+        Ok(())
+    }
+
+    /// `energy X`, `spin X`, `element X Y`, `overlap X Y`
+    fn request(&mut self, span: Span, mut inner: Pairs<Rule>) -> Result<()> {
+        let keyword = inner.next().expect("grammar: request keyword");
+        let kind = match keyword.as_str() {
+            "energy" => RequestKind::Energy,
+            "element" => RequestKind::Element,
+            "spin" => RequestKind::Spin,
+            _ => RequestKind::Overlap,
+        };
+        let wanted = if matches!(kind, RequestKind::Energy | RequestKind::Spin) { 1 } else { 2 };
+        let operands: Vec<Pair<Rule>> = inner.collect();
+        if operands.len() != wanted {
+            return Err(Error::at(
+                ErrorKind::RequestArity { kind: kind.keyword().into(), wanted, got: operands.len() },
+                &span,
+            ));
+        }
+        let mut states = vec![];
+        for operand in operands {
+            self.expand_used(&operand);
+            let operand_span = self.span(&operand);
+            let text = without_comment(operand.as_str());
+            match self.value(operand)? {
+                Value::State(s) => states.push((s, text)),
+                Value::Number(_) => return Err(Error::at(ErrorKind::NumberAlone, &operand_span)),
+            }
+        }
+        let (bra, bra_text) = states[0].clone();
+        let (ket, ket_text) = states.last().cloned().expect("one or two operands");
+        self.program.requests.push(Request {
+            kind,
+            text: without_comment(span.text()),
+            bra,
+            ket,
+            bra_text,
+            ket_text,
+            span,
+        });
+        Ok(())
+    }
+
+    /// Expands the members of `csfs` families that `pair` names and nothing named before.
+    fn expand_used(&mut self, pair: &Pair<Rule>) {
+        let named: Vec<u32> = pair
+            .clone()
+            .into_inner()
+            .flatten()
+            .filter(|p| p.as_rule() == Rule::reference)
+            .filter_map(|p| match self.symbols.get(p.as_str()) {
+                Some(&(Symbol::State(k), _)) => Some(k),
+                _ => None,
+            })
+            .collect();
+        for k in named {
+            self.expand(k);
+        }
+    }
+
+    fn expand(&mut self, k: u32) {
+        if self.deferred.remove(&k) {
+            let state = &mut self.program.states[k as usize].state;
+            let coupling = state.coupling.clone().expect("a deferred state keeps its coupling");
+            state.terms = Arc::new(expanded(&coupling));
+        }
+    }
+
+    /// `csf X = | ... | S=.. M=.. path=..` and `csfs X = | ... | S=.. M=..`: the written
+    /// determinant checked like a `det`, its open shells coupled along one path or every path.
+    fn csf(&mut self, span: Span, mut inner: Pairs<Rule>) -> Result<()> {
+        let family = inner.next().expect("grammar: csf keyword").as_str() == "csfs";
         let name = inner.next().expect("grammar: csf name");
         let det = inner.next().expect("grammar: csf determinant");
         let det_span = self.span(&det);
-        let (mut s, mut m): (Option<Twice>, Option<Twice>) = (None, None);
-        let mut path: Option<(Vec<Twice>, Span)> = None;
-        for option in inner {
+        let options = self.csf_options(inner, family)?;
+        let written = self.inline_det(det)?.terms[0].1.clone();
+        let open = self.open_shells(&written, &det_span)?;
+        let n = open.len();
+        let (s, m) = total_spin(&options, n, &span)?;
+        let determinants = determinant_count(n, m);
+        let expandable =
+            determinants <= BigUint::from(self.limits.max_determinants) && n <= MAX_EXPANDED_SHELLS;
+        if family && !expandable {
+            return Err(self.family_too_large(n, &determinants, &span));
+        }
+        let chosen = self.coupling_paths(options.path, family, n, s, &span)?;
+        // the written determinant must exist, as a `det` must: Pauli, closed spaces, size
+        let single = State::new(vec![(Exact::one(), written.clone())]);
+        check_definition(&self.program, &single, name.as_str(), &det_span)?;
+        // open shells carry no spin mark, so the determinant as written has them all alpha;
+        // doubly occupied orbitals keep their two spins
+        let reference = written.clone();
+        let orbs: Vec<Orb> = open
+            .iter()
+            .map(|&k| match written.occupants[k] {
+                Occupant::Electron(so) => so.orb,
+                Occupant::Closed(_) => unreachable!("open shells are electrons"),
+            })
+            .collect();
+        let name_span = self.span(&name);
+        if family {
+            self.declare(&name, Symbol::Family(chosen.len() as u32))?;
+        }
+        for (k, path) in chosen.into_iter().enumerate() {
+            let coupling = Arc::new(Coupling {
+                path,
+                m,
+                open: orbs.clone(),
+                reference: reference.clone(),
+                determinants: determinants.clone(),
+            });
+            // one function too large to expand keeps only its coupling: its energy and spin
+            // come from spin algebra; a family's members wait until something uses them
+            let terms = if expandable && !family { expanded(&coupling) } else { vec![] };
+            let state = State { terms: Arc::new(terms), coupling: Some(coupling) };
+            let id = self.program.states.len() as u32;
+            let label =
+                if family { format!("{}.{}", name.as_str(), k + 1) } else { name.as_str().to_string() };
+            if family {
+                self.symbols.insert(label.clone(), (Symbol::State(id), name_span.clone()));
+                self.deferred.insert(id);
+            } else {
+                self.declare(&name, Symbol::State(id))?;
+            }
+            self.program.states.push(NamedState {
+                name: label,
+                state,
+                is_determinant: false,
+                span: name_span.clone(),
+            });
+        }
+        Ok(())
+    }
+
+    /// `S=`, `M=` and `path=` as written, each at most once; `csfs` takes no `path=`.
+    fn csf_options(&self, options: Pairs<Rule>, family: bool) -> Result<CsfOptions> {
+        let mut out = CsfOptions::default();
+        let mut seen: Vec<(String, Span)> = vec![];
+        for option in options {
             let option_span = self.span(&option);
             let mut parts = option.into_inner();
-            let key = parts.next().expect("grammar: option name");
+            let key = parts.next().expect("grammar: option name").as_str().to_string();
+            if let Some((_, first)) = seen.iter().find(|(k, _)| *k == key) {
+                return Err(Error::at(
+                    ErrorKind::RepeatedOption { option: key, first: first.clone() },
+                    &option_span,
+                ));
+            }
+            seen.push((key.clone(), option_span.clone()));
             let values = parts
                 .map(|v| {
                     twice(v.as_str()).ok_or_else(|| {
@@ -323,31 +489,33 @@ impl Resolver {
                 if values.len() == 1 {
                     Ok(values[0])
                 } else {
-                    Err(coupling_error(&option_span, format!("`{}` takes one value", key.as_str())))
+                    Err(coupling_error(&option_span, format!("`{key}` takes one value")))
                 }
             };
             match key.as_str() {
-                "S" => s = Some(single()?),
-                "M" => m = Some(single()?),
+                "S" => out.s = Some(single()?),
+                "M" => out.m = Some(single()?),
                 _ if family => {
                     return Err(coupling_error(
                         &option_span,
                         "`csfs` makes every path itself: leave out `path=`".into(),
                     ));
                 }
-                _ => path = Some((values.clone(), option_span.clone())),
+                _ => out.path = Some((values, option_span)),
             }
         }
-        let written = self.inline_det(det)?.terms[0].1.clone();
-        let occupants = written.occupants.clone();
-        // open shells: the singly occupied orbitals, in the order written
+        Ok(out)
+    }
+
+    /// The positions of the open shells of a csf's determinant, which must carry no spin mark.
+    fn open_shells(&self, written: &DetSpec, det_span: &Span) -> Result<Vec<usize>> {
         let open = written.open_shells();
         for &k in &open {
-            if let Occupant::Electron(so) = &occupants[k]
+            if let Occupant::Electron(so) = &written.occupants[k]
                 && so.spin == Spin::Beta
             {
                 return Err(coupling_error(
-                    &det_span,
+                    det_span,
                     format!(
                         "`{}` carries a spin mark; in a csf the coupling sets the spins: write `{}`",
                         self.program.spin_orbital_name(*so),
@@ -356,218 +524,184 @@ impl Resolver {
                 ));
             }
         }
-        let n = open.len();
-        let s = s.ok_or_else(|| coupling_error(&span, "a csf needs its total spin: add `S=...`".into()))?;
-        let m = m.unwrap_or(s);
-        if s < 0 || s > n as i64 || (s - n as i64) % 2 != 0 {
-            return Err(coupling_error(&span, format!("{n} open shell(s) cannot couple to S = {}", half(s))));
+        Ok(open)
+    }
+
+    /// The path given, the only path, or for `csfs` every path, counted before any is listed.
+    fn coupling_paths(
+        &self,
+        path: Option<(Vec<Twice>, Span)>,
+        family: bool,
+        n: usize,
+        s: Twice,
+        span: &Span,
+    ) -> Result<Vec<Vec<Twice>>> {
+        if let Some((p, at)) = path {
+            return match path_problem(&p, n, s) {
+                Some(why) => Err(coupling_error(&at, why)),
+                None => Ok(vec![p]),
+            };
         }
-        if m.abs() > s || (m - s) % 2 != 0 {
+        let count = path_count(n, s);
+        if !family && count != BigUint::one() {
             return Err(coupling_error(
-                &span,
-                format!("M = {} is not one of -S, -S+1, ..., S for S = {}", half(m), half(s)),
+                span,
+                format!(
+                    "{n} open shells couple to S = {} in {count} ways: give `path=` or use `csfs`",
+                    half(s)
+                ),
             ));
         }
-        let chosen: Vec<Vec<Twice>> = match (&path, family) {
-            (Some((p, at)), _) => {
-                if let Some(why) = path_problem(p, n, s) {
-                    return Err(coupling_error(at, why));
-                }
-                vec![p.clone()]
-            }
-            (None, true) => paths(n, s),
-            (None, false) => {
-                let all = paths(n, s);
-                if all.len() != 1 {
-                    return Err(coupling_error(
-                        &span,
-                        format!(
-                            "{n} open shells couple to S = {} in {} ways: give `path=` or use `csfs`",
-                            half(s),
-                            all.len()
-                        ),
-                    ));
-                }
-                all
-            }
-        };
-        let count = binomial(n, ((n as i64 + m) / 2) as usize);
-        // one function too large to expand keeps only its coupling: its energy comes from spin algebra
-        // past 24 open shells the coefficients' square roots outgrow 64-bit radicands, so such
-        // a function is never expanded
-        let too_many = count > self.limits.max_determinants || n > MAX_EXPANDED_SHELLS;
-        let lazy = too_many && chosen.len() == 1;
-        if too_many && !lazy {
+        if count > BigUint::from(self.limits.max_paths) {
             return Err(Error::at(
                 ErrorKind::TooLarge {
-                    what: format!("this coupled state, with up to {count} determinants,"),
-                    limit: self.limits.max_determinants,
+                    what: format!("{n} open shells coupled to S = {} make", half(s)),
+                    count: count.to_string(),
+                    limit: Box::new(Limit {
+                        value: self.limits.max_paths as u128,
+                        unit: "coupled states",
+                        change: Change::Option { option: "--max-paths", or: None },
+                    }),
                 },
-                &span,
+                span,
             ));
         }
-        let reference_occupants: Vec<Occupant> = occupants
-            .iter()
-            .map(|o| match *o {
-                Occupant::Electron(so) => Occupant::Electron(SpinOrbital::new(so.orb, Spin::Alpha)),
-                closed => closed,
-            })
-            .collect();
-        let coupling = |p: &[Twice]| Coupling {
-            path: p.to_vec(),
-            open: open
-                .iter()
-                .map(|&k| match occupants[k] {
-                    Occupant::Electron(so) => so.orb,
-                    Occupant::Closed(_) => unreachable!("open shells are electrons"),
-                })
-                .collect(),
-            reference: DetSpec { occupants: reference_occupants.clone(), excitations: vec![] },
-            determinants: count,
-        };
-        let build = |p: &[Twice]| {
-            if lazy {
-                return State {
-                    terms: std::sync::Arc::new(vec![]),
-                    coupling: Some(std::sync::Arc::new(coupling(p))),
-                };
+        Ok(paths(n, s))
+    }
+
+    /// Why the members of a family cannot be expanded: too many determinants each, or too many
+    /// open shells for exact coefficients.
+    fn family_too_large(&self, n: usize, determinants: &BigUint, span: &Span) -> Error {
+        let kind = if n > MAX_EXPANDED_SHELLS {
+            ErrorKind::TooLarge {
+                what: "each coupled state of this family has".into(),
+                count: n.to_string(),
+                limit: Box::new(Limit {
+                    value: MAX_EXPANDED_SHELLS as u128,
+                    unit: "open shells",
+                    change: Change::Fixed(
+                        "past it the exact coefficients' square roots outgrow 64-bit integers; a single `csf` with `path=` is kept unexpanded, and its energy and spin come from spin algebra".into(),
+                    ),
+                }),
             }
-            let mut state = State::new(
-                expand(p, m)
-                    .into_iter()
-                    .map(|(spins, coefficient)| {
-                        let mut occ = occupants.clone();
-                        for (&k, alpha) in open.iter().zip(spins) {
-                            if let Occupant::Electron(so) = &mut occ[k] {
-                                so.spin = if alpha { Spin::Alpha } else { Spin::Beta };
-                            }
-                        }
-                        (coefficient, DetSpec { occupants: occ, excitations: vec![] })
-                    })
-                    .collect(),
-            );
-            state.coupling = Some(std::sync::Arc::new(coupling(p)));
-            state
-        };
-        if family {
-            self.declare(&name, Symbol::Family(chosen.len() as u32))?;
-        }
-        for (k, p) in chosen.iter().enumerate() {
-            let label =
-                if family { format!("{}.{}", name.as_str(), k + 1) } else { name.as_str().to_string() };
-            // built from a checked determinant, a coupled state needs no further check
-            let state = build(p);
-            let id = self.program.states.len() as u32;
-            let name_span = self.span(&name);
-            if !family {
-                self.declare(&name, Symbol::State(id))?;
-            } else {
-                self.symbols.insert(label.clone(), (Symbol::State(id), name_span.clone()));
+        } else {
+            ErrorKind::TooLarge {
+                what: "each coupled state of this family spans".into(),
+                count: determinants.to_string(),
+                limit: Box::new(Limit {
+                    value: self.limits.max_determinants as u128,
+                    unit: "determinants",
+                    change: Change::Option { option: "--max-determinants", or: None },
+                }),
             }
-            self.program.states.push(NamedState {
-                name: label,
-                state,
-                is_determinant: false,
-                span: name_span,
-            });
-        }
-        Ok(())
+        };
+        Error::at(kind, span)
     }
 
     fn value(&self, pair: Pair<Rule>) -> Result<Value> {
-        let span = self.span(&pair);
         match pair.as_rule() {
-            Rule::sum => {
-                let mut inner = pair.into_inner().peekable();
-                let negate = inner.peek().is_some_and(|p| p.as_rule() == Rule::sign && p.as_str() == "-");
-                if inner.peek().is_some_and(|p| p.as_rule() == Rule::sign) {
-                    inner.next();
-                }
-                let first = inner.next().expect("grammar: sum has a product");
-                let mut total = self.value(first)?;
-                if negate {
-                    total = negated(total);
-                }
-                while let Some(op) = inner.next() {
-                    let term = inner.next().expect("grammar: operator has a right side");
-                    let term_span = self.span(&term);
-                    let mut right = self.value(term)?;
-                    if op.as_str() == "-" {
-                        right = negated(right);
-                    }
-                    total = added(total, right, &span, &term_span)?;
-                }
-                Ok(total)
-            }
-            Rule::product => {
-                let mut inner = pair.into_inner();
-                let mut total = self.value(inner.next().expect("grammar: product has a unit"))?;
-                let mut divide = false;
-                for piece in inner {
-                    if piece.as_rule() == Rule::mul_op {
-                        divide = piece.as_str() == "/";
-                        continue;
-                    }
-                    let piece_span = self.span(&piece);
-                    let right = self.value(piece)?;
-                    total = multiplied(total, right, divide, &piece_span)?;
-                    divide = false;
-                }
-                Ok(total)
-            }
+            Rule::sum => self.sum(pair),
+            Rule::product => self.product(pair),
             Rule::unit | Rule::operand => self.value(pair.into_inner().next().expect("grammar: unit")),
             Rule::number => Ok(Value::Number(decimal(pair.as_str()))),
-            Rule::sqrt_call => {
-                let argument = pair.into_inner().nth(1).expect("grammar: sqrt argument");
-                let argument_span = self.span(&argument);
-                let bad =
-                    |why: &str| Error::at(ErrorKind::BadCoefficient { why: why.into() }, &argument_span);
-                match self.value(argument)? {
-                    Value::Number(x) => {
-                        let q =
-                            x.as_rational().ok_or_else(|| bad("the square root of an irrational number"))?;
-                        Exact::sqrt_of_rational(&q).map(Value::Number).ok_or_else(|| {
-                            bad(if q < BigRational::from_integer(0.into()) {
-                                "the square root of a negative number"
-                            } else {
-                                "the square root of a number too large (p·q of sqrt(p/q) must stay below 2^32)"
-                            })
-                        })
-                    }
-                    Value::State(_) => Err(bad("the square root of a state")),
-                }
-            }
+            Rule::sqrt_call => self.square_root(pair),
             Rule::group => {
+                let span = self.span(&pair);
                 let mut inner = pair.into_inner();
                 let value = self.value(inner.next().expect("grammar: group body"))?;
                 self.excite(value, inner, &span)
             }
-            Rule::state_atom => {
-                let mut inner = pair.into_inner();
-                let head = inner.next().expect("grammar: atom head");
-                let state = match head.as_rule() {
-                    Rule::inline_det => self.inline_det(head)?,
-                    _ => match self.lookup(&head)? {
-                        Symbol::State(k) => self.program.states[k as usize].state.clone(),
-                        Symbol::Family(count) => {
-                            return Err(Error::at(
-                                ErrorKind::WrongKind {
-                                    name: head.as_str().into(),
-                                    is: format!("a family of {count} coupled states"),
-                                    wanted: format!("one of them, `{0}.1` to `{0}.{count}`,", head.as_str()),
-                                },
-                                &self.span(&head),
-                            ));
-                        }
-                        other => {
-                            return Err(self.wrong_kind(&head, other, "a determinant or state"));
-                        }
-                    },
-                };
-                self.excite(Value::State(state), inner, &span)
-            }
+            Rule::state_atom => self.atom(pair),
             other => unreachable!("grammar: unexpected expression {other:?}"),
         }
+    }
+
+    /// `a ± b ± ...`, with an optional leading sign.
+    fn sum(&self, pair: Pair<Rule>) -> Result<Value> {
+        let span = self.span(&pair);
+        let mut inner = pair.into_inner().peekable();
+        let negate = inner.peek().is_some_and(|p| p.as_rule() == Rule::sign && p.as_str() == "-");
+        if inner.peek().is_some_and(|p| p.as_rule() == Rule::sign) {
+            inner.next();
+        }
+        let first = inner.next().expect("grammar: sum has a product");
+        let mut total = self.value(first)?;
+        if negate {
+            total = negated(total);
+        }
+        while let Some(op) = inner.next() {
+            let term = inner.next().expect("grammar: operator has a right side");
+            let term_span = self.span(&term);
+            let mut right = self.value(term)?;
+            if op.as_str() == "-" {
+                right = negated(right);
+            }
+            total = added(total, right, &span, &term_span)?;
+        }
+        Ok(total)
+    }
+
+    /// `a b`, `a * b`, `a / b`, ...
+    fn product(&self, pair: Pair<Rule>) -> Result<Value> {
+        let mut inner = pair.into_inner();
+        let mut total = self.value(inner.next().expect("grammar: product has a unit"))?;
+        let mut divide = false;
+        for piece in inner {
+            if piece.as_rule() == Rule::mul_op {
+                divide = piece.as_str() == "/";
+                continue;
+            }
+            let piece_span = self.span(&piece);
+            let right = self.value(piece)?;
+            total = multiplied(total, right, divide, &piece_span)?;
+            divide = false;
+        }
+        Ok(total)
+    }
+
+    /// `sqrt(x)` of a non-negative rational x.
+    fn square_root(&self, pair: Pair<Rule>) -> Result<Value> {
+        let argument = pair.into_inner().nth(1).expect("grammar: sqrt argument");
+        let argument_span = self.span(&argument);
+        let bad = |kind: ErrorKind| Error::at(kind, &argument_span);
+        let why = |why: &str| bad(ErrorKind::BadCoefficient { why: why.into() });
+        match self.value(argument)? {
+            Value::Number(x) => {
+                let q = x.as_rational().ok_or_else(|| why("the square root of an irrational number"))?;
+                if q < BigRational::from_integer(0.into()) {
+                    return Err(why("the square root of a negative number"));
+                }
+                Exact::sqrt_of_rational(&q).map(Value::Number).ok_or_else(|| {
+                    bad(ErrorKind::RootTooLarge { product: (q.numer() * q.denom()).to_string() })
+                })
+            }
+            Value::State(_) => Err(why("the square root of a state")),
+        }
+    }
+
+    /// A determinant `| ... |` or a named state, with its excitations.
+    fn atom(&self, pair: Pair<Rule>) -> Result<Value> {
+        let span = self.span(&pair);
+        let mut inner = pair.into_inner();
+        let head = inner.next().expect("grammar: atom head");
+        let state = match head.as_rule() {
+            Rule::inline_det => self.inline_det(head)?,
+            _ => match self.lookup(&head)? {
+                Symbol::State(k) => self.program.states[k as usize].state.clone(),
+                Symbol::Family(count) => {
+                    return Err(Error::at(
+                        ErrorKind::WrongKind {
+                            name: head.as_str().into(),
+                            is: format!("a family of {count} coupled states"),
+                            wanted: format!("one of them, `{0}.1` to `{0}.{count}`,", head.as_str()),
+                        },
+                        &self.span(&head),
+                    ));
+                }
+                other => return Err(self.wrong_kind(&head, other, "a determinant or state")),
+            },
+        };
+        self.excite(Value::State(state), inner, &span)
     }
 
     fn excite<'a>(
@@ -685,6 +819,23 @@ fn coupling_error(span: &Span, why: String) -> Error {
     Error::at(ErrorKind::Coupling { why }, span)
 }
 
+/// S and M of a csf with n open shells, checked; M is S unless given.
+fn total_spin(options: &CsfOptions, n: usize, span: &Span) -> Result<(Twice, Twice)> {
+    let s =
+        options.s.ok_or_else(|| coupling_error(span, "a csf needs its total spin: add `S=...`".into()))?;
+    let m = options.m.unwrap_or(s);
+    if s < 0 || s > n as i64 || (s - n as i64) % 2 != 0 {
+        return Err(coupling_error(span, format!("{n} open shell(s) cannot couple to S = {}", half(s))));
+    }
+    if m.abs() > s || (m - s) % 2 != 0 {
+        return Err(coupling_error(
+            span,
+            format!("M = {} is not one of -S, -S+1, ..., S for S = {}", half(m), half(s)),
+        ));
+    }
+    Ok((s, m))
+}
+
 /// "1/2" → 1, "3" → 6: a spin value as twice itself, if it is a whole or half integer.
 fn twice(text: &str) -> Option<Twice> {
     match text.split_once('/') {
@@ -692,13 +843,6 @@ fn twice(text: &str) -> Option<Twice> {
         Some(_) => None,
         None => text.parse::<i64>().ok().map(|v| 2 * v),
     }
-}
-
-fn binomial(n: usize, k: usize) -> usize {
-    if k > n {
-        return 0;
-    }
-    (0..k.min(n - k)).fold(1usize, |acc, i| acc.saturating_mul(n - i) / (i + 1))
 }
 
 fn decimal(text: &str) -> Exact {

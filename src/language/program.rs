@@ -1,9 +1,11 @@
 //! A parsed and resolved input: the orbitals, spaces and generic indices it declares, the
 //! determinants and states it defines, and the requests it makes, in source order.
 
+use crate::engine::coupling::Twice;
 use crate::engine::exact::Exact;
 use crate::error::{Source, Span};
 use crate::language::orbital::{Orb, SpaceId, Spin, SpinOrbital};
+use num_bigint::BigUint;
 use std::collections::BTreeSet;
 use std::sync::Arc;
 
@@ -74,14 +76,23 @@ pub struct State {
 }
 
 /// A genealogically coupled function: the open shells of `reference` (its singly occupied
-/// orbitals, all alpha there) coupled in order along `path` (twice the spins).
+/// orbitals, all alpha there) coupled in order along `path` (twice the spins) to S = the last
+/// entry of `path` and M = `m` (twice the spins).
 #[derive(Clone, Debug, PartialEq)]
 pub struct Coupling {
-    pub path: Vec<i64>,
+    pub path: Vec<Twice>,
+    pub m: Twice,
     pub open: Vec<Orb>,
     pub reference: DetSpec,
-    /// The number of determinants the function spans.
-    pub determinants: usize,
+    /// The number of determinants the function spans, exactly: C(n, n/2 + M) for n open shells.
+    pub determinants: BigUint,
+}
+
+impl Coupling {
+    /// Twice the total spin S.
+    pub fn s(&self) -> Twice {
+        self.path.last().copied().unwrap_or(0)
+    }
 }
 
 impl State {

@@ -16,7 +16,8 @@ fn declared(text: &str) -> Declared {
     let mut out = Declared::default();
     for line in text.lines() {
         let line = line.split('#').next().unwrap_or("");
-        let words: Vec<&str> = line.split(|c: char| c.is_whitespace() || c == ':').filter(|w| !w.is_empty()).collect();
+        let words: Vec<&str> =
+            line.split(|c: char| c.is_whitespace() || c == ':').filter(|w| !w.is_empty()).collect();
         match words.split_first() {
             Some((&"orbitals", names)) => out.orbitals.extend(names.iter().map(|s| s.to_string())),
             Some((&"space", [name, indices @ ..])) => {

@@ -60,15 +60,17 @@ fn step_kind(step: &Step) -> String {
 }
 
 fn of_step(input: &Input, k: Option<usize>) -> BinaryRun {
-    let argv = k.and_then(|k| input.steps.get(k)).map(Step::argv).unwrap_or_else(|| {
-        vec!["derive".into(), INPUT_FILE.into()]
-    });
+    let argv = k
+        .and_then(|k| input.steps.get(k))
+        .map(Step::argv)
+        .unwrap_or_else(|| vec!["derive".into(), INPUT_FILE.into()]);
     BinaryRun { argv, stdin: false, writes: false }
 }
 
 /// The steps of the input up to the failing one.
 fn steps_to(input: &Input, k: Option<usize>) -> Vec<Step> {
-    k.map(|k| input.steps[..=k.min(input.steps.len().saturating_sub(1))].to_vec()).unwrap_or_else(|| input.steps.clone())
+    k.map(|k| input.steps[..=k.min(input.steps.len().saturating_sub(1))].to_vec())
+        .unwrap_or_else(|| input.steps.clone())
 }
 
 /// Every bug shown by one input.
@@ -83,7 +85,11 @@ pub fn classify(input: &Input, result: &WorkerResult, binary: &[BinaryResult]) -
                     let at = o.message.split(": ").next().unwrap_or("").to_string();
                     ("panic", at, o.message.clone())
                 } else if o.code == 1 {
-                    ("verification-mismatch", format!("{} {}", step_kind(step), normalized(o.message.lines().next().unwrap_or(""))), o.message.clone())
+                    (
+                        "verification-mismatch",
+                        format!("{} {}", step_kind(step), normalized(o.message.lines().next().unwrap_or(""))),
+                        o.message.clone(),
+                    )
                 } else if o.code != 0 && o.code != 2 {
                     ("bad-exit", format!("exit {}", o.code), o.message.clone())
                 } else if let Some(problem) = &o.problem {
@@ -129,7 +135,8 @@ pub fn classify(input: &Input, result: &WorkerResult, binary: &[BinaryResult]) -
     }
     for b in binary {
         if let Some(problem) = b.problem() {
-            let first = b.stderr.lines().find(|l| l.contains("panicked") || l.contains("error")).unwrap_or("");
+            // a panic is told apart by where it happened
+            let first = b.stderr.lines().find(|l| l.contains("panicked at")).unwrap_or("");
             out.push(Finding {
                 category: format!("binary-{problem}"),
                 signature: format!("binary-{problem}: {} {}", b.run.argv[0], normalized(first)),
@@ -224,12 +231,15 @@ impl Findings {
 fn save(dir: &Path, input: &Input, f: &Finding, findings: &Findings) -> std::io::Result<()> {
     std::fs::create_dir_all(dir)?;
     std::fs::write(dir.join(INPUT_FILE), &input.bytes)?;
-    std::fs::write(dir.join(INTEGRALS_FILE), &findings.integrals)?;
+    let integrals = input.integrals.as_deref().unwrap_or(findings.integrals.as_bytes());
+    std::fs::write(dir.join(INTEGRALS_FILE), integrals)?;
     let line = |run: &BinaryRun| {
         let cmd = shell_line("spinfold", &run.argv);
         if run.stdin { format!("{cmd} < {INPUT_FILE}") } else { cmd }
     };
-    let mut commands = String::from("#!/bin/sh\n# Run from this directory, with spinfold on PATH.\n# The command that shows the finding:\n");
+    let mut commands = String::from(
+        "#!/bin/sh\n# Run from this directory, with spinfold on PATH.\n# The command that shows the finding:\n",
+    );
     writeln!(commands, "{}", line(&f.run)).expect("writing to a string");
     commands.push_str("# Every command run on this input:\n");
     for step in &input.steps {
@@ -240,11 +250,14 @@ fn save(dir: &Path, input: &Input, f: &Finding, findings: &Findings) -> std::io:
     }
     std::fs::write(dir.join("commands.sh"), commands)?;
     let replay = Replay { signature: f.signature.clone(), steps: f.steps.clone(), run: f.run.clone() };
-    std::fs::write(dir.join("finding.json"), serde_json::to_string_pretty(&replay).expect("plain data serializes"))?;
+    std::fs::write(
+        dir.join("finding.json"),
+        serde_json::to_string_pretty(&replay).expect("plain data serializes"),
+    )?;
     // the real binary on the same input and command, in a scratch copy of this directory
     let scratch = tempfile::tempdir()?;
-    std::fs::write(scratch.path().join(INTEGRALS_FILE), &findings.integrals)?;
-    let replay = run_binary(&findings.spinfold, scratch.path(), &input.bytes, &f.run, &findings.limits);
+    let replay =
+        run_binary(&findings.spinfold, scratch.path(), &input.bytes, integrals, &f.run, &findings.limits);
     let report = format!(
         "category: {}\nsignature: {}\ninput: number {} of seed {} ({}), {} bytes\ncommand: {}\n\n{}\n\n\
          the real binary on this command: exit {:?}, signal {:?}, timed out {}, {} ms{}\nits standard error (tail):\n{}\n",

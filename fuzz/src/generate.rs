@@ -73,8 +73,10 @@ const KEYWORDS: [&str; 11] =
 
 impl<R: Rng> Gen<'_, R> {
     fn name(&mut self, usual: &[&str]) -> String {
-        const ODD: [&str; 14] =
-            ["o12", "_a", "A_b2", "x_", "S", "M", "path", "sqrtx", "spin_", "energy2", "detx", "Q9", "_", "csf1"];
+        const ODD: [&str; 14] = [
+            "o12", "_a", "A_b2", "x_", "S", "M", "path", "sqrtx", "spin_", "energy2", "detx", "Q9", "_",
+            "csf1",
+        ];
         loop {
             let candidate = if self.rng.random_bool(0.85) {
                 usual.choose(self.rng).expect("names to choose from").to_string()
@@ -157,7 +159,9 @@ impl<R: Rng> Gen<'_, R> {
     /// Orbitals free to hold explicit electrons next to the closed spaces `closed`.
     fn free_orbitals(&self, closed: &BTreeSet<usize>) -> Vec<Orb> {
         let mut orbs: Vec<Orb> = (0..self.orbitals.len()).map(Orb::Named).collect();
-        orbs.extend((0..self.indices.len()).filter(|&k| !closed.contains(&self.indices[k].1)).map(Orb::Index));
+        orbs.extend(
+            (0..self.indices.len()).filter(|&k| !closed.contains(&self.indices[k].1)).map(Orb::Index),
+        );
         orbs
     }
 
@@ -212,7 +216,8 @@ impl<R: Rng> Gen<'_, R> {
             (d.electrons.contains(&so) || in_closed) && !d.holes.contains(&so)
         };
         let maybe = |d: &Occ, so: SpinOrb| d.open.contains(&so.0);
-        let full = all.iter().copied().filter(|&so| dets.iter().all(|d| occupied(d, so) && !maybe(d, so))).collect();
+        let full =
+            all.iter().copied().filter(|&so| dets.iter().all(|d| occupied(d, so) && !maybe(d, so))).collect();
         let empty = all
             .iter()
             .copied()
@@ -264,8 +269,24 @@ impl<R: Rng> Gen<'_, R> {
 
     fn coefficient(&mut self) -> String {
         const FORMS: [&str; 18] = [
-            "", "", "", "2", "3", "1/2", "0.6", "sqrt(2)", "sqrt(3)/2", "1/sqrt(2)", "sqrt(1/3)", "2*sqrt(5)/3",
-            "(1/2)", "sqrt(6)", "0.25", "7/11", "sqrt(2/3)", "sqrt(8)",
+            "",
+            "",
+            "",
+            "2",
+            "3",
+            "1/2",
+            "0.6",
+            "sqrt(2)",
+            "sqrt(3)/2",
+            "1/sqrt(2)",
+            "sqrt(1/3)",
+            "2*sqrt(5)/3",
+            "(1/2)",
+            "sqrt(6)",
+            "0.25",
+            "7/11",
+            "sqrt(2/3)",
+            "sqrt(8)",
         ];
         if self.rng.random_bool(0.01) {
             return "0".into();
@@ -321,7 +342,10 @@ impl<R: Rng> Gen<'_, R> {
             dets.extend(candidate.1);
         }
         if self.rng.random_bool(0.2) {
-            text = format!("({text})/{}", ["sqrt(2)", "2", "sqrt(3)", "sqrt(5/2)"].choose(self.rng).expect("norms"));
+            text = format!(
+                "({text})/{}",
+                ["sqrt(2)", "2", "sqrt(3)", "sqrt(5/2)"].choose(self.rng).expect("norms")
+            );
         }
         (text, dets)
     }

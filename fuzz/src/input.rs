@@ -3,7 +3,7 @@
 
 use crate::binding::binds;
 use crate::generate;
-use crate::integrals::NORB;
+use crate::integrals::{self, NORB};
 use crate::mutate;
 use crate::plan::{self, Step};
 use rand::seq::IndexedRandom;
@@ -21,10 +21,13 @@ pub enum Category {
     Mutated,
     /// byte-level mutations: control characters, non-UTF-8, byte-order marks
     Bytes,
+    /// a generated program evaluated with a mutated integral file
+    Dump,
 }
 
 impl Category {
-    pub const ALL: [Category; 4] = [Category::Generated, Category::Large, Category::Mutated, Category::Bytes];
+    pub const ALL: [Category; 5] =
+        [Category::Generated, Category::Large, Category::Mutated, Category::Bytes, Category::Dump];
 
     pub fn name(self) -> &'static str {
         match self {
@@ -32,6 +35,7 @@ impl Category {
             Category::Large => "generated-large",
             Category::Mutated => "mutated",
             Category::Bytes => "bytes",
+            Category::Dump => "integral-file",
         }
     }
 }
@@ -57,6 +61,8 @@ pub struct Input {
     /// steps for a worker; empty when the input is not UTF-8 (the library takes text)
     pub steps: Vec<Step>,
     pub binary: Vec<BinaryRun>,
+    /// an integral file of its own for the binary runs (else the run's)
+    pub integrals: Option<Vec<u8>>,
 }
 
 /// The generator of input k of a run with `seed`.
@@ -66,8 +72,8 @@ fn rng_for(seed: u64, index: u64) -> ChaCha8Rng {
     rng
 }
 
-/// Input k of a run: 45% small generated programs, 5% larger ones, 40% text mutations of the
-/// examples (or of a generated program), 10% byte mutations.
+/// Input k of a run: 42% small generated programs, 5% larger ones, 40% text mutations of the
+/// examples (or of a generated program), 10% byte mutations, 3% mutated integral files.
 pub fn make(seed: u64, index: u64, examples: &[String]) -> Input {
     let mut rng = rng_for(seed, index);
     let roll = rng.random_range(0..100);
@@ -79,17 +85,37 @@ pub fn make(seed: u64, index: u64, examples: &[String]) -> Input {
         }
     };
     let (category, bytes) = match roll {
-        0..45 => (Category::Generated, generate::program(&mut rng, generate::SMALL).into_bytes()),
-        45..50 => (Category::Large, generate::program(&mut rng, generate::LARGE).into_bytes()),
-        50..90 => {
+        0..42 => (Category::Generated, generate::program(&mut rng, generate::SMALL).into_bytes()),
+        42..47 => (Category::Large, generate::program(&mut rng, generate::LARGE).into_bytes()),
+        47..87 => {
             let (a, b) = (pick_seed(&mut rng), pick_seed(&mut rng));
             (Category::Mutated, mutate::text(&mut rng, &a, &b).into_bytes())
         }
-        _ => {
+        87..97 => {
             let a = pick_seed(&mut rng);
             (Category::Bytes, mutate::bytes(&mut rng, &a))
         }
+        _ => (Category::Dump, generate::program(&mut rng, generate::SMALL).into_bytes()),
     };
+    if category == Category::Dump {
+        // the binary alone, on a small integral file with odd entries
+        let text = String::from_utf8(bytes.clone()).expect("generated programs are text");
+        let norb = 6;
+        let clean = integrals::dump_text(rng.random(), norb);
+        let dump = mutate::dump(&mut rng, &clean);
+        let mut argv: Vec<String> = ["eval", plan::INPUT_FILE, "--integrals", plan::INTEGRALS_FILE]
+            .iter()
+            .map(|s| s.to_string())
+            .collect();
+        for b in binds(&text, norb, &mut rng) {
+            argv.extend(["--bind".into(), b]);
+        }
+        if rng.random_bool(0.5) {
+            argv.push("--json".into());
+        }
+        let binary = vec![BinaryRun { argv, stdin: false, writes: false }];
+        return Input { index, category, bytes, steps: Vec::new(), binary, integrals: Some(dump) };
+    }
     let text = String::from_utf8(bytes.clone()).ok();
     let seed_option = rng.random_bool(0.2).then(|| rng.random_range(0..1_000_000));
     let steps = match &text {
@@ -121,10 +147,11 @@ pub fn make(seed: u64, index: u64, examples: &[String]) -> Input {
             if per_request {
                 argv.push("--per-request".into());
             }
-            let target = *["out/result", "out/result", "out/missing/result", "out"].choose(&mut rng).expect("targets");
+            let target =
+                *["out/result", "out/result", "out/missing/result", "out"].choose(&mut rng).expect("targets");
             argv.extend(["-o".into(), target.into()]);
         }
         binary.push(BinaryRun { argv, stdin, writes });
     }
-    Input { index, category, bytes, steps, binary }
+    Input { index, category, bytes, steps, binary, integrals: None }
 }

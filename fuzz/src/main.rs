@@ -130,7 +130,8 @@ struct Shared {
 /// death or a timeout) and through the binary where the input asks for it.
 fn slot(shared: Arc<Shared>, events: Sender<Event>) {
     let scratch = tempfile::tempdir().expect("a scratch directory");
-    let integrals = scratch.path().join(plan::INTEGRALS_FILE);
+    // the workers' copy; binary runs write theirs into the scratch directory itself
+    let integrals = scratch.path().join("worker.fcidump");
     std::fs::write(&integrals, &shared.integrals).expect("the scratch directory is writable");
     let mut worker = Worker::spawn(&integrals, &shared.limits);
     loop {
@@ -153,7 +154,10 @@ fn slot(shared: Arc<Shared>, events: Sender<Event>) {
         let binary = input
             .binary
             .iter()
-            .map(|run| run_binary(&shared.spinfold, scratch.path(), &input.bytes, run, &shared.limits))
+            .map(|run| {
+                let ints = input.integrals.as_deref().unwrap_or(shared.integrals.as_bytes());
+                run_binary(&shared.spinfold, scratch.path(), &input.bytes, ints, run, &shared.limits)
+            })
             .collect();
         let millis = start.elapsed().as_millis() as u64;
         if events.send(Event { input, result, binary, millis }).is_err() {
@@ -191,7 +195,14 @@ fn main() {
             eprintln!("{}", plan::shell_line("spinfold", &step.argv()));
         }
         for run in &input.binary {
-            eprintln!("{}{}", plan::shell_line("spinfold", &run.argv), if run.stdin { " < input.spinfold" } else { "" });
+            eprintln!(
+                "{}{}",
+                plan::shell_line("spinfold", &run.argv),
+                if run.stdin { " < input.spinfold" } else { "" }
+            );
+        }
+        if let Some(dump) = &input.integrals {
+            eprintln!("with its own integral file:\n{}", String::from_utf8_lossy(dump));
         }
         return;
     }
@@ -214,7 +225,7 @@ fn main() {
         max_inputs: args.inputs.unwrap_or(u64::MAX),
         deadline: start + Duration::from_secs(args.seconds),
         limits: limits.clone(),
-        integrals: integrals::dump_text(args.seed),
+        integrals: integrals::dump_text(args.seed, integrals::NORB),
         spinfold: spinfold.clone(),
     });
     let mut findings =
@@ -234,12 +245,16 @@ fn main() {
         total += 1;
         let t = tally.get_mut(&event.input.category).expect("every category is tallied");
         t.inputs += 1;
-        if let WorkerResult::Done(outcomes) = &event.result {
-            if outcomes.iter().all(|o| o.code == 0) {
-                t.accepted += 1;
-            } else if outcomes.iter().any(|o| o.code == 2) {
-                t.rejected += 1;
-            }
+        // exit statuses of the worker's steps, or of the binary where no worker took the input
+        let codes: Vec<Option<i32>> = match &event.result {
+            WorkerResult::Done(outcomes) => outcomes.iter().map(|o| Some(o.code)).collect(),
+            WorkerResult::Skipped => event.binary.iter().map(|b| b.code).collect(),
+            _ => vec![None],
+        };
+        if codes.iter().all(|&c| c == Some(0)) {
+            t.accepted += 1;
+        } else if codes.contains(&Some(2)) {
+            t.rejected += 1;
         }
         if event.millis > 1000 {
             t.slow += 1;
@@ -269,8 +284,15 @@ fn main() {
         let _ = s.join();
     }
     let secs = start.elapsed().as_secs_f64();
-    println!("spinfold-fuzz: seed {}, {total} inputs in {secs:.0} s ({:.0}/s)", args.seed, total as f64 / secs);
-    println!("{:<16} {:>8} {:>9} {:>9} {:>7} {:>12} {:>9}", "category", "inputs", "accepted", "rejected", "slow", "slowest ms", "findings");
+    println!(
+        "spinfold-fuzz: seed {}, {total} inputs in {secs:.0} s ({:.0}/s)",
+        args.seed,
+        total as f64 / secs
+    );
+    println!(
+        "{:<16} {:>8} {:>9} {:>9} {:>7} {:>12} {:>9}",
+        "category", "inputs", "accepted", "rejected", "slow", "slowest ms", "findings"
+    );
     for (c, t) in &tally {
         println!(
             "{:<16} {:>8} {:>9} {:>9} {:>7} {:>12} {:>9}",

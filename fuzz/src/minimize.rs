@@ -35,6 +35,7 @@ impl Probe<'_> {
             bytes: bytes.to_vec(),
             steps: self.replay.steps.clone(),
             binary: if by_worker { Vec::new() } else { vec![self.replay.run.clone()] },
+            integrals: None,
         };
         let (result, binary) = if by_worker {
             let integrals = self.dir.join(INTEGRALS_FILE);
@@ -47,8 +48,14 @@ impl Probe<'_> {
             (result, Vec::new())
         } else {
             let integrals = std::fs::read(self.dir.join(INTEGRALS_FILE)).unwrap_or_default();
-            std::fs::write(self.scratch.path().join(INTEGRALS_FILE), integrals).expect("the scratch is writable");
-            let b = run_binary(self.spinfold, self.scratch.path(), bytes, &self.replay.run, self.limits);
+            let b = run_binary(
+                self.spinfold,
+                self.scratch.path(),
+                bytes,
+                &integrals,
+                &self.replay.run,
+                self.limits,
+            );
             (WorkerResult::Skipped, vec![b])
         };
         classify(&input, &result, &binary).iter().any(|f| f.signature == self.replay.signature)

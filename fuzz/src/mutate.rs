@@ -8,19 +8,94 @@ use rand::{Rng, RngExt};
 
 /// Tokens of the language and its edges, inserted or substituted at random.
 const TOKENS: [&str; 71] = [
-    "|", "| ", "'", "^2", "^", "[", "->", "]", "(", ")", "sqrt(", "sqrt", "*", "/", "+", "-", "=", ",", ".",
-    ":", "#", " ", "\n", "0", "1", "2", "3", "1/2", "3/2", "-1/2", "0.5", "0.6", "12", "1.", ".5",
-    "99999999999999999999999999999", "0.000000000000000000000000001", "18446744073709551616",
-    "4294967297", "/0", "/0.0", "sqrt(0)", "sqrt(-1)", "sqrt(1/0)", "orbitals", "space", "det", "state",
-    "csf", "csfs", "energy", "element", "overlap", "spin", "S=", "M=", "path=", "S=1/2", "S=-1", "S=100",
-    "M=3/2", "M=-7/2", "path=1/2,1,1/2", "path=1/2,0,1/2,1,3/2", "path=1/2,3/2", "S=1/3", "x", "a", "i",
-    "core", "ref",
+    "|",
+    "| ",
+    "'",
+    "^2",
+    "^",
+    "[",
+    "->",
+    "]",
+    "(",
+    ")",
+    "sqrt(",
+    "sqrt",
+    "*",
+    "/",
+    "+",
+    "-",
+    "=",
+    ",",
+    ".",
+    ":",
+    "#",
+    " ",
+    "\n",
+    "0",
+    "1",
+    "2",
+    "3",
+    "1/2",
+    "3/2",
+    "-1/2",
+    "0.5",
+    "0.6",
+    "12",
+    "1.",
+    ".5",
+    "99999999999999999999999999999",
+    "0.000000000000000000000000001",
+    "18446744073709551616",
+    "4294967297",
+    "/0",
+    "/0.0",
+    "sqrt(0)",
+    "sqrt(-1)",
+    "sqrt(1/0)",
+    "orbitals",
+    "space",
+    "det",
+    "state",
+    "csf",
+    "csfs",
+    "energy",
+    "element",
+    "overlap",
+    "spin",
+    "S=",
+    "M=",
+    "path=",
+    "S=1/2",
+    "S=-1",
+    "S=100",
+    "M=3/2",
+    "M=-7/2",
+    "path=1/2,1,1/2",
+    "path=1/2,0,1/2,1,3/2",
+    "path=1/2,3/2",
+    "S=1/3",
+    "x",
+    "a",
+    "i",
+    "core",
+    "ref",
 ];
 
 /// Odd csf options: spins out of range, negative, non-half-integer, huge, long paths.
 const CSF_OPTIONS: [&str; 14] = [
-    "S=0", "S=1/2", "S=1", "S=3/2", "S=2", "S=5/2", "S=-1/2", "S=7/3", "S=1000000000000", "M=-1/2",
-    "M=1/2", "M=5/2", "path=1/2,1,3/2,2,5/2,3,7/2,4,9/2,5,11/2,6,13/2,7,15/2,8,17/2",
+    "S=0",
+    "S=1/2",
+    "S=1",
+    "S=3/2",
+    "S=2",
+    "S=5/2",
+    "S=-1/2",
+    "S=7/3",
+    "S=1000000000000",
+    "M=-1/2",
+    "M=1/2",
+    "M=5/2",
+    "path=1/2,1,3/2,2,5/2,3,7/2,4,9/2,5,11/2,6,13/2,7,15/2,8,17/2",
     "path=1/2,0,1/2,0,1/2,0,1/2,0,1/2,0,1/2,0,1/2,0,1/2,0,1/2,0,1/2,0,1/2,0,1/2,0,1/2",
 ];
 
@@ -70,7 +145,8 @@ fn edit(rng: &mut impl Rng, text: &str, other: &str) -> String {
     }
     let n = lines.len();
     let mut toks = tokens(text);
-    let words: Vec<String> = toks.iter().filter(|t| t.chars().all(|c| c.is_ascii_alphanumeric() || c == '_')).cloned().collect();
+    let words: Vec<String> =
+        toks.iter().filter(|t| t.chars().all(|c| c.is_ascii_alphanumeric() || c == '_')).cloned().collect();
     match rng.random_range(0..16) {
         0 => {
             lines.remove(below(rng, n));
@@ -127,26 +203,52 @@ fn edit(rng: &mut impl Rng, text: &str, other: &str) -> String {
             let numbers: Vec<usize> =
                 (0..toks.len()).filter(|&k| toks[k].starts_with(|c: char| c.is_ascii_digit())).collect();
             if let Some(&k) = numbers.choose(rng) {
-                toks[k] = ["0", "99999999999999999999999999999999999", "0.0000000000000000000000000001", "1/0", "007"]
-                    .choose(rng)
-                    .expect("numbers")
-                    .to_string();
+                toks[k] = [
+                    "0",
+                    "99999999999999999999999999999999999",
+                    "0.0000000000000000000000000001",
+                    "1/0",
+                    "007",
+                ]
+                .choose(rng)
+                .expect("numbers")
+                .to_string();
                 return toks.concat();
             }
         }
         11 => {
-            // deep nesting around an operand or coefficient
+            // deep nesting: around the right side of a state or the operand of a request,
+            // else anywhere
             let depth = *[10, 100, 1000, 20000].choose(rng).expect("depths");
-            let k = below(rng, toks.len() + 1);
-            let open = if rng.random_bool(0.5) { "(" } else { "sqrt(" };
-            toks.insert(k, format!("{}x{}", open.repeat(depth), ")".repeat(depth)));
-            return toks.concat();
+            let open = if rng.random_bool(0.7) { "(" } else { "sqrt(" };
+            let nestable: Vec<usize> = (0..n)
+                .filter(|&k| {
+                    ["state ", "energy ", "spin "].iter().any(|w| lines[k].trim_start().starts_with(w))
+                })
+                .collect();
+            match nestable.choose(rng) {
+                Some(&k) => {
+                    let at = lines[k]
+                        .find('=')
+                        .map(|e| e + 1)
+                        .unwrap_or_else(|| lines[k].find(' ').unwrap_or(0) + 1);
+                    let (head, tail) = lines[k].split_at(at);
+                    let tail = tail.split('#').next().unwrap_or("").trim();
+                    lines[k] = format!("{head} {}{tail}{}", open.repeat(depth), ")".repeat(depth));
+                }
+                None => {
+                    let k = below(rng, toks.len() + 1);
+                    toks.insert(k, format!("{}x{}", open.repeat(depth), ")".repeat(depth)));
+                    return toks.concat();
+                }
+            }
         }
         12 => {
             // a very long line: one token or one line repeated
             let times = *[100, 5000, 50000].choose(rng).expect("lengths");
             let k = below(rng, n);
-            let piece = if rng.random_bool(0.5) { random_token(rng, &words) + " " } else { lines[k].clone() + " " };
+            let piece =
+                if rng.random_bool(0.5) { random_token(rng, &words) + " " } else { lines[k].clone() + " " };
             if piece.len() * times < 400_000 {
                 lines[k].push_str(&piece.repeat(times));
             }
@@ -160,7 +262,8 @@ fn edit(rng: &mut impl Rng, text: &str, other: &str) -> String {
         14 => {
             // odd options on a csf line, or one more csf line
             let option = CSF_OPTIONS.choose(rng).expect("options");
-            match (0..n).filter(|&k| lines[k].trim_start().starts_with("csf")).collect::<Vec<_>>().choose(rng) {
+            match (0..n).filter(|&k| lines[k].trim_start().starts_with("csf")).collect::<Vec<_>>().choose(rng)
+            {
                 Some(&k) => lines[k] = format!("{} {option}", lines[k]),
                 None => lines.insert(below(rng, n + 1), format!("csf zz = | x y z | {option}")),
             }
@@ -202,12 +305,20 @@ pub fn bytes(rng: &mut impl Rng, seed: &str) -> Vec<u8> {
         let at = rng.random_range(0..=out.len());
         match rng.random_range(0..8) {
             0 => {
-                let junk: &[&[u8]] = &[b"\0", b"\r", b"\x0b", b"\x0c", b"\x1b[31m", b"\x7f", b"\t", b"\r\n\r"];
+                let junk: &[&[u8]] =
+                    &[b"\0", b"\r", b"\x0b", b"\x0c", b"\x1b[31m", b"\x7f", b"\t", b"\r\n\r"];
                 out.splice(at..at, junk.choose(rng).expect("junk").iter().copied());
             }
             1 => {
-                let junk: &[&[u8]] =
-                    &[b"\xff", b"\xc3", b"\xe2\x82", b"\xc0\xaf", b"\xed\xa0\x80", b"\xf4\x90\x80\x80", b"\xfe\xff"];
+                let junk: &[&[u8]] = &[
+                    b"\xff",
+                    b"\xc3",
+                    b"\xe2\x82",
+                    b"\xc0\xaf",
+                    b"\xed\xa0\x80",
+                    b"\xf4\x90\x80\x80",
+                    b"\xfe\xff",
+                ];
                 out.splice(at..at, junk.choose(rng).expect("junk").iter().copied());
             }
             2 => {
@@ -236,4 +347,59 @@ pub fn bytes(rng: &mut impl Rng, seed: &str) -> Vec<u8> {
         }
     }
     out
+}
+
+/// Values, orbital numbers and header entries that an integral file should never have.
+const DUMP_VALUES: [&str; 12] =
+    ["nan", "inf", "-inf", "1e308", "-1e308", "1e-320", "1.0D+00", "1,0", "0x10", "", "1e309", "-0"];
+const DUMP_INDICES: [&str; 8] = ["0", "-1", "99", "4294967297", "18446744073709551616", "a", "1.5", "2"];
+const NORBS: [&str; 9] = ["0", "1", "3", "300", "2000", "100000", "-1", "99999999999999999999", "x"];
+
+/// One to three edits of an integral file: header values, entries with odd values or orbital
+/// numbers, lines removed, repeated or cut, and the byte-level edits of inputs.
+pub fn dump(rng: &mut impl Rng, text: &str) -> Vec<u8> {
+    let mut lines: Vec<String> = text.lines().map(str::to_string).collect();
+    for _ in 0..rng.random_range(1..=3) {
+        let n = lines.len();
+        let k = below(rng, n);
+        match rng.random_range(0..8) {
+            0 => {
+                let norb = NORBS.choose(rng).expect("values");
+                lines[0] = format!(" &FCI NORB={norb},NELEC=2,MS2=0,");
+            }
+            1 => {
+                let mut fields: Vec<String> = lines[k].split_whitespace().map(str::to_string).collect();
+                if !fields.is_empty() {
+                    fields[0] = DUMP_VALUES.choose(rng).expect("values").to_string();
+                }
+                lines[k] = fields.join(" ");
+            }
+            2 => {
+                let mut fields: Vec<String> = lines[k].split_whitespace().map(str::to_string).collect();
+                if fields.len() > 1 {
+                    let at = rng.random_range(1..fields.len());
+                    fields[at] = DUMP_INDICES.choose(rng).expect("indices").to_string();
+                }
+                lines[k] = fields.join(" ");
+            }
+            3 => {
+                lines.remove(k);
+            }
+            4 => {
+                let line = lines[k].clone();
+                lines.insert(k, line);
+            }
+            5 => {
+                lines[k].push_str(" 1");
+            }
+            6 => {
+                lines.retain(|l| !l.contains("&END"));
+            }
+            _ => {
+                lines.truncate(k);
+            }
+        }
+    }
+    let out = lines.join("\n") + "\n";
+    if rng.random_bool(0.2) { bytes(rng, &out) } else { out.into_bytes() }
 }

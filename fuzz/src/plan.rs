@@ -114,9 +114,7 @@ pub fn full(seed: Option<u64>, binds: Vec<String>, json: bool) -> Vec<Step> {
         .flat_map(|&variant| Emit::ALL.into_iter().map(move |emit| Step::Derive { variant, emit }))
         .collect();
     steps.extend([Step::States { json: false }, Step::States { json: true }]);
-    steps.extend(
-        variants[..3].iter().map(|&variant| Step::Eval { variant, binds: binds.clone(), json }),
-    );
+    steps.extend(variants[..3].iter().map(|&variant| Step::Eval { variant, binds: binds.clone(), json }));
     steps
 }
 

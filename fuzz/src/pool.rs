@@ -3,7 +3,7 @@
 //! Also runs the real binary on an input under the same limits.
 
 use crate::input::{BinaryRun, OUTPUT};
-use crate::plan::INPUT_FILE;
+use crate::plan::{INPUT_FILE, INTEGRALS_FILE};
 use crate::worker::{Job, Outcome, Reply};
 use std::io::{Read, Write};
 use std::os::unix::process::ExitStatusExt;
@@ -60,8 +60,13 @@ pub enum WorkerResult {
     /// the input is not UTF-8: only the binary can take it
     Skipped,
     Done(Vec<Outcome>),
-    Died { step: Option<usize>, death: Death },
-    TimedOut { step: Option<usize> },
+    Died {
+        step: Option<usize>,
+        death: Death,
+    },
+    TimedOut {
+        step: Option<usize>,
+    },
 }
 
 /// One command of the real binary and how it ended.
@@ -84,6 +89,8 @@ impl BinaryResult {
             Some("timeout".into())
         } else if self.stderr.contains("has overflowed its stack") {
             Some("stack-overflow".into())
+        } else if self.stderr.contains("memory allocation of") {
+            Some("out-of-memory".into())
         } else if self.stderr.contains("panicked") {
             Some("panic".into())
         } else if let Some(signal) = self.signal {
@@ -191,7 +198,8 @@ impl Worker {
         if let Some(t) = self.stderr_thread.take() {
             let _ = t.join();
         }
-        let stderr = String::from_utf8_lossy(&self.stderr.lock().unwrap_or_else(|e| e.into_inner())).into_owned();
+        let stderr =
+            String::from_utf8_lossy(&self.stderr.lock().unwrap_or_else(|e| e.into_inner())).into_owned();
         WorkerResult::Died { step, death: Death::new(status, stderr) }
     }
 }
@@ -205,8 +213,16 @@ impl Drop for Worker {
 
 /// Runs the real binary once in `dir` (where the input file is), with the same memory limit
 /// and timeout as a worker, and checks what `-o` left behind.
-pub fn run_binary(spinfold: &Path, dir: &Path, input: &[u8], run: &BinaryRun, limits: &Limits) -> BinaryResult {
+pub fn run_binary(
+    spinfold: &Path,
+    dir: &Path,
+    input: &[u8],
+    integrals: &[u8],
+    run: &BinaryRun,
+    limits: &Limits,
+) -> BinaryResult {
     let out_dir = dir.join("out");
+    std::fs::write(dir.join(INTEGRALS_FILE), integrals).expect("the work directory is writable");
     let _ = std::fs::remove_dir_all(&out_dir);
     std::fs::create_dir_all(&out_dir).expect("the work directory is writable");
     std::fs::write(dir.join(INPUT_FILE), input).expect("the work directory is writable");
@@ -217,7 +233,7 @@ pub fn run_binary(spinfold: &Path, dir: &Path, input: &[u8], run: &BinaryRun, li
         .args(&run.argv)
         .current_dir(dir)
         .stdin(if run.stdin { Stdio::piped() } else { Stdio::null() })
-        .stdout(Stdio::null())
+        .stdout(std::fs::File::create(dir.join("stdout.txt")).expect("the work directory is writable"))
         .stderr(stderr_file)
         .spawn()
         .expect("the spinfold binary starts");
@@ -246,7 +262,13 @@ pub fn run_binary(spinfold: &Path, dir: &Path, input: &[u8], run: &BinaryRun, li
     let millis = start.elapsed().as_millis() as u64;
     let stderr = std::fs::read(&stderr_path).unwrap_or_default();
     let stderr = String::from_utf8_lossy(&stderr[stderr.len().saturating_sub(STDERR_TAIL)..]).into_owned();
-    let output_problem = if run.writes && !timed_out { output_problem(dir, run, status.code()) } else { None };
+    let output_problem = if timed_out {
+        None
+    } else if run.writes {
+        output_problem(dir, run, status.code())
+    } else {
+        non_finite(dir, run, status.code())
+    };
     BinaryResult {
         run: run.clone(),
         code: status.code(),
@@ -256,6 +278,19 @@ pub fn run_binary(spinfold: &Path, dir: &Path, input: &[u8], run: &BinaryRun, li
         output_problem,
         millis,
     }
+}
+
+/// A successful evaluation prints finite numbers only (JSON has no non-finite numbers: they
+/// would come out as `null`).
+fn non_finite(dir: &Path, run: &BinaryRun, code: Option<i32>) -> Option<String> {
+    if run.argv[0] != "eval" || code != Some(0) {
+        return None;
+    }
+    let stdout = std::fs::read_to_string(dir.join("stdout.txt")).unwrap_or_default();
+    stdout
+        .split(|c: char| c.is_whitespace() || c == ',' || c == ':')
+        .find(|w| ["inf", "-inf", "NaN", "null"].contains(w))
+        .map(|w| format!("exit 0 but a value printed as {w}"))
 }
 
 /// A successful `-o` leaves its target; a failed one leaves nothing at all in `out`.

@@ -197,7 +197,8 @@ pub fn serve(integrals: &str, memory_mb: u64) -> ! {
         let at = info.location().map(|l| format!("{}:{}", l.file(), l.line())).unwrap_or_default();
         *LAST_PANIC.lock().unwrap_or_else(|e| e.into_inner()) = Some(format!("panicked at {at}: {payload}"));
     }));
-    let dump = read_dump(integrals).unwrap_or_else(|e| panic!("the fuzz integral file reads: {}", e.render()));
+    let dump =
+        read_dump(integrals).unwrap_or_else(|e| panic!("the fuzz integral file reads: {}", e.render()));
     let stdout = std::io::stdout();
     let send = |reply: &Reply| {
         let mut out = stdout.lock();
@@ -228,7 +229,8 @@ pub fn serve(integrals: &str, memory_mb: u64) -> ! {
                 Ok(Ok(problem)) => Outcome { code: 0, message: String::new(), problem, millis },
                 Ok(Err((code, message))) => Outcome { code, message, problem: None, millis },
                 Err(_) => {
-                    let message = LAST_PANIC.lock().unwrap_or_else(|e| e.into_inner()).take().unwrap_or_default();
+                    let message =
+                        LAST_PANIC.lock().unwrap_or_else(|e| e.into_inner()).take().unwrap_or_default();
                     Outcome { code: PANIC, message, problem: None, millis }
                 }
             });

@@ -5,7 +5,8 @@ use crate::plan::{Emit, INPUT_FILE, Step, Variant};
 use serde::{Deserialize, Serialize};
 use spinfold::{
     Bindings, Checked, DEFAULT_SEED, Error, Evaluated, Format, IntegralDump, Limits, Options, Program,
-    derive_checked, evaluate_all, parse_with, read_dump, render, render_states, results_json, results_text,
+    derive_checked, eval_warnings, evaluate_all, parse_with, read_dump, render, render_states, results_json,
+    results_text,
 };
 use std::collections::HashMap;
 use std::io::{BufRead, Write};
@@ -117,7 +118,8 @@ impl Session<'_> {
                 let bindings = Bindings::parse(&program, binds, self.dump.header.norb).map_err(failure)?;
                 let results =
                     evaluate_all(&program, &derived, &bindings, &self.dump.integrals).map_err(failure)?;
-                let out = if *json { results_json(&results) } else { results_text(&results) };
+                let warnings = eval_warnings(self.dump, &results);
+                let out = if *json { results_json(&results, &warnings) } else { results_text(&results) };
                 let problem = if *json { json_problem(&out) } else { None }
                     .or_else(|| not_finite(&results))
                     .or_else(|| self.disagreement(&program, binds, *variant, &results));
@@ -147,7 +149,12 @@ impl Session<'_> {
                 continue;
             }
             for (mine, their) in results.iter().zip(theirs) {
-                for (a, b) in mine.entries.iter().zip(&their.entries) {
+                // rows left out differ between forms, so rows are matched by their indices
+                let pairs = mine
+                    .entries
+                    .iter()
+                    .filter_map(|a| their.entries.iter().find(|b| b.indices == a.indices).map(|b| (a, b)));
+                for (a, b) in pairs {
                     let mut orbitals: Vec<String> = a.indices.iter().map(|(_, m)| m.to_string()).collect();
                     orbitals.extend(bound_indices.iter().map(|s| s.to_string()));
                     let all_different = orbitals.iter().enumerate().all(|(k, x)| !orbitals[..k].contains(x));

@@ -321,8 +321,8 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
                 Some(v) => {
                     if !v.eigen_s || !v.eigen_m {
                         let which = match (v.eigen_s, v.eigen_m) {
-                            (false, false) => "S² or S_z",
-                            (false, true) => "S²",
+                            (false, false) => "S^2 or S_z",
+                            (false, true) => "S^2",
                             _ => "S_z",
                         };
                         let place = if finest {

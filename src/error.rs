@@ -22,14 +22,27 @@ impl Source {
         Arc::new(Source { name: name.into(), text: text.into() })
     }
 
-    /// 1-based line and column of a byte offset. Columns count characters: a tab, a wide
-    /// character and a character shown as an escape (see `render`) are one column each, and
-    /// the caret of a report stands under the character at that column.
+    /// 1-based line and column of a byte offset. Lines end as the grammar's NEWLINE reads
+    /// them (see `ends_line`). Columns count characters: a tab, a wide character and a
+    /// character shown as an escape (see `render`) are one column each, and the caret of a
+    /// report stands under the character at that column.
     pub fn line_column(&self, offset: usize) -> (usize, usize) {
         let before = &self.text[..offset.min(self.text.len())];
-        let line = before.matches('\n').count() + 1;
-        let column = before.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
-        (line, column)
+        let (line, start) = (0..before.len())
+            .filter(|&k| ends_line(&self.text, k))
+            .fold((1, 0), |(line, _), k| (line + 1, k + 1));
+        (line, before[start..].chars().count() + 1)
+    }
+}
+
+/// Whether the byte at `at` of `text` ends a line: `\n`, the `\n` of `\r\n`, and a `\r` alone
+/// each make one line break, as in the grammar (pest's NEWLINE), so that an old Mac-style file
+/// is reported at the lines its reader sees.
+fn ends_line(text: &str, at: usize) -> bool {
+    match text.as_bytes()[at] {
+        b'\n' => true,
+        b'\r' => text.as_bytes().get(at + 1) != Some(&b'\n'),
+        _ => false,
     }
 }
 
@@ -468,12 +481,14 @@ impl<'s> Shown<'s> {
     fn new(source: &'s Source) -> Shown<'s> {
         let mut text = String::with_capacity(source.text.len());
         let mut offsets = Vec::with_capacity(source.text.len());
-        let mut chars = source.text.char_indices().peekable();
-        while let Some((at, c)) = chars.next() {
+        for (at, c) in source.text.char_indices() {
             offsets.push((at, text.len()));
-            // a line ends with `\n` or `\r\n`; the report drops the `\r` of a line end itself
-            let line_end = c == '\n' || (c == '\r' && matches!(chars.peek(), None | Some((_, '\n'))));
-            if line_end || shows_itself(c) {
+            // every `\r` belongs to a line break (`\r\n` or `\r` alone); the report drops the
+            // `\r` of `\r\n` itself, and a `\r` alone becomes `\n`, one byte for one, where the
+            // shown lines are found
+            if c == '\r' && ends_line(&source.text, at) {
+                text.push('\n');
+            } else if c == '\n' || c == '\r' || shows_itself(c) {
                 text.push(c);
             } else {
                 let _ = write!(text, "{}", c.escape_unicode());

@@ -8,7 +8,7 @@ use spinfold::{
     remove_temporaries_on_signal, render, render_each, render_states, results_json, results_text,
     write_files, write_output,
 };
-use std::io::Read;
+use std::io::{Read, Write};
 
 #[derive(Parser)]
 #[command(
@@ -230,7 +230,9 @@ fn main() {
     let cli = Cli::parse();
     remove_temporaries_on_signal();
     if let Err(e) = run(cli) {
-        eprint!("{}", e.render());
+        // a standard error that cannot be written (full, closed) must not turn the report of
+        // one failure into a panic: the exit code still says what went wrong
+        let _ = std::io::stderr().lock().write_all(e.render().as_bytes());
         std::process::exit(e.exit_code());
     }
 }

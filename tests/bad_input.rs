@@ -1,8 +1,10 @@
 //! Bad input to `spinfold derive`: every kind of mistake ends with exit code 2 and a report
 //! that names the file, line and column, puts a caret under the offending text, says in a
 //! sentence what is wrong, and never panics; characters a terminal would not show as themselves
-//! are shown escaped, with the caret under them. Also: a missing input file, standard input,
-//! a byte-order mark, input that is not UTF-8, and `-o` writing its file whole or not at all.
+//! are shown escaped, with the caret under them; lines end at `\n`, `\r\n` or a `\r` alone, as
+//! in the grammar. Also: a missing input file, standard input, a byte-order mark, input that is
+//! not UTF-8, `-o` writing its file whole or not at all, and a report that cannot be written
+//! keeping its exit code.
 
 use std::io::Write;
 use std::path::Path;
@@ -554,8 +556,6 @@ fn characters_that_do_not_show_as_themselves_are_escaped_with_the_caret_under_th
         ("orbitals a\u{301} b\n", 1, 11, r"orbitals a\u{301} b", "          ^^^^^^^"),
         // a right-to-left override would reorder the rest of the line
         ("orbitals a\u{202e} b\n", 1, 11, r"orbitals a\u{202e} b", "          ^^^^^^^^"),
-        // a carriage return inside a line (one that ends a line is a line break)
-        ("orbitals a\r\nenergy | a\rb |\r\n", 2, 11, r"energy | a\u{d}b |", "          ^^^^^"),
     ];
     for (input, line, column, shown, marks) in cases {
         let run = derive("odd.spinfold", input);
@@ -574,6 +574,49 @@ fn characters_that_do_not_show_as_themselves_are_escaped_with_the_caret_under_th
             "{input:?}: marks {marks:?} expected:\n{}",
             run.stderr
         );
+    }
+}
+
+#[test]
+fn a_carriage_return_alone_ends_a_line_as_in_the_grammar() {
+    // (input, line, column, the line as shown, the marks under it, what the sentence says)
+    let cases = [
+        // an old Mac-style file: every line ends with `\r`
+        (
+            "orbitals a b\rspace core\renergy | a c |\r",
+            3,
+            12,
+            "energy | a c |",
+            "           ^ ",
+            "`c` is not defined",
+        ),
+        // line endings of all three kinds in one file
+        (
+            "orbitals a b\r\nspace core\renergy | a c |\n",
+            3,
+            12,
+            "energy | a c |",
+            "           ^ ",
+            "`c` is not defined",
+        ),
+        ("orbitals a b\rdet D = | a b\renergy D\r", 2, 14, "det D = | a b", "             ^ ", "closing `|`"),
+        // a `\r` alone within a determinant ends its line, which leaves the determinant open
+        ("orbitals a\r\nenergy | a\rb |\r\n", 2, 11, "energy | a", "          ^ ", "closing `|`"),
+    ];
+    for (input, line, column, shown, marks, says) in cases {
+        let run = derive("mac.spinfold", input);
+        assert_eq!(run.code, Some(2), "{input:?}: {}", run.stderr);
+        assert!(
+            run.stderr.starts_with(&format!("error: mac.spinfold:{line}:{column}: ")),
+            "{input:?}:\n{}",
+            run.stderr
+        );
+        assert!(run.stderr.lines().next().is_some_and(|l| l.contains(says)), "{input:?}:\n{}", run.stderr);
+        assert!(printable(&run.stderr), "{input:?}: the report holds raw characters:\n{:?}", run.stderr);
+        let (text, under) =
+            snippet(&run.stderr, line).unwrap_or_else(|| panic!("a snippet:\n{}", run.stderr));
+        assert_eq!(text, shown, "{input:?}:\n{}", run.stderr);
+        assert!(under.starts_with(marks), "{input:?}: marks {marks:?} expected:\n{}", run.stderr);
     }
 }
 
@@ -711,4 +754,48 @@ fn a_csf_breaking_the_pauli_principle_is_reported_at_its_definition() {
         at(3, 9, "| occ^2 i a |"),
         &["occupied twice", "Pauli"],
     );
+}
+
+/// Standard output and standard error that refuse every write.
+#[cfg(unix)]
+mod unwritable {
+    use super::*;
+
+    /// Runs `spinfold derive name` on `text` with standard output and standard error going to
+    /// `stdout` and `stderr`; the exit code.
+    fn derive_into(name: &str, text: &str, stdout: Stdio, stderr: Stdio) -> Option<i32> {
+        let dir = tempfile::tempdir().expect("a temporary directory");
+        std::fs::write(dir.path().join(name), text).expect("the input is written");
+        Command::new(env!("CARGO_BIN_EXE_spinfold"))
+            .args(["derive", name])
+            .current_dir(dir.path())
+            .stdin(Stdio::null())
+            .stdout(stdout)
+            .stderr(stderr)
+            .status()
+            .expect("the binary runs")
+            .code()
+    }
+
+    /// A device that refuses every write as full.
+    fn full() -> Stdio {
+        std::fs::OpenOptions::new().write(true).open("/dev/full").expect("/dev/full opens").into()
+    }
+
+    /// A pipe nobody reads from any more.
+    fn closed_pipe() -> Stdio {
+        let (reader, writer) = std::io::pipe().expect("a pipe");
+        drop(reader);
+        writer.into()
+    }
+
+    #[test]
+    fn an_error_report_that_cannot_be_written_keeps_its_exit_code() {
+        let bad = "orbitals a\nenergy | a b |\n";
+        assert_eq!(derive_into("bad.spinfold", bad, Stdio::null(), full()), Some(2));
+        assert_eq!(derive_into("bad.spinfold", bad, Stdio::null(), closed_pipe()), Some(2));
+        // results that cannot be written are an error too, whose report cannot be written either
+        assert_eq!(derive_into("good.spinfold", GOOD, full(), full()), Some(2));
+        assert_eq!(derive_into("good.spinfold", GOOD, closed_pipe(), closed_pipe()), Some(2));
+    }
 }

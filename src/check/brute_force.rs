@@ -84,52 +84,89 @@ pub fn dot(a: &Vector, b: &Vector) -> f64 {
     a.iter().map(|(d, x)| x * b.get(d).copied().unwrap_or(0.0)).sum()
 }
 
-fn bits(det: u128) -> Vec<u32> {
-    (0..128).filter(|b| det & (1 << b) != 0).collect()
+/// The set bits of a string, lowest first.
+fn bits(det: u128) -> impl Iterator<Item = u32> {
+    let mut rest = det;
+    std::iter::from_fn(move || {
+        (rest != 0).then(|| {
+            let b = rest.trailing_zeros();
+            rest &= rest - 1;
+            b
+        })
+    })
 }
 
-/// <bra|H|ket> with H = Σ h_pq a+p aq + ½ Σ <pq|rs> a+p a+q as ar, electronic part only.
-/// Creation operators run only over spin orbitals some bra determinant occupies: others
-/// cannot reach the bra, so the sum is the same with or without them.
+/// <bra|H|ket> with H = Σ h_pq a+p aq + ½ Σ <pq|rs> a+p a+q as ar, electronic part only,
+/// summed over every pair of basis strings. H changes at most two spin orbitals, so a pair
+/// further apart contributes nothing and is skipped.
 pub fn matrix_element(bra: &Vector, ket: &Vector, ints: &dyn Integrals) -> f64 {
-    let reach: u128 = bra.keys().fold(0, |acc, d| acc | d);
-    let targets = |free: u128, spin: u32| bits(reach & !free).into_iter().filter(move |b| b % 2 == spin);
     let mut total = 0.0;
-    let overlap = |d: u128| bra.get(&d).copied().unwrap_or(0.0);
-    for (&det, &amp) in ket {
-        let occupied = bits(det);
-        for &q in &occupied {
-            let Some((s1, after)) = apply(det, &[(false, q)]) else { continue };
-            for p in targets(after, q % 2) {
-                if let Some((s2, d)) = apply(after, &[(true, p)]) {
-                    total += overlap(d) * amp * s1 * s2 * ints.h((p / 2) as usize, (q / 2) as usize);
-                }
+    for (&from, &amp) in ket {
+        for (&to, &weight) in bra {
+            let (removed, added) = ((from & !to).count_ones(), (to & !from).count_ones());
+            if removed == added && removed <= 2 {
+                total += weight * amp * connecting_terms(from, to, ints);
             }
         }
-        for &r in &occupied {
-            for &s in &occupied {
-                if r == s {
-                    continue;
-                }
-                let Some((s1, after)) = apply(det, &[(false, s), (false, r)]) else { continue };
-                for p in targets(after, r % 2) {
-                    for q in targets(after, s % 2) {
-                        // <pq|rs> = (pr|qs) for spatial orbitals, spins matched by the loops
-                        if let Some((s2, d)) = apply(after, &[(true, p), (true, q)]) {
-                            let g = ints.eri(
-                                (p / 2) as usize,
-                                (r / 2) as usize,
-                                (q / 2) as usize,
-                                (s / 2) as usize,
-                            );
-                            total += 0.5 * overlap(d) * amp * s1 * s2 * g;
-                        }
-                    }
+    }
+    total
+}
+
+/// <to|H|from> for two basis strings, as the sum of the terms of H applied as operator
+/// strings. Only terms that can carry `from` into `to` are visited: their annihilators take
+/// every spin orbital `to` lacks and otherwise spin orbitals both strings hold, and their
+/// creators then restore `to`. Any other term leaves a string orthogonal to `to`.
+fn connecting_terms(from: u128, to: u128, ints: &dyn Integrals) -> f64 {
+    let removed = from & !to;
+    let common = from & to;
+    // the sets of `size` spin orbitals such terms annihilate
+    let annihilated = |size: u32| -> Vec<u128> {
+        match size.checked_sub(removed.count_ones()) {
+            Some(0) => vec![removed],
+            Some(1) => bits(common).map(|j| removed | 1 << j).collect(),
+            Some(2) => bits(common)
+                .flat_map(|i| {
+                    bits(common & !(1 << i) & (u128::MAX << i)).map(move |j| removed | 1 << i | 1 << j)
+                })
+                .collect(),
+            _ => vec![],
+        }
+    };
+    // what the creators must put back once `set` is annihilated
+    let created = |set: u128| to & !(from & !set);
+    let mut total = 0.0;
+    for set in annihilated(1) {
+        let (q, p) = (set.trailing_zeros(), created(set).trailing_zeros());
+        if p % 2 == q % 2
+            && let Some((sign, out)) = apply(from, &[(true, p), (false, q)])
+        {
+            debug_assert_eq!(out, to);
+            total += sign * ints.h((p / 2) as usize, (q / 2) as usize);
+        }
+    }
+    for set in annihilated(2) {
+        let ([r0, r1], [p0, p1]) = (two(set), two(created(set)));
+        for (r, s) in [(r0, r1), (r1, r0)] {
+            for (p, q) in [(p0, p1), (p1, p0)] {
+                // <pq|rs> = (pr|qs) for spatial orbitals when the spins of p, r and of q, s agree
+                if p % 2 == r % 2
+                    && q % 2 == s % 2
+                    && let Some((sign, out)) = apply(from, &[(true, p), (true, q), (false, s), (false, r)])
+                {
+                    debug_assert_eq!(out, to);
+                    let g = ints.eri((p / 2) as usize, (r / 2) as usize, (q / 2) as usize, (s / 2) as usize);
+                    total += 0.5 * sign * g;
                 }
             }
         }
     }
     total
+}
+
+/// The two set bits of a string that has exactly two.
+fn two(set: u128) -> [u32; 2] {
+    let low = set.trailing_zeros();
+    [low, (set & !(1 << low)).trailing_zeros()]
 }
 
 /// S²|v> = (S₋S₊ + S_z² + S_z)|v>, with S₊ = Σ_p a+(p α) a(p β).
@@ -141,9 +178,9 @@ pub fn apply_s_squared(v: &Vector) -> Vector {
         let sz = (alpha - beta) / 2.0;
         *out.entry(det).or_insert(0.0) += amp * (sz * sz + sz);
         // a+(p α) a(p β) a+(q α) a(q β): q must hold a beta electron, p then an alpha one
-        for q in bits(det & !ALPHA_BITS).into_iter().map(|b| b / 2) {
+        for q in bits(det & !ALPHA_BITS).map(|b| b / 2) {
             let Some((s1, raised)) = apply(det, &[(true, 2 * q), (false, 2 * q + 1)]) else { continue };
-            for p in bits(raised & ALPHA_BITS).into_iter().map(|b| b / 2) {
+            for p in bits(raised & ALPHA_BITS).map(|b| b / 2) {
                 if let Some((s2, d)) = apply(raised, &[(true, 2 * p + 1), (false, 2 * p)]) {
                     *out.entry(d).or_insert(0.0) += amp * s1 * s2;
                 }
@@ -173,6 +210,9 @@ mod tests {
     use crate::engine::exact::Exact;
     use crate::language::program::DetSpec;
     use crate::numbers::integrals::IntegralTable;
+    use itertools::Itertools;
+    use rand::{RngExt, SeedableRng};
+    use rand_chacha::ChaCha8Rng;
 
     #[test]
     fn closed_shell_energy_matches_the_textbook_formula() {
@@ -186,5 +226,58 @@ mod tests {
         let v = state_vector(&state, &binding);
         let e = matrix_element(&v, &v, &ints);
         assert!((e - (2.0 * ints.h(0, 0) + ints.eri(0, 0, 0, 0))).abs() < 1e-12);
+    }
+
+    /// <bra|H|ket> as the definition reads: every term of H, over all spin orbitals p, q, r,
+    /// s, applied to every ket string and projected on the bra.
+    fn every_term_of_h(bra: &Vector, ket: &Vector, ints: &dyn Integrals, spin_orbitals: u32) -> f64 {
+        let all = || 0..spin_orbitals;
+        let same_spin = |x: u32, y: u32| x % 2 == y % 2;
+        let project = |operators: &[(bool, u32)]| -> f64 {
+            ket.iter()
+                .filter_map(|(&d, &amp)| apply(d, operators).map(|(sign, out)| (sign * amp, out)))
+                .map(|(x, out)| x * bra.get(&out).copied().unwrap_or(0.0))
+                .sum()
+        };
+        let mut total = 0.0;
+        for (p, q) in all().cartesian_product(all()).filter(|&(p, q)| same_spin(p, q)) {
+            total += ints.h((p / 2) as usize, (q / 2) as usize) * project(&[(true, p), (false, q)]);
+        }
+        for (p, q, r, s) in all()
+            .cartesian_product(all())
+            .cartesian_product(all().cartesian_product(all()))
+            .map(|((p, q), (r, s))| (p, q, r, s))
+        {
+            if same_spin(p, r) && same_spin(q, s) {
+                let g = ints.eri((p / 2) as usize, (r / 2) as usize, (q / 2) as usize, (s / 2) as usize);
+                total += 0.5 * g * project(&[(true, p), (true, q), (false, s), (false, r)]);
+            }
+        }
+        total
+    }
+
+    #[test]
+    fn visiting_only_connected_pairs_gives_the_sum_over_every_term_of_h() {
+        // every string of 3 electrons in 4 orbitals (8 spin orbitals), with seeded amplitudes
+        let mut rng = ChaCha8Rng::seed_from_u64(11);
+        let strings: Vec<u128> = (0u128..256).filter(|d| d.count_ones() == 3).collect();
+        let mut random_vector = || -> Vector {
+            let mut out = Vector::default();
+            for &d in &strings {
+                if rng.random_bool(0.4) {
+                    out.insert(d, rng.random_range(-1.0..1.0));
+                }
+            }
+            out
+        };
+        let ints = IntegralTable::random(4, 5);
+        for _ in 0..6 {
+            let (bra, ket) = (random_vector(), random_vector());
+            let expected = every_term_of_h(&bra, &ket, &ints, 8);
+            let got = matrix_element(&bra, &ket, &ints);
+            assert!((got - expected).abs() < 1e-12 * expected.abs().max(1.0), "{got} vs {expected}");
+            let diagonal = every_term_of_h(&bra, &bra, &ints, 8);
+            assert!((matrix_element(&bra, &bra, &ints) - diagonal).abs() < 1e-12 * diagonal.abs().max(1.0));
+        }
     }
 }

@@ -2,26 +2,34 @@
 //! several space sizes and every index assignment, and compared with brute-force algebra.
 
 use crate::check::brute_force;
+use crate::engine::coincidence;
 use crate::engine::derive::{Derivation, Options, derive};
 use crate::engine::exact::Exact;
 use crate::error::{Error, ErrorKind, Result};
-use crate::language::orbital::Spin;
+use crate::language::orbital::{Orb, SpaceId, Spin};
 use crate::language::program::{DetSpec, Occupant, Program, Request, RequestKind, State};
 use crate::numbers::bind::symbols_of;
 use crate::numbers::evaluate::{Binding, evaluate};
 use crate::numbers::integrals::{IntegralTable, Integrals};
 use itertools::Itertools;
-use rand::seq::SliceRandom;
+use rand::seq::IndexedRandom;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
+use std::collections::{BTreeMap, HashMap, HashSet};
 
 /// Relative agreement demanded between the derived expression and brute force.
 pub const TOLERANCE: f64 = 1e-10;
 
 /// The largest number of index assignments checked per space-size configuration; past it a
-/// seeded random sample is checked.
+/// seeded sample is checked (see `assignments`).
 const MAX_ASSIGNMENTS: usize = 400;
+
+/// The brute-force work a sampled request may spend, in determinant pairs scanned by the
+/// matrix element (distinct bra determinants × distinct ket determinants per assignment),
+/// summed over the configurations. Large states thus get fewer sampled assignments; one per
+/// pattern of coinciding indices is checked however large they are.
+const WORK_BUDGET: usize = 10_000_000;
 
 /// A derivation together with the report of its check, if it was checked.
 pub type Checked = (Derivation, Option<Report>);
@@ -39,6 +47,9 @@ pub struct Report {
     pub indices: bool,
     /// True when index assignments were sampled rather than all checked.
     pub sampled: bool,
+    /// How the index assignments were sampled, when they were.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub sample: Option<Sample>,
     /// For states too large to check whole: how many determinant pairs were checked.
     pub determinant_pairs: Option<usize>,
     /// Why nothing could be checked by brute force, when that is so.
@@ -55,6 +66,7 @@ impl Report {
             max_deviation: 0.0,
             indices: !derivation.free_indices.is_empty(),
             sampled: false,
+            sample: None,
             determinant_pairs: None,
             not_checked: None,
         }
@@ -80,13 +92,31 @@ impl Report {
             self.checks,
             self.seed,
             sizes,
-            match (self.indices, self.sampled) {
-                (false, _) => "",
-                (true, false) => ", every assignment of the generic indices",
-                (true, true) => ", a seeded sample of generic-index assignments",
+            match (self.indices, &self.sample) {
+                (false, _) => String::new(),
+                (true, None) => ", every assignment of the generic indices".into(),
+                (true, Some(s)) => format!(
+                    ", a seeded sample of {} of {} generic-index assignments including every pattern of coinciding indices in each configuration",
+                    s.drawn, s.of
+                ),
             },
             TOLERANCE
         )
+    }
+}
+
+/// A sample of index assignments, summed over the configurations.
+#[derive(Clone, Copy, Debug, Serialize, PartialEq)]
+pub struct Sample {
+    /// Assignments drawn (an assignment at which the state vanishes is drawn but not checked).
+    pub drawn: usize,
+    /// Assignments there are.
+    pub of: u128,
+}
+
+impl Sample {
+    fn plus(self, other: Sample) -> Sample {
+        Sample { drawn: self.drawn + other.drawn, of: self.of.saturating_add(other.of) }
     }
 }
 
@@ -199,29 +229,54 @@ pub fn compare(
     Ok(Some(out))
 }
 
-/// Past this many determinants in bra and ket together the check samples determinant pairs.
+/// Past this many distinct determinants in bra and ket together the check samples determinant
+/// pairs.
 pub const FULL_CHECK_LIMIT: usize = 300;
+
+/// A state's determinants with equal ones combined (coefficients summed, vanishing sums
+/// dropped), in the order they first appear: what the check counts and samples.
+fn distinct_determinants(state: &State) -> Vec<(Exact, &DetSpec)> {
+    let mut position: HashMap<&DetSpec, usize> = HashMap::new();
+    let mut out: Vec<(Exact, &DetSpec)> = vec![];
+    for (coeff, det) in state.terms.iter() {
+        match position.get(det) {
+            Some(&k) => out[k].0 += coeff,
+            None => {
+                position.insert(det, out.len());
+                out.push((coeff.clone(), det));
+            }
+        }
+    }
+    out.retain(|(c, _)| !c.is_zero());
+    out
+}
+
+/// True when bra and ket are small enough, counted in distinct determinants, to be checked
+/// whole by brute force at every index assignment.
+pub fn fits_whole_check(request: &Request) -> bool {
+    distinct_determinants(&request.bra).len() + distinct_determinants(&request.ket).len() <= FULL_CHECK_LIMIT
+}
 
 /// How many determinant pairs a sampled check takes.
 const SAMPLED_PAIRS: usize = 40;
 
-/// The check of a large request: a seeded sample of determinant pairs, half of them chosen to
-/// interact (a spin exchange between two open shells, or the same determinant), each derived
-/// alone by the engine and checked whole against brute force.
+/// The check of a large request: a seeded sample of pairs of distinct determinants, half of
+/// them chosen to interact (a spin exchange between two open shells, or the same determinant),
+/// each derived alone by the engine and checked whole against brute force.
 fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, seed: u64) -> Result<Report> {
     let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0xda7a);
-    let ket_index: std::collections::HashMap<&DetSpec, usize> =
-        request.ket.terms.iter().enumerate().map(|(k, (_, d))| (d, k)).collect();
+    let (bras, kets) = (distinct_determinants(&request.bra), distinct_determinants(&request.ket));
+    let ket_index: HashMap<&DetSpec, usize> = kets.iter().enumerate().map(|(k, &(_, d))| (d, k)).collect();
     let mut pairs = vec![];
     for n in 0..SAMPLED_PAIRS {
-        let i = rng.random_range(0..request.bra.terms.len());
-        let bra = &request.bra.terms[i].1;
+        let i = rng.random_range(0..bras.len());
+        let bra = bras[i].1;
         let partner = match n % 4 {
             0 => ket_index.get(bra).copied(),
             1 | 2 => spin_exchanged(bra, &mut rng).and_then(|d| ket_index.get(&d).copied()),
             _ => None,
         };
-        pairs.push((i, partner.unwrap_or_else(|| rng.random_range(0..request.ket.terms.len()))));
+        pairs.push((i, partner.unwrap_or_else(|| rng.random_range(0..kets.len()))));
     }
     let mut report = Report { determinant_pairs: Some(pairs.len()), ..Report::empty(derivation, seed) };
     let options = Options { distinct: derivation.distinct, ..Options::default() };
@@ -229,9 +284,9 @@ fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, s
         let single = |d: &DetSpec| State::new(vec![(Exact::one(), d.clone())]);
         let pair = Request {
             kind: RequestKind::Element,
-            text: format!("{} (determinants {} and {})", request.text, i + 1, j + 1),
-            bra: single(&request.bra.terms[i].1),
-            ket: single(&request.ket.terms[j].1),
+            text: format!("{} (distinct determinants {} and {})", request.text, i + 1, j + 1),
+            bra: single(bras[i].1),
+            ket: single(kets[j].1),
             bra_text: request.bra_text.clone(),
             ket_text: request.ket_text.clone(),
             span: request.span.clone(),
@@ -241,6 +296,10 @@ fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, s
         report.checks += r.checks;
         report.max_deviation = report.max_deviation.max(r.max_deviation);
         report.sampled |= r.sampled;
+        report.sample = match (report.sample, r.sample) {
+            (Some(a), Some(b)) => Some(a.plus(b)),
+            (a, b) => a.or(b),
+        };
         report.configurations = r.configurations;
     }
     Ok(report)
@@ -268,6 +327,87 @@ fn spin_exchanged(det: &DetSpec, rng: &mut ChaCha8Rng) -> Option<DetSpec> {
     Some(out)
 }
 
+/// The index assignments checked in one configuration (`spaces` holds each space's orbitals):
+/// all of them when there are at most `cap`. Past that, a seeded sample of `cap` (or of one per
+/// pattern, when the patterns are more): first one assignment for every pattern of coinciding
+/// indices, so that every Kronecker-delta case of the result is checked, then uniformly drawn
+/// ones. Under --distinct only assignments giving different letters of one space different
+/// orbitals are in the result's domain. Returns them, whether they are a sample, and how many
+/// assignments there are.
+fn assignments(
+    program: &Program,
+    derivation: &Derivation,
+    spaces: &[Vec<usize>],
+    cap: usize,
+    rng: &mut ChaCha8Rng,
+) -> (Vec<Vec<(u32, usize)>>, bool, u128) {
+    let mut by_space: BTreeMap<SpaceId, Vec<u32>> = BTreeMap::new();
+    for &k in &derivation.free_indices {
+        by_space.entry(program.indices[k as usize].space).or_default().push(k);
+    }
+    let members = |s: SpaceId| &spaces[s as usize];
+    let total = by_space.iter().fold(1u128, |acc, (&s, indices)| {
+        (0..indices.len()).fold(acc, |acc, n| {
+            let n = if derivation.distinct { n } else { 0 };
+            acc.saturating_mul(members(s).len().saturating_sub(n) as u128)
+        })
+    });
+    if total <= cap as u128 {
+        let choices = derivation
+            .free_indices
+            .iter()
+            .map(|&k| members(program.indices[k as usize].space).iter().map(move |&m| (k, m)));
+        let mut all: Vec<Vec<(u32, usize)>> = choices
+            .multi_cartesian_product()
+            .filter(|a| !derivation.distinct || all_different_within_spaces(program, a))
+            .collect();
+        if all.is_empty() {
+            all.push(vec![]);
+        }
+        return (all, false, total);
+    }
+    // each space's letters, grouped into blocks that name one orbital, get different orbitals
+    let draw = |block_of: &dyn Fn(u32) -> u32, rng: &mut ChaCha8Rng| -> Vec<(u32, usize)> {
+        let mut orbital: BTreeMap<u32, usize> = BTreeMap::new();
+        for (&s, indices) in &by_space {
+            let blocks: Vec<u32> = indices.iter().map(|&k| block_of(k)).unique().collect();
+            orbital.extend(blocks.iter().copied().zip(members(s).sample(rng, blocks.len()).copied()));
+        }
+        derivation.free_indices.iter().map(|&k| (k, orbital[&block_of(k)])).collect()
+    };
+    let mut seen: HashSet<Vec<(u32, usize)>> = HashSet::new();
+    let mut out = vec![];
+    for case in coincidence::cases(&by_space, &[], derivation.distinct) {
+        let block_of = |k| match case.orb(Orb::Index(k)) {
+            Orb::Index(representative) => representative,
+            _ => k,
+        };
+        let a = draw(&block_of, rng);
+        if seen.insert(a.clone()) {
+            out.push(a);
+        }
+    }
+    while out.len() < cap {
+        // every letter a block of its own draws different orbitals: only under --distinct
+        let a = if derivation.distinct {
+            draw(&|k| k, rng)
+        } else {
+            derivation
+                .free_indices
+                .iter()
+                .map(|&k| {
+                    let m = members(program.indices[k as usize].space);
+                    (k, m[rng.random_range(0..m.len())])
+                })
+                .collect()
+        };
+        if seen.insert(a.clone()) {
+            out.push(a);
+        }
+    }
+    (out, true, total)
+}
+
 /// Checks one derivation of `request`; returns the report or a verification failure.
 pub fn verify(program: &Program, request: &Request, derivation: &Derivation, seed: u64) -> Result<Report> {
     let mut report = Report::empty(derivation, seed);
@@ -279,12 +419,15 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
         return Ok(report);
     }
     // S² is cheap to apply by brute force at any size; H is not
-    if request.bra.terms.len() + request.ket.terms.len() > FULL_CHECK_LIMIT
-        && request.kind != RequestKind::Spin
-    {
+    if !fits_whole_check(request) && request.kind != RequestKind::Spin {
         return verify_pairs(program, request, derivation, seed);
     }
-    for (c, sizes) in size_configurations(program, request, derivation).into_iter().enumerate() {
+    let configurations = size_configurations(program, request, derivation);
+    let pairs = distinct_determinants(&request.bra).len() * distinct_determinants(&request.ket).len();
+    let cap = (WORK_BUDGET / (configurations.len() * pairs).max(1)).clamp(1, MAX_ASSIGNMENTS);
+    let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0x5eed);
+    let mut sample = Sample { drawn: 0, of: 0 };
+    for (c, sizes) in configurations.into_iter().enumerate() {
         let mut next = program.orbitals.len();
         let spaces: Vec<Vec<usize>> = sizes
             .iter()
@@ -303,24 +446,9 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
                 .join(", "),
         );
         let ints = IntegralTable::random(next, seed.wrapping_add(c as u64));
-        let choices: Vec<Vec<(u32, usize)>> = derivation
-            .free_indices
-            .iter()
-            .map(|&k| spaces[program.indices[k as usize].space as usize].iter().map(|&m| (k, m)).collect())
-            .collect();
-        let mut assignments: Vec<Vec<(u32, usize)>> = choices
-            .into_iter()
-            .multi_cartesian_product()
-            .filter(|a| !derivation.distinct || all_different_within_spaces(program, a))
-            .collect();
-        if assignments.is_empty() {
-            assignments.push(vec![]);
-        }
-        if assignments.len() > MAX_ASSIGNMENTS {
-            assignments.shuffle(&mut ChaCha8Rng::seed_from_u64(seed ^ 0x5eed));
-            assignments.truncate(MAX_ASSIGNMENTS);
-            report.sampled = true;
-        }
+        let (assignments, sampled, of) = assignments(program, derivation, &spaces, cap, &mut rng);
+        report.sampled |= sampled;
+        sample = sample.plus(Sample { drawn: assignments.len(), of });
         for assignment in assignments {
             let mut binding = Binding {
                 orbitals: (0..program.orbitals.len()).collect(),
@@ -370,6 +498,7 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
             &request.span,
         ));
     }
+    report.sample = report.sampled.then_some(sample);
     if report.max_deviation > 0.0 {
         report.max_deviation = 10f64.powi(report.max_deviation.log10().ceil() as i32);
     }

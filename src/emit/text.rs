@@ -232,6 +232,7 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], a
             let legend: Vec<String> = legend.into_iter().map(|(_, text)| text).collect();
             out.push_str(&format!("  with {}\n", legend.join(" and ")));
         }
+        // notes are plain ASCII as the engine writes them, fit for either style
         for note in &d.notes {
             let note = if note.starts_with("warning:") { note.clone() } else { format!("note: {note}") };
             out.push_str(&format!("  {note}\n"));

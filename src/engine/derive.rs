@@ -298,8 +298,8 @@ fn spin_warning(
 ) -> Option<String> {
     let which = match (v.eigen_s, v.eigen_m) {
         (true, true) => return None,
-        (false, false) => "S² or S_z",
-        (false, true) => "S²",
+        (false, false) => "S^2 or S_z",
+        (false, true) => "S^2",
         (true, false) => "S_z",
     };
     let place = if finest { String::new() } else { format!(" when {}", case_text(program, case)) };

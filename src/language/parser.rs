@@ -109,8 +109,9 @@ fn syntax_error(source: &Arc<Source>, error: pest::error::Error<Rule>) -> Error 
         pest::error::InputLocation::Pos(p) => p,
         pest::error::InputLocation::Span((s, _)) => s,
     };
-    let line_start = source.text[..start].rfind('\n').map_or(0, |k| k + 1);
-    let line_end = source.text[start..].find('\n').map_or(source.text.len(), |k| start + k);
+    // a line ends at `\n`, `\r\n` or a `\r` alone, as the grammar's NEWLINE reads it
+    let line_start = source.text[..start].rfind(['\n', '\r']).map_or(0, |k| k + 1);
+    let line_end = source.text[start..].find(['\n', '\r']).map_or(source.text.len(), |k| start + k);
     let unclosed =
         source.text[line_start..line_end].split('#').next().unwrap_or("").matches('|').count() % 2 == 1;
     let expected = match &error.variant {
@@ -125,7 +126,7 @@ fn syntax_error(source: &Arc<Source>, error: pest::error::Error<Rule>) -> Error 
     };
     let text = &source.text;
     let end = text[start..].char_indices().nth(1).map_or(text.len(), |(k, _)| start + k);
-    let end = if text[start..end].contains('\n') || start >= text.len() { start } else { end };
+    let end = if text[start..end].contains(['\n', '\r']) || start >= text.len() { start } else { end };
     Error::at(ErrorKind::Syntax { expected }, &Span { source: source.clone(), range: start..end.max(start) })
 }
 

@@ -27,11 +27,15 @@ impl Source {
     /// character shown as an escape (see `render`) are one column each, and the caret of a
     /// report stands under the character at that column.
     pub fn line_column(&self, offset: usize) -> (usize, usize) {
-        let before = &self.text[..offset.min(self.text.len())];
-        let (line, start) = (0..before.len())
+        let (line, start) = self.line_start(offset);
+        (line, self.text[start..offset.min(self.text.len())].chars().count() + 1)
+    }
+
+    /// 1-based line number of a byte offset and the byte offset where that line starts.
+    pub fn line_start(&self, offset: usize) -> (usize, usize) {
+        (0..offset.min(self.text.len()))
             .filter(|&k| ends_line(&self.text, k))
-            .fold((1, 0), |(line, _), k| (line + 1, k + 1));
-        (line, before[start..].chars().count() + 1)
+            .fold((1, 0), |(line, _), k| (line + 1, k + 1))
     }
 }
 

@@ -148,14 +148,10 @@ fn read_input(file: &str) -> Result<(String, String)> {
         Ok(text) => Ok((name, text.to_string())),
         Err(e) => {
             let at = e.valid_up_to();
-            let line_start = bytes[..at].iter().rposition(|&b| b == b'\n').map_or(0, |k| k + 1);
-            let kind = ErrorKind::NotUtf8 {
-                byte: bytes[at],
-                line: bytes[..at].iter().filter(|&&b| b == b'\n').count() + 1,
-                position: at - line_start + 1,
-            };
             // shown with the undecodable bytes replaced, which leaves everything before them as it was
             let source = Source::new(name, String::from_utf8_lossy(bytes));
+            let (line, line_start) = source.line_start(at);
+            let kind = ErrorKind::NotUtf8 { byte: bytes[at], line, position: at - line_start + 1 };
             let span = Span { range: at..at + char::REPLACEMENT_CHARACTER.len_utf8(), source };
             Err(Error::at(kind, &span))
         }

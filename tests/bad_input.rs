@@ -799,3 +799,12 @@ mod unwritable {
         assert_eq!(derive_into("good.spinfold", GOOD, closed_pipe(), closed_pipe()), Some(2));
     }
 }
+
+#[test]
+fn undecodable_bytes_in_a_file_of_carriage_returns_are_placed_on_the_right_line() {
+    // lines separated by a lone carriage return, as the grammar reads them
+    let run = derive_bytes("cr_latin1.spinfold", b"orbitals a\rdet d = | a |\renergy d \xe9\r");
+    assert_eq!(run.code, Some(2), "{}", run.stderr);
+    assert!(run.stderr.starts_with("error: cr_latin1.spinfold:3:10: "), "{}", run.stderr);
+    assert!(run.stderr.contains("byte 10 of line 3 (0xe9)"), "{}", run.stderr);
+}

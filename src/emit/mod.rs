@@ -230,9 +230,7 @@ pub fn test_vectors(
             if coincide && used_in_space.iter().all(|&n| n < 2) {
                 continue;
             }
-            let small =
-                request.bra.terms.len() + request.ket.terms.len() <= crate::check::verify::FULL_CHECK_LIMIT;
-            let (expected, source) = if small {
+            let (expected, source) = if crate::check::verify::fits_whole_check(request) {
                 match crate::check::verify::compare(program, request, derivation, &binding, &ints)? {
                     // + 0.0: a zero is written as 0.0, never -0.0
                     Some(c) => (c[0].brute_force + 0.0, "brute force"),

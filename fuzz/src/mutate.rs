@@ -360,6 +360,10 @@ const NORBS: [&str; 9] = ["0", "1", "3", "300", "2000", "100000", "-1", "9999999
 pub fn dump(rng: &mut impl Rng, text: &str) -> Vec<u8> {
     let mut lines: Vec<String> = text.lines().map(str::to_string).collect();
     for _ in 0..rng.random_range(1..=3) {
+        // an earlier edit may have emptied the file
+        if lines.is_empty() {
+            lines.push(String::new());
+        }
         let n = lines.len();
         let k = below(rng, n);
         match rng.random_range(0..8) {

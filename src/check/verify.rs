@@ -162,6 +162,17 @@ pub struct Comparison {
     pub what: &'static str,
     pub brute_force: f64,
     pub derived: f64,
+    /// The size of the numbers the value is a sum of: the product of the norms of the bra and
+    /// ket vectors for elements and overlaps, 1 for normalized values. A floating-point sum is
+    /// good to its precision relative to this, whatever cancellation leaves of it.
+    pub scale: f64,
+}
+
+impl Comparison {
+    /// |derived − brute force| relative to the larger of 1, the value and its scale.
+    pub fn deviation(&self) -> f64 {
+        (self.derived - self.brute_force).abs() / self.brute_force.abs().max(self.scale).max(1.0)
+    }
 }
 
 /// The derived value of a request (and, for an element, its overlap) beside brute-force
@@ -218,13 +229,19 @@ pub fn compare(
             Some(("<S_z>", brute_force::s_z(&bra), &derivation.s_z)),
         ),
     };
+    let scale = match request.kind {
+        RequestKind::Overlap | RequestKind::Element => (norm * brute_force::dot(&ket, &ket)).sqrt(),
+        RequestKind::Energy | RequestKind::Spin => 1.0,
+    };
     let mut out = vec![Comparison {
         what: "value",
         brute_force: expected,
         derived: evaluate(&derivation.value, binding, ints),
+        scale,
     }];
     if let Some((what, brute_force, expr)) = second {
-        out.push(Comparison { what, brute_force, derived: evaluate(expr, binding, ints) });
+        let scale = if request.kind == RequestKind::Spin { 1.0 } else { scale };
+        out.push(Comparison { what, brute_force, derived: evaluate(expr, binding, ints), scale });
     }
     Ok(Some(out))
 }
@@ -461,8 +478,9 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
             let Some(pairs) = compare(program, request, derivation, &binding, &ints)? else {
                 continue; // the state vanishes for this assignment; the notes say so
             };
-            for Comparison { what, brute_force: expected, derived } in pairs {
-                let deviation = (derived - expected).abs() / expected.abs().max(1.0);
+            for comparison in pairs {
+                let Comparison { what, brute_force: expected, derived, .. } = comparison;
+                let deviation = comparison.deviation();
                 report.max_deviation = report.max_deviation.max(deviation);
                 report.checks += 1;
                 if deviation > TOLERANCE || !derived.is_finite() {

@@ -102,6 +102,11 @@ impl Exact {
         }
     }
 
+    /// The largest number of bits of a numerator or denominator among its parts.
+    pub fn bits(&self) -> u64 {
+        self.parts.iter().map(|(_, q)| q.numer().bits().max(q.denom().bits())).max().unwrap_or(0)
+    }
+
     /// The terms q·√n in increasing radicand.
     pub fn parts(&self) -> impl Iterator<Item = (&BigRational, u64)> {
         self.parts.iter().map(|(n, q)| (q, *n))

@@ -604,7 +604,7 @@ impl Resolver {
             Rule::sum => self.sum(pair),
             Rule::product => self.product(pair),
             Rule::unit | Rule::operand => self.value(pair.into_inner().next().expect("grammar: unit")),
-            Rule::number => Ok(Value::Number(decimal(pair.as_str()))),
+            Rule::number => bounded(Value::Number(decimal(pair.as_str())), &self.span(&pair)),
             Rule::sqrt_call => self.square_root(pair),
             Rule::group => {
                 let span = self.span(&pair);
@@ -637,7 +637,7 @@ impl Resolver {
             if op.as_str() == "-" {
                 right = negated(right);
             }
-            total = added(total, right, &span, &term_span)?;
+            total = bounded(added(total, right, &span, &term_span)?, &term_span)?;
         }
         Ok(total)
     }
@@ -654,7 +654,7 @@ impl Resolver {
             }
             let piece_span = self.span(&piece);
             let right = self.value(piece)?;
-            total = multiplied(total, right, divide, &piece_span)?;
+            total = bounded(multiplied(total, right, divide, &piece_span)?, &piece_span)?;
             divide = false;
         }
         Ok(total)
@@ -851,6 +851,36 @@ fn decimal(text: &str) -> Exact {
     let digits: BigInt = format!("{whole}{fraction}").parse().expect("grammar: digits");
     let scale = BigInt::from(10).pow(fraction.len() as u32);
     Exact::rational(BigRational::new(digits, scale))
+}
+
+/// The most bits a numerator or denominator of a coefficient may have.
+pub const MAX_COEFFICIENT_BITS: u64 = 2048;
+
+/// The value, if its coefficients stay within `MAX_COEFFICIENT_BITS`: exact arithmetic on
+/// numbers past it grows without bound (a product of many numbers, a sum of many fractions).
+fn bounded(value: Value, span: &Span) -> Result<Value> {
+    let bits = match &value {
+        Value::Number(x) => x.bits(),
+        Value::State(s) => s.terms.iter().map(|(c, _)| c.bits()).max().unwrap_or(0),
+    };
+    if bits <= MAX_COEFFICIENT_BITS {
+        return Ok(value);
+    }
+    Err(Error::at(
+        ErrorKind::TooLarge {
+            what: "a numerator or denominator of the coefficient here has".into(),
+            count: bits.to_string(),
+            limit: Box::new(Limit {
+                value: MAX_COEFFICIENT_BITS as u128,
+                unit: "bits",
+                change: Change::Fixed(format!(
+                    "exact coefficients are kept to about {} decimal digits so that derivations stay fast; write the coefficient in lowest terms, or scale the state (its energy does not change)",
+                    MAX_COEFFICIENT_BITS * 3 / 10
+                )),
+            }),
+        },
+        span,
+    ))
 }
 
 fn negated(value: Value) -> Value {

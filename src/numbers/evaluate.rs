@@ -5,6 +5,7 @@ use crate::engine::expression::{Expr, Factor, Term};
 use crate::engine::fock::{fock_definition, reference_definition};
 use crate::language::orbital::Orb;
 use crate::numbers::integrals::Integrals;
+use std::collections::BTreeMap;
 
 /// Concrete orbital numbers (0-based) for the symbols of a program.
 #[derive(Clone, Debug, Default, PartialEq)]
@@ -74,7 +75,41 @@ fn term_value(term: &Term, binding: &Binding, ints: &dyn Integrals) -> f64 {
     }
 }
 
-/// The value of an expression.
+/// The value of an expression. Where the binding puts generic indices of the expression on one
+/// orbital, its terms are first combined exactly for that coincidence: the delta terms there
+/// cancel parts of the others, which floating point would do only to its precision.
 pub fn evaluate(expr: &Expr, binding: &Binding, ints: &dyn Integrals) -> f64 {
-    expr.terms.iter().map(|t| term_value(t, binding, ints)).sum()
+    let terms = |e: &Expr| e.terms.iter().map(|t| term_value(t, binding, ints)).sum();
+    match specialized(expr, binding) {
+        Some(exact) => terms(&exact),
+        None => terms(expr),
+    }
+}
+
+/// The expression with every generic index replaced by the smallest index bound to the same
+/// orbital, terms whose deltas then join different orbitals dropped, and like terms collected
+/// exactly; None when the binding puts no two of its generic indices on one orbital.
+fn specialized(expr: &Expr, binding: &Binding) -> Option<Expr> {
+    let indices: Vec<u32> = expr
+        .free_orbs()
+        .into_iter()
+        .filter_map(|o| if let Orb::Index(k) = o { Some(k) } else { None })
+        .collect();
+    let mut first_on: BTreeMap<usize, u32> = BTreeMap::new();
+    let mut representative: BTreeMap<u32, u32> = BTreeMap::new();
+    for &k in &indices {
+        let orbital = binding.indices[k as usize]?;
+        representative.insert(k, *first_on.entry(orbital).or_insert(k));
+    }
+    if first_on.len() == indices.len() {
+        return None;
+    }
+    let same = |o: Orb| match o {
+        Orb::Index(k) => Orb::Index(representative.get(&k).copied().unwrap_or(k)),
+        other => other,
+    };
+    Some(Expr::from_terms(expr.terms.iter().filter_map(|t| {
+        let t = t.substitute(&same);
+        t.deltas.iter().all(|(a, b)| a == b).then(|| Term { deltas: vec![], ..t })
+    })))
 }

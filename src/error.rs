@@ -155,6 +155,29 @@ pub enum ErrorKind {
     Coupling {
         why: String,
     },
+    /// A spin-adapted excitation of a determinant that is not closed-shell.
+    ClosedShellNeeded {
+        det: String,
+        orbital: String,
+    },
+    /// A hole of a spin-adapted excitation that is not doubly occupied, or a particle that is
+    /// not empty.
+    ExcitedShell {
+        orbital: String,
+        det: String,
+        hole: bool,
+    },
+    /// A spin-adapted excitation whose open shells change when its generic indices coincide;
+    /// `cases` says how, case by case.
+    OpenShellsDepend {
+        operand: String,
+        cases: String,
+    },
+    /// A csf whose determinant is excited more than once.
+    ExcitationCount {
+        operand: String,
+        count: usize,
+    },
     Io {
         path: String,
         why: String,
@@ -317,6 +340,21 @@ impl Error {
                 "this coefficient is not exact: the square root sqrt(p/q) has p·q = {product}, which exceeds the limit of 2^32 - 1 = 4294967295 for p·q"
             ),
             Coupling { why } => format!("this spin coupling cannot be built: {why}"),
+            ClosedShellNeeded { det, orbital } => format!(
+                "a csf of an excitation starts from a closed-shell determinant, but `{orbital}` is singly occupied in `{det}`"
+            ),
+            ExcitedShell { orbital, det, hole: true } => format!(
+                "`{orbital}` cannot be a hole of this excitation: it is not doubly occupied in `{det}`"
+            ),
+            ExcitedShell { orbital, det, hole: false } => {
+                format!("`{orbital}` cannot be a particle of this excitation: it is occupied in `{det}`")
+            }
+            OpenShellsDepend { operand, cases } => format!(
+                "the open shells of `{operand}` depend on which of its generic indices are equal: {cases}"
+            ),
+            ExcitationCount { operand, count } => format!(
+                "a csf couples the open shells of one excitation of a determinant, but `{operand}` applies {count} excitations"
+            ),
             Io { path, why } => format!("cannot use `{path}`: {why}"),
             NotUtf8 { byte, line, position } => format!(
                 "the input is not UTF-8 text: byte {position} of line {line} (0x{byte:02x}) is not part of a character"
@@ -367,6 +405,10 @@ impl Error {
             ClosedSpaces { .. } => "write the same closed spaces in every determinant of the bra and the ket; their sizes are unknown".into(),
             RequestArity { .. } => "write `energy X`, `spin X`, `element X Y` or `overlap X Y`".into(),
             Coupling { .. } => "write `csf X = | core^2 p q r | S=1/2 path=1/2,0,1/2`: the intermediate spin after each open shell, ending at S".into(),
+            ClosedShellNeeded { .. } => "write every orbital of the determinant doubly occupied (`p^2`): the excitation makes the open shells".into(),
+            ExcitedShell { .. } => "a spin-adapted excitation moves electrons out of doubly occupied orbitals into empty ones".into(),
+            OpenShellsDepend { .. } => "derive with --distinct, which takes different letters to be different orbitals, or take the indices from different spaces (`space occ1: i` and `space occ2: j`)".into(),
+            ExcitationCount { .. } => "write the excitation in one bracket, `csf X = ref[i j -> a b] S=0`, with `ref` a closed-shell `det`".into(),
             TooLarge { limit, .. } => match &limit.change {
                 Change::Option { option, or } => {
                     let raise = format!("raise the limit with `{option} N` if the machine has the memory and time for it");

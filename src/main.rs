@@ -107,6 +107,10 @@ enum Command {
         /// Most coupled states (coupling paths) one `csfs` line may define.
         #[arg(long, default_value_t = Limits::default().max_paths)]
         max_paths: usize,
+        /// Take different generic indices as different orbitals, so a csf of an excitation may
+        /// open two shells on indices of one space.
+        #[arg(long)]
+        distinct: bool,
         /// Write to this file instead of standard output.
         #[arg(short, long)]
         output: Option<String>,
@@ -163,6 +167,7 @@ fn derived(common: &Derivation) -> Result<(Program, Vec<Checked>)> {
     let limits = Limits {
         max_determinants: common.max_determinants,
         max_paths: common.max_paths,
+        distinct: common.distinct,
         ..Limits::default()
     };
     let program = parse_with(&name, &text, limits)?;
@@ -200,11 +205,11 @@ fn run(cli: Cli) -> Result<()> {
                 (_, output) => write_output(output.as_deref(), &render(&program, &checked, format)?),
             }
         }
-        Command::States { file, json, max_determinants, max_paths, output } => {
+        Command::States { file, json, max_determinants, max_paths, distinct, output } => {
             let (name, text) = read_input(&file)?;
             // listing every state expands every member of a family, used or not
-            let program =
-                parse_with(&name, &text, Limits { max_determinants, max_paths, expand_unused: true })?;
+            let limits = Limits { max_determinants, max_paths, expand_unused: true, distinct };
+            let program = parse_with(&name, &text, limits)?;
             write_output(output.as_deref(), &render_states(&program, json))
         }
         Command::Eval { common, integrals, bind, json, output } => {

@@ -3,7 +3,7 @@
 
 use crate::engine::exact::Exact;
 use crate::language::orbital::Spin;
-use crate::language::program::{Coupling, DetSpec, Occupant};
+use crate::language::program::{Coupling, DetSpec, Occupant, Program, Shells};
 use num_bigint::{BigInt, BigUint};
 use num_rational::BigRational;
 use num_traits::{One, Pow, Zero};
@@ -203,7 +203,10 @@ pub fn expand(path: &[Twice], m: Twice) -> Vec<SpinTerm> {
 
 /// The determinants of a coupled function, with their coefficients: the reference's open
 /// shells given the spins of each term of `expand`.
-pub fn expanded(coupling: &Coupling) -> Vec<(Exact, DetSpec)> {
+pub fn expanded(program: &Program, coupling: &Coupling) -> Vec<(Exact, DetSpec)> {
+    if coupling.shells == Shells::Excited {
+        return crate::engine::spin_adapted_excitation::determinants(program, coupling);
+    }
     let open = coupling.reference.open_shells();
     expand(&coupling.path, coupling.m)
         .into_iter()

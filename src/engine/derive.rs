@@ -104,7 +104,7 @@ pub struct VanishingCase {
 use crate::engine::spin_operator::CaseState;
 
 /// The generic indices used, grouped by space, the spaces standing closed, and all indices.
-fn used_indices(
+pub(crate) fn used_indices(
     program: &Program,
     states: &[&State],
 ) -> (BTreeMap<SpaceId, Vec<u32>>, Vec<SpaceId>, BTreeSet<u32>) {

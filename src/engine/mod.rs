@@ -11,5 +11,6 @@ pub mod exact;
 pub mod expression;
 pub mod fock;
 pub mod slater_condon;
+pub mod spin_adapted_excitation;
 pub mod spin_integrate;
 pub mod spin_operator;

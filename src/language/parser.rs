@@ -4,11 +4,12 @@
 use crate::engine::coupling::{Twice, determinant_count, expanded, half, path_count, path_problem, paths};
 use crate::engine::derive::check_definition;
 use crate::engine::exact::Exact;
+use crate::engine::spin_adapted_excitation::excited_shells;
 use crate::error::{Change, Error, ErrorKind, Limit, Result, STATEMENTS, Source, Span};
 use crate::language::orbital::{Orb, Spin, SpinOrbital};
 use crate::language::program::{
     Coupling, DetSpec, Excitation, Index, NamedState, Occupant, Orbital, Program, Request, RequestKind,
-    Space, State,
+    Shells, Space, State,
 };
 use num_bigint::{BigInt, BigUint};
 use num_rational::BigRational;
@@ -157,11 +158,14 @@ pub struct Limits {
     /// Expand every member of a `csfs` family, not only those a request or definition uses
     /// (to list them all).
     pub expand_unused: bool,
+    /// Different generic indices are different orbitals (`--distinct`): a spin-adapted
+    /// excitation may then open two shells on indices of one space.
+    pub distinct: bool,
 }
 
 impl Default for Limits {
     fn default() -> Limits {
-        Limits { max_determinants: 200_000, max_paths: 1000, expand_unused: false }
+        Limits { max_determinants: 200_000, max_paths: 1000, expand_unused: false, distinct: false }
     }
 }
 
@@ -388,23 +392,51 @@ impl Resolver {
 
     fn expand(&mut self, k: u32) {
         if self.deferred.remove(&k) {
-            let state = &mut self.program.states[k as usize].state;
+            let state = &self.program.states[k as usize].state;
             let coupling = state.coupling.clone().expect("a deferred state keeps its coupling");
-            state.terms = Arc::new(expanded(&coupling));
+            let terms = expanded(&self.program, &coupling);
+            self.program.states[k as usize].state.terms = Arc::new(terms);
         }
     }
 
     /// `csf X = | ... | S=.. M=.. path=..` and `csfs X = | ... | S=.. M=..`: the written
-    /// determinant checked like a `det`, its open shells coupled along one path or every path.
+    /// determinant checked like a `det`, its open shells coupled along one path or every path;
+    /// `csf X = ref[i j -> a b] ...`: the open shells of the excitation coupled the same way.
     fn csf(&mut self, span: Span, mut inner: Pairs<Rule>) -> Result<()> {
         let family = inner.next().expect("grammar: csf keyword").as_str() == "csfs";
         let name = inner.next().expect("grammar: csf name");
-        let det = inner.next().expect("grammar: csf determinant");
-        let det_span = self.span(&det);
+        let operand = inner.next().expect("grammar: csf determinant");
+        let operand_span = self.span(&operand);
         let options = self.csf_options(inner, family)?;
-        let written = self.inline_det(det)?.terms[0].1.clone();
-        let open = self.open_shells(&written, &det_span)?;
-        let n = open.len();
+        let (written, excitation, det_label) = self.csf_operand(operand)?;
+        let (reference, orbs, shells) = match excitation {
+            None => {
+                // open shells carry no spin mark, so the determinant as written has them all
+                // alpha; doubly occupied orbitals keep their two spins
+                let open = self.open_shells(&written, &operand_span)?;
+                let orbs: Vec<Orb> = open
+                    .iter()
+                    .map(|&k| match written.occupants[k] {
+                        Occupant::Electron(so) => so.orb,
+                        Occupant::Closed(_) => unreachable!("open shells are electrons"),
+                    })
+                    .collect();
+                (written, orbs, Shells::Written)
+            }
+            Some(excitation) => {
+                let labels = (det_label.as_str(), without_comment(operand_span.text()));
+                let shells = excited_shells(
+                    &self.program,
+                    &written,
+                    &excitation,
+                    (labels.0, &labels.1),
+                    self.limits.distinct,
+                )
+                .map_err(|kind| Error::at(kind, &operand_span))?;
+                (shells.reference, shells.open, Shells::Excited)
+            }
+        };
+        let n = orbs.len();
         let (s, m) = total_spin(&options, n, &span)?;
         let determinants = determinant_count(n, m);
         let expandable =
@@ -413,19 +445,9 @@ impl Resolver {
             return Err(self.family_too_large(n, &determinants, &span));
         }
         let chosen = self.coupling_paths(options.path, family, n, s, &span)?;
-        // the written determinant must exist, as a `det` must: Pauli, closed spaces, size
-        let single = State::new(vec![(Exact::one(), written.clone())]);
-        check_definition(&self.program, &single, name.as_str(), &det_span)?;
-        // open shells carry no spin mark, so the determinant as written has them all alpha;
-        // doubly occupied orbitals keep their two spins
-        let reference = written.clone();
-        let orbs: Vec<Orb> = open
-            .iter()
-            .map(|&k| match written.occupants[k] {
-                Occupant::Electron(so) => so.orb,
-                Occupant::Closed(_) => unreachable!("open shells are electrons"),
-            })
-            .collect();
+        // the determinant must exist, as a `det` must: Pauli, closed spaces, size
+        let single = State::new(vec![(Exact::one(), reference.clone())]);
+        check_definition(&self.program, &single, name.as_str(), &operand_span)?;
         let name_span = self.span(&name);
         if family {
             self.declare(&name, Symbol::Family(chosen.len() as u32))?;
@@ -436,11 +458,12 @@ impl Resolver {
                 m,
                 open: orbs.clone(),
                 reference: reference.clone(),
+                shells,
                 determinants: determinants.clone(),
             });
             // one function too large to expand keeps only its coupling: its energy and spin
             // come from spin algebra; a family's members wait until something uses them
-            let terms = if expandable && !family { expanded(&coupling) } else { vec![] };
+            let terms = if expandable && !family { expanded(&self.program, &coupling) } else { vec![] };
             let state = State { terms: Arc::new(terms), coupling: Some(coupling) };
             let id = self.program.states.len() as u32;
             let label =
@@ -459,6 +482,48 @@ impl Resolver {
             });
         }
         Ok(())
+    }
+
+    /// The operand of a csf: an inline determinant or a `det` written without a coefficient,
+    /// and the one excitation that follows it (its own, or written after it), if any; with the
+    /// determinant's label for messages.
+    fn csf_operand(&self, pair: Pair<Rule>) -> Result<(DetSpec, Option<Excitation>, String)> {
+        let operand = without_comment(pair.as_str());
+        let span = self.span(&pair);
+        let mut inner = pair.into_inner();
+        let head = inner.next().expect("grammar: csf determinant");
+        let label = without_comment(head.as_str());
+        let mut det = match head.as_rule() {
+            Rule::inline_det => self.inline_det(head)?.terms[0].1.clone(),
+            _ => match self.lookup(&head)? {
+                Symbol::State(k) if self.program.states[k as usize].is_determinant => {
+                    let (coefficient, det) = &self.program.states[k as usize].state.terms[0];
+                    if *coefficient != Exact::one() {
+                        return Err(Error::at(
+                            ErrorKind::WrongKind {
+                                name: label,
+                                is: format!("a determinant with the coefficient {coefficient}"),
+                                wanted: "a determinant written without a coefficient".into(),
+                            },
+                            &self.span(&head),
+                        ));
+                    }
+                    det.clone()
+                }
+                other => return Err(self.wrong_kind(&head, other, "a determinant")),
+            },
+        };
+        for excitation in inner {
+            det.excitations.push(self.excitation(excitation)?);
+        }
+        let excitation = det.excitations.pop();
+        if !det.excitations.is_empty() {
+            return Err(Error::at(
+                ErrorKind::ExcitationCount { operand, count: det.excitations.len() + 1 },
+                &span,
+            ));
+        }
+        Ok((det, excitation, label))
     }
 
     /// `S=`, `M=` and `path=` as written, each at most once; `csfs` takes no `path=`.

@@ -75,17 +75,33 @@ pub struct State {
     pub coupling: Option<Arc<Coupling>>,
 }
 
-/// A genealogically coupled function: the open shells of `reference` (its singly occupied
-/// orbitals, all alpha there) coupled in order along `path` (twice the spins) to S = the last
-/// entry of `path` and M = `m` (twice the spins).
+/// A genealogically coupled function: the open shells `open` of `reference` (all alpha there)
+/// coupled in order along `path` (twice the spins) to S = the last entry of `path` and M = `m`
+/// (twice the spins).
 #[derive(Clone, Debug, PartialEq)]
 pub struct Coupling {
     pub path: Vec<Twice>,
     pub m: Twice,
     pub open: Vec<Orb>,
+    /// The function's determinant with every open shell alpha; `shells` says where they stand.
     pub reference: DetSpec,
+    pub shells: Shells,
     /// The number of determinants the function spans, exactly: C(n, n/2 + M) for n open shells.
     pub determinants: BigUint,
+}
+
+/// Where the open shells of a coupled function stand in its reference, so how each spin function
+/// becomes a determinant.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Shells {
+    /// The singly occupied electrons of the determinant as written (`csf X = | core^2 p q |`),
+    /// which take the spins in place.
+    Written,
+    /// The holes, then the particles, of the one excitation that ends the reference, applied to
+    /// a closed-shell determinant (`csf X = ref[i -> a]`): a hole's spin is that of the electron
+    /// left in it, so the excitation removes the other one; the reference removes every beta
+    /// electron of a hole and adds every particle alpha.
+    Excited,
 }
 
 impl Coupling {

@@ -234,6 +234,7 @@ fn operands_that_cannot_be_excited_into_open_shells_are_refused() {
         ("csf X = | occ^2 p |[i -> a] S=1/2 path=1/2,0,1/2", "`p` is singly occupied in `| occ^2 p |`"),
         ("state R = | occ^2 |\ncsf X = R[i -> a] S=0", "`R` is a state, but a determinant is needed here"),
         ("csf X = ref[i -> a] S=1/2", "2 open shell(s) cannot couple to S = 1/2"),
+        ("csf X = (ref)[i -> a] S=0", "expected a determinant `| ... |` or the name of a `det`"),
     ];
     for (line, message) in cases {
         let report = error_of(&format!("{base}{line}\n"));

@@ -83,6 +83,9 @@ fn describe(rule: &Rule) -> String {
         Rule::sum | Rule::product | Rule::unit => "a state or coefficient",
         Rule::operand | Rule::state_atom => "a state, a determinant `| ... |` or `(...)`",
         Rule::inline_det => "a determinant `| ... |`",
+        Rule::csf_operand => {
+            "a determinant `| ... |` or the name of a `det`, with an excitation `[i -> a]` if any"
+        }
         Rule::occupant => "an orbital, `name'` or `name^2`",
         Rule::excitation => "an excitation `[x -> y]`",
         Rule::spin_orbital => "a spin orbital (`a` or `a'`)",

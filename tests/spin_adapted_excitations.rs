@@ -26,7 +26,9 @@ const SINGLES: &str = "space occ: i j\nspace vir: a b\ndet ref = | occ^2 |\n\
     csf Tup = ref[i -> a] S=1\n\
     csf Tdown = ref[i -> a] S=1 M=-1\n\
     state Sh = (ref[i -> a] + ref[i' -> a'])/sqrt(2)\n\
-    state Th = (ref[i -> a] - ref[i' -> a'])/sqrt(2)\n";
+    state Th = (ref[i -> a] - ref[i' -> a'])/sqrt(2)\n\
+    det ia = ref[i -> a]\n\
+    csf Sia = ia S=0\n";
 
 /// Derives and verifies every request; every one must have been checked by brute force.
 fn checked(program: &Program, options: &Options) -> Vec<Expr> {
@@ -49,7 +51,7 @@ fn constant(n: i64) -> Expr {
 fn singles_are_the_hand_built_singlet_and_triplets() {
     let input = format!(
         "{SINGLES}energy S\nenergy Sh\noverlap S Sh\nenergy T\nenergy Th\noverlap T Th\n\
-         overlap Tup ref[i' -> a]\noverlap Tdown ref[i -> a']\nenergy Tup\n"
+         overlap Tup ref[i' -> a]\noverlap Tdown ref[i -> a']\nenergy Tup\noverlap Sia S\n"
     );
     let program = parse("singles.spinfold", &input).unwrap();
     // exact expressions, each checked against brute-force determinant algebra at every
@@ -63,6 +65,7 @@ fn singles_are_the_hand_built_singlet_and_triplets() {
     assert_eq!(v[7], constant(-1), "M = -1: the determinant -ref[i -> a']");
     assert_eq!(v[8], v[3], "every triplet component has one energy");
     assert_ne!(v[0], v[3]);
+    assert_eq!(v[9], constant(1), "a `det` that is an excitation couples as that excitation");
     let terms = |name: &str| program.states.iter().find(|s| s.name == name).unwrap().state.terms.len();
     assert_eq!((terms("S"), terms("T"), terms("Tup"), terms("Tdown")), (2, 2, 1, 1));
 }

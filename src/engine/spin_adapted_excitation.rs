@@ -74,9 +74,10 @@ pub fn excited_shells(
     let case = all_different(program, &reference);
     let electrons = match CaseDet::build(base, &case) {
         Ok((_, d)) => d.electrons,
-        Err(Vanishing::Pauli(so) | Vanishing::Empty(so)) => {
+        Err(Vanishing::Pauli(so)) => {
             return Err(ErrorKind::Pauli { spin_orbital: program.spin_orbital_name(so) });
         }
+        Err(Vanishing::Empty(_)) => unreachable!("a determinant without excitations removes nothing"),
     };
     let occupation = |orb: Orb| electrons.iter().filter(|e| e.orb == case.orb(orb)).count();
     for (orbs, hole, wanted) in [(&holes, true, 2), (&particles, false, 0)] {

@@ -80,8 +80,9 @@ pub fn spin_values(state: &CaseState) -> Option<SpinValues> {
 
 /// A `spin` request on a configuration state function: <S²> = S(S+1) and <S_z> = M exactly, by
 /// construction of its coupling, with no determinant touched. None when the state is not one
-/// (a combination, an excited csf), when its generic indices may coincide (the determinants
-/// settle what happens then), or when `--route determinants` asks for determinants.
+/// (a combination, or a csf excited after its definition), when its generic indices may
+/// coincide (the determinants settle what happens then), or when `--route determinants` asks
+/// for determinants.
 pub fn coupled_spin(program: &Program, request: &Request, options: &Options) -> Option<Derivation> {
     if request.kind != RequestKind::Spin || options.route == Route::Determinants {
         return None;

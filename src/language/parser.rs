@@ -427,15 +427,11 @@ impl Resolver {
                 (written, orbs, Shells::Written)
             }
             Some(excitation) => {
-                let labels = (det_label.as_str(), without_comment(operand_span.text()));
-                let shells = excited_shells(
-                    &self.program,
-                    &written,
-                    &excitation,
-                    (labels.0, &labels.1),
-                    self.limits.distinct,
-                )
-                .map_err(|kind| Error::at(kind, &operand_span))?;
+                let operand_text = without_comment(operand_span.text());
+                let labels = (det_label.as_str(), operand_text.as_str());
+                let shells =
+                    excited_shells(&self.program, &written, &excitation, labels, self.limits.distinct)
+                        .map_err(|kind| Error::at(kind, &operand_span))?;
                 (shells.reference, shells.open, Shells::Excited)
             }
         };

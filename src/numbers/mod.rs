@@ -2,6 +2,7 @@
 //! to orbitals, and the evaluation of derived expressions with them, row by row.
 
 pub mod bind;
+pub mod compiled;
 pub mod eigen;
 pub mod evaluate;
 pub mod fcidump;

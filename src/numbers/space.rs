@@ -3,11 +3,14 @@
 
 use crate::engine::derive::Derivation;
 use crate::error::{Error, ErrorKind, Result};
+use crate::language::orbital::SpaceId;
 use crate::language::program::Program;
+use crate::numbers::compiled::{CompiledExprs, Tables};
 use crate::numbers::eigen::{self, Entry, Pencil};
-use crate::numbers::evaluate::{Binding, evaluate};
+use crate::numbers::evaluate::Binding;
 use crate::numbers::integrals::Integrals;
 use itertools::Itertools;
+use rayon::prelude::*;
 use std::time::{Duration, Instant};
 
 pub use crate::numbers::eigen::DEPENDENCE_THRESHOLD;
@@ -99,76 +102,169 @@ fn members(program: &Program, operands: &[Operand], binding: &Binding) -> Vec<Me
     out
 }
 
-/// The pair elements by (row operand, column operand), row <= column.
-struct Pairs<'a, 'e> {
-    by_operands: Vec<Vec<Option<&'e PairElement<'a>>>>,
-}
-
-impl<'a, 'e> Pairs<'a, 'e> {
-    fn new(count: usize, elements: &'e [PairElement<'a>]) -> Result<Pairs<'a, 'e>> {
-        let mut by_operands = vec![vec![None; count]; count];
-        for e in elements {
-            if e.derivation.distinct {
-                return Err(Error::new(ErrorKind::DistinctSpace { request: e.derivation.text.clone() }));
-            }
-            by_operands[e.row][e.column] = Some(e);
-        }
-        Ok(Pairs { by_operands })
-    }
-
-    fn get(&self, row: usize, column: usize) -> &'e PairElement<'a> {
-        self.by_operands[row][column].expect("solve_space is given a pair element for every pair of operands")
-    }
+/// A pair element compiled: <p|H|q> electronic and <p|q> together.
+struct CompiledPair<'e, 't> {
+    element: &'e PairElement<'e>,
+    exprs: CompiledExprs<'e, 't, 2>,
 }
 
 /// Evaluates <p|H|q> and <p|q> for members p, q of operands row <= column.
-struct Evaluator<'p> {
+struct Evaluator<'p, 't> {
     program: &'p Program,
     operands: &'p [Operand],
+    members: &'p [Member],
+    /// The binding with room for every index the pair elements use.
     binding: Binding,
-    ints: &'p dyn Integrals,
+    constant: f64,
+    /// By (row operand, column operand), row <= column.
+    pairs: Vec<Vec<Option<CompiledPair<'p, 't>>>>,
 }
 
-impl Evaluator<'_> {
-    /// (H including constant × S, S) at the two members.
-    fn pair(&self, element: &PairElement, p: &Member, q: &Member) -> Result<(f64, f64)> {
-        let mut b = self.binding.clone();
-        for (&k, &v) in self.operands[p.operand].indices.iter().zip(&p.values) {
-            b.indices[k as usize] = Some(v);
+/// A worker's binding and scratch space.
+struct Scratch {
+    binding: Binding,
+    key: Vec<u16>,
+}
+
+impl<'p, 't> Evaluator<'p, 't> {
+    fn new(
+        program: &'p Program,
+        operands: &'p [Operand],
+        members: &'p [Member],
+        elements: &'p [PairElement<'p>],
+        binding: Binding,
+        tables: &'t Tables<'t>,
+        constant: f64,
+    ) -> Result<Evaluator<'p, 't>> {
+        let mut pairs: Vec<Vec<Option<CompiledPair>>> =
+            (0..operands.len()).map(|_| (0..operands.len()).map(|_| None).collect()).collect();
+        for element in elements {
+            let d = element.derivation;
+            if d.distinct {
+                return Err(Error::new(ErrorKind::DistinctSpace { request: d.text.clone() }));
+            }
+            let exprs = CompiledExprs::new([&d.value, &d.overlap], tables);
+            pairs[element.row][element.column] = Some(CompiledPair { element, exprs });
         }
-        let renamed = |k: u32| element.renamed.iter().find(|(from, _)| *from == k).map_or(k, |&(_, to)| to);
-        // indices of the column operand fixed by the user keep their value under a new name
-        for &(from, to) in &element.renamed {
-            if !self.operands[q.operand].indices.contains(&from) {
-                b.indices[to as usize] = self.binding.indices[from as usize];
+        Ok(Evaluator { program, operands, members, binding, constant, pairs })
+    }
+
+    fn scratch(&self) -> Scratch {
+        Scratch { binding: self.binding.clone(), key: vec![] }
+    }
+
+    fn pair(&self, row: usize, column: usize) -> &CompiledPair<'p, 't> {
+        self.pairs[row][column]
+            .as_ref()
+            .expect("solve_space is given a pair element for every pair of operands")
+    }
+
+    /// Sets the indices of member p as the row of a pair.
+    fn set_row(&self, scratch: &mut Scratch, p: usize) {
+        let m = &self.members[p];
+        for (&k, &v) in self.operands[m.operand].indices.iter().zip(&m.values) {
+            scratch.binding.indices[k as usize] = Some(v);
+        }
+    }
+
+    /// Sets the renamed indices of the column operand that the user fixed.
+    fn set_fixed(&self, scratch: &mut Scratch, pair: &CompiledPair) {
+        let listed = &self.operands[pair.element.column].indices;
+        for &(from, to) in pair.element.renamed.iter().filter(|(from, _)| !listed.contains(from)) {
+            scratch.binding.indices[to as usize] = self.binding.indices[from as usize];
+        }
+    }
+
+    /// (H including constant × S, S) for the row set before and member q as the column.
+    fn column(&self, scratch: &mut Scratch, pair: &CompiledPair, p: usize, q: usize) -> Result<(f64, f64)> {
+        let m = &self.members[q];
+        let renamed = &pair.element.renamed;
+        for (&k, &v) in self.operands[m.operand].indices.iter().zip(&m.values) {
+            let to = renamed.iter().find(|(from, _)| *from == k).map_or(k, |&(_, to)| to);
+            scratch.binding.indices[to as usize] = Some(v);
+        }
+        let [value, s] = pair.exprs.values(&scratch.binding, &mut scratch.key);
+        let h = value + self.constant * s;
+        if h.is_finite() && s.is_finite() {
+            return Ok((h, s));
+        }
+        let names = |m: &Member| {
+            self.operands[m.operand]
+                .indices
+                .iter()
+                .zip(&m.values)
+                .map(|(&k, &v)| format!("{}={}", self.program.indices[k as usize].name, v + 1))
+                .join(", ")
+        };
+        Err(Error::new(ErrorKind::NonFinite {
+            request: pair.element.derivation.text.clone(),
+            value: if h.is_finite() { s } else { h }.to_string(),
+            row: format!(" at ({}; {})", names(&self.members[p]), names(m)),
+        }))
+    }
+
+    /// <p|p>.
+    fn norm(&self, scratch: &mut Scratch, p: usize) -> Result<f64> {
+        let operand = self.members[p].operand;
+        let pair = self.pair(operand, operand);
+        self.set_row(scratch, p);
+        self.set_fixed(scratch, pair);
+        self.column(scratch, pair, p, p).map(|(_, s)| s)
+    }
+
+    /// The non-zero entries of row p of H and S on and above the diagonal, over the members
+    /// `kept` (ascending; p among them at position `at`).
+    fn row(&self, scratch: &mut Scratch, kept: &[usize], at: usize) -> Result<Vec<Entry>> {
+        let p = kept[at];
+        let row_operand = self.members[p].operand;
+        self.set_row(scratch, p);
+        let mut out = vec![];
+        let mut current = usize::MAX;
+        for (column, &q) in kept.iter().enumerate().skip(at) {
+            let operand = self.members[q].operand;
+            let pair = self.pair(row_operand, operand);
+            if operand != current {
+                self.set_fixed(scratch, pair);
+                current = operand;
+            }
+            let (h, s) = self.column(scratch, pair, p, q)?;
+            if h != 0.0 || s != 0.0 {
+                out.push(Entry { column: column as u32, h, s });
             }
         }
-        for (&k, &v) in self.operands[q.operand].indices.iter().zip(&q.values) {
-            b.indices[renamed(k) as usize] = Some(v);
-        }
-        let d = element.derivation;
-        let s = evaluate(&d.overlap, &b, self.ints);
-        let h = evaluate(&d.value, &b, self.ints) + self.ints.constant() * s;
-        for value in [h, s] {
-            if !value.is_finite() {
-                let names = |m: &Member| {
-                    self.operands[m.operand]
-                        .indices
-                        .iter()
-                        .zip(&m.values)
-                        .map(|(&k, &v)| format!("{}={}", self.program.indices[k as usize].name, v + 1))
-                        .join(", ")
-                };
-                return Err(Error::new(ErrorKind::NonFinite {
-                    request: d.text.clone(),
-                    value: value.to_string(),
-                    row: format!(" at ({}; {})", names(p), names(q)),
-                }));
-            }
-        }
-        Ok((h, s))
+        Ok(out)
     }
 }
+
+/// Rows of the upper triangle in parallel, in chunks of about equal work, with progress
+/// between chunks; the result does not depend on the number of threads.
+fn assemble(evaluator: &Evaluator, kept: &[usize], progress: &dyn Fn(&str)) -> Result<Pencil> {
+    let n = kept.len();
+    let total: usize = n * (n + 1) / 2;
+    let mut rows = Vec::with_capacity(n);
+    let mut start = 0;
+    while start < n {
+        let (mut end, mut work) = (start, 0);
+        while end < n && work * CHUNKS < total.max(1) {
+            work += n - end;
+            end += 1;
+        }
+        let chunk: Vec<Result<Vec<Entry>>> = (start..end)
+            .into_par_iter()
+            .map_init(|| evaluator.scratch(), |scratch, at| evaluator.row(scratch, kept, at))
+            .collect();
+        for row in chunk {
+            rows.push(row?);
+        }
+        let done: usize = total - (n - end) * (n - end + 1) / 2;
+        progress(&format!("assembling H and S over {n} functions: {}%", 100 * done / total.max(1)));
+        start = end;
+    }
+    Ok(Pencil { rows })
+}
+
+/// The number of progress steps of the assembly.
+const CHUNKS: usize = 50;
 
 /// Expands every operand over its indices (bound spaces from `binding`; indices fixed by the
 /// user are already set in `binding.indices`), drops zero-norm members, assembles H and S from
@@ -185,37 +281,34 @@ pub fn solve_space(
     progress: &dyn Fn(&str),
 ) -> Result<SpaceRoots> {
     let start = Instant::now();
-    let pairs = Pairs::new(operands.len(), elements)?;
     let all = members(program, operands, binding);
     if all.len() > MEMBER_LIMIT {
         return Err(eigen::too_large(all.len(), MEMBER_LIMIT));
     }
+    // room for the indices the column operands are renamed to, which run over the spaces of
+    // the indices they stand for
     let mut full = binding.clone();
-    let used = elements.iter().flat_map(|e| e.renamed.iter().map(|&(_, to)| to as usize + 1));
-    let width = used.chain([program.indices.len(), full.indices.len()]).max().unwrap_or(0);
-    full.indices.resize(width, None);
-    let evaluator = Evaluator { program, operands, binding: full, ints };
-    let mut kept = vec![];
-    for m in all {
-        let (_, norm) = evaluator.pair(pairs.get(m.operand, m.operand), &m, &m)?;
-        if norm > 0.0 {
-            kept.push(m);
-        }
-    }
-    let vanishing = members(program, operands, binding).len() - kept.len();
-    progress(&format!("assembling H and S over {} functions", kept.len()));
-    let mut rows = vec![];
-    for (p, mp) in kept.iter().enumerate() {
-        let mut row = vec![];
-        for (q, mq) in kept.iter().enumerate().skip(p) {
-            let (h, s) = evaluator.pair(pairs.get(mp.operand, mq.operand), mp, mq)?;
-            if h != 0.0 || s != 0.0 {
-                row.push(Entry { column: q as u32, h, s });
+    let mut space_of: Vec<SpaceId> = program.indices.iter().map(|i| i.space).collect();
+    for e in elements {
+        for &(from, to) in &e.renamed {
+            if to as usize >= space_of.len() {
+                space_of.resize(to as usize + 1, 0);
+                space_of[to as usize] = space_of[from as usize];
             }
         }
-        rows.push(row);
     }
-    let pencil = Pencil { rows };
+    full.indices.resize(space_of.len().max(full.indices.len()), None);
+    let tables = Tables::new(binding, ints, space_of);
+    let evaluator = Evaluator::new(program, operands, &all, elements, full, &tables, ints.constant())?;
+    let mut scratch = evaluator.scratch();
+    let mut kept = vec![];
+    for p in 0..all.len() {
+        if evaluator.norm(&mut scratch, p)? > 0.0 {
+            kept.push(p);
+        }
+    }
+    let vanishing = all.len() - kept.len();
+    let pencil = assemble(&evaluator, &kept, progress)?;
     let assembly = start.elapsed();
     let solution = eigen::lowest_roots(&pencil, count, progress)?;
     let component = |m: &Member, coefficient: f64| Component {
@@ -236,7 +329,7 @@ pub fn solve_space(
             let order = (0..kept.len())
                 .filter(|&p| c[p] != 0.0)
                 .sorted_by(|&a, &b| c[b].abs().total_cmp(&c[a].abs()));
-            Root { value, vector: order.map(|p| component(&kept[p], c[p])).collect() }
+            Root { value, vector: order.map(|p| component(&all[kept[p]], c[p])).collect() }
         })
         .collect();
     Ok(SpaceRoots {

@@ -211,3 +211,113 @@ impl<'e, 't, const N: usize> CompiledExprs<'e, 't, N> {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::engine::derive::{Options, derive};
+    use crate::language::parser::parse;
+    use crate::language::program::Program;
+    use crate::numbers::evaluate::evaluate;
+    use crate::numbers::integrals::IntegralTable;
+    use rand::{RngExt, SeedableRng};
+    use rand_chacha::ChaCha8Rng;
+
+    /// Pairs of the determinant CISD space, whose elements have eight generic indices.
+    const CISD_PAIRS: &str = "
+space occ: i j k l
+space vir: a b c d
+det ref = | occ^2 |
+element ref[i j -> a b] ref[k l -> c d]
+element ref[i j' -> a b'] ref[k l' -> c d']
+element ref[i j -> a b] ref[k' l' -> c' d']
+element ref[i -> a] ref[k l' -> c d']
+element ref[i' -> a'] ref[k' -> c']
+";
+
+    /// Every bundled example and the CISD pairs.
+    fn programs() -> Vec<Program> {
+        let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
+        let mut texts: Vec<(String, String)> = std::fs::read_dir(&dir)
+            .expect("examples/ exists")
+            .map(|e| e.expect("an entry").path())
+            .filter(|p| p.extension().is_some_and(|x| x == "spinfold"))
+            .map(|p| (p.display().to_string(), std::fs::read_to_string(&p).expect("readable")))
+            .collect();
+        texts.sort();
+        texts.push(("cisd".into(), CISD_PAIRS.into()));
+        texts.iter().map(|(name, text)| parse(name, text).expect("the example parses")).collect()
+    }
+
+    /// Named orbitals first, then three orbitals per space; indices drawn from the first two
+    /// members of their space, so that they coincide often.
+    fn random_binding(program: &Program, rng: &mut ChaCha8Rng) -> Binding {
+        let named = program.orbitals.len();
+        let spaces: Vec<Vec<usize>> =
+            (0..program.spaces.len()).map(|s| (0..3).map(|m| named + 3 * s + m).collect()).collect();
+        let indices =
+            program.indices.iter().map(|i| Some(spaces[i.space as usize][rng.random_range(0..2)])).collect();
+        Binding { orbitals: (0..named).collect(), spaces, indices }
+    }
+
+    /// Compiled values equal `evaluate` on every example and on random bindings, coincident
+    /// indices included, each binding taking its own pattern's form.
+    #[test]
+    fn compiled_values_equal_evaluate() {
+        let mut rng = ChaCha8Rng::seed_from_u64(11);
+        let mut checked = 0;
+        for program in programs() {
+            let norb = program.orbitals.len() + 3 * program.spaces.len();
+            let ints = IntegralTable::random(norb, 5);
+            let space_of = program.indices.iter().map(|i| i.space).collect();
+            let base = random_binding(&program, &mut rng);
+            let tables = Tables::new(&base, &ints, space_of);
+            for request in &program.requests {
+                let d = derive(&program, request, &Options::default()).expect("the request derives");
+                let compiled = CompiledExprs::new([&d.value, &d.overlap, &d.s_z], &tables);
+                let mut key = vec![];
+                for _ in 0..40 {
+                    let binding = random_binding(&program, &mut rng);
+                    let got = compiled.values(&binding, &mut key);
+                    for (expr, value) in [&d.value, &d.overlap, &d.s_z].into_iter().zip(got) {
+                        let expected = evaluate(expr, &binding, &ints);
+                        assert!(
+                            (value - expected).abs() <= 1e-12 * expected.abs().max(1.0),
+                            "{}: compiled {value} vs evaluate {expected} at {binding:?}",
+                            request.text
+                        );
+                        checked += 1;
+                    }
+                }
+            }
+        }
+        assert!(checked > 1000);
+    }
+
+    /// A term whose table would pass TABLE_ENTRIES is evaluated from the integrals, with the
+    /// same value.
+    #[test]
+    fn terms_too_large_to_tabulate_are_evaluated_directly() {
+        let program = parse("cisd", CISD_PAIRS).expect("parses");
+        let d = derive(&program, &program.requests[0], &Options::default()).expect("derives");
+        // 40 orbitals per space: a four-index table has 2.56 million entries
+        let spaces = vec![(0..40).collect::<Vec<usize>>(), (40..80).collect()];
+        let mut rng = ChaCha8Rng::seed_from_u64(3);
+        let ints = IntegralTable::random(80, 9);
+        let base = Binding { orbitals: vec![], spaces: spaces.clone(), indices: vec![None; 8] };
+        let tables = Tables::new(&base, &ints, program.indices.iter().map(|i| i.space).collect());
+        let compiled = CompiledExprs::new([&d.value], &tables);
+        let mut key = vec![];
+        let mut direct = 0;
+        for _ in 0..30 {
+            let indices = program.indices.iter().map(|i| Some(spaces[i.space as usize][rng.random_range(0..3)])).collect();
+            let binding = Binding { indices, ..base.clone() };
+            let [value] = compiled.values(&binding, &mut key);
+            let expected = evaluate(&d.value, &binding, &ints);
+            assert!((value - expected).abs() <= 1e-12 * expected.abs().max(1.0));
+            let forms = compiled.forms.read().expect("unlocked");
+            direct = forms.values().flat_map(|f| &f.terms[0]).filter(|c| matches!(c, Compiled::Direct(_))).count();
+        }
+        assert!(direct > 0, "some four-index term was too large for a table");
+    }
+}

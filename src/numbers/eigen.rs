@@ -92,6 +92,18 @@ pub struct Orthonormal {
 }
 
 impl Orthonormal {
+    /// X^T z.
+    fn contract(&self, z: &[f64]) -> Vec<f64> {
+        let mut out = vec![0.0; self.dimension];
+        for block in &self.blocks {
+            for k in 0..block.vectors.ncols() {
+                out[block.first + k] =
+                    block.members.iter().enumerate().map(|(row, &p)| block.vectors[(row, k)] * z[p]).sum();
+            }
+        }
+        out
+    }
+
     /// X y: a vector over the orthonormal basis written over the pencil's functions.
     fn expand(&self, y: &[f64]) -> Vec<f64> {
         let mut out = vec![0.0; self.place.len()];
@@ -107,7 +119,7 @@ impl Orthonormal {
 
 /// The eigenvalues (ascending) and eigenvectors of a symmetric matrix, of which the lower
 /// triangle is read. Sequential, so that the result does not depend on the number of threads.
-fn symmetric_eigen(a: MatRef<'_, f64>) -> Result<(Vec<f64>, Mat<f64>)> {
+pub(crate) fn symmetric_eigen(a: MatRef<'_, f64>) -> Result<(Vec<f64>, Mat<f64>)> {
     let n = a.nrows();
     let mut u = Mat::zeros(n, n);
     let mut s = faer::diag::Diag::zeros(n);
@@ -255,7 +267,8 @@ pub fn lowest_roots_within(
             (0..count).map(|r| (0..basis.dimension).map(|a| u[(a, r)]).collect()).collect();
         (values[..count].to_vec(), ys)
     } else {
-        return Err(too_large(basis.dimension, dense_limit));
+        let diagonal = projected_diagonal(pencil, &basis);
+        crate::numbers::davidson::lowest(&|y| apply(pencil, &basis, y), &diagonal, count, progress)?
     };
     let vectors = ys.iter().map(|y: &Vec<f64>| signed(basis.expand(y))).collect();
     Ok(Solution {
@@ -277,6 +290,43 @@ fn signed(mut v: Vec<f64>) -> Vec<f64> {
     v
 }
 
+/// H' y = X^T H X y through the stored upper triangle of H.
+fn apply(pencil: &Pencil, basis: &Orthonormal, y: &[f64]) -> Vec<f64> {
+    let x = basis.expand(y);
+    let mut z = vec![0.0; x.len()];
+    for (p, row) in pencil.rows.iter().enumerate() {
+        let mut zp = 0.0;
+        for e in row {
+            let q = e.column as usize;
+            zp += e.h * x[q];
+            if q != p {
+                z[q] += e.h * x[p];
+            }
+        }
+        z[p] += zp;
+    }
+    basis.contract(&z)
+}
+
+/// The diagonal of H' = X^T H X.
+fn projected_diagonal(pencil: &Pencil, basis: &Orthonormal) -> Vec<f64> {
+    let mut out = vec![0.0; basis.dimension];
+    for block in &basis.blocks {
+        for k in 0..block.vectors.ncols() {
+            let mut sum = 0.0;
+            for (a, &p) in block.members.iter().enumerate() {
+                for (b, &q) in block.members.iter().enumerate() {
+                    if let Some(e) = pencil.get(p, q) {
+                        sum += block.vectors[(a, k)] * e.h * block.vectors[(b, k)];
+                    }
+                }
+            }
+            out[block.first + k] = sum;
+        }
+    }
+    out
+}
+
 /// A space too large for the element-by-element assembly.
 pub fn too_large(functions: usize, limit: usize) -> Error {
     Error::new(ErrorKind::TooLarge {
@@ -291,4 +341,113 @@ pub fn too_large(functions: usize, limit: usize) -> Error {
             ),
         }),
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rand::{RngExt, SeedableRng};
+    use rand_chacha::ChaCha8Rng;
+
+    /// A random symmetric A over m orthonormal functions, with a spread diagonal.
+    fn random_symmetric(m: usize, seed: u64) -> Mat<f64> {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        let mut a = Mat::from_fn(m, m, |i, j| if i == j { i as f64 } else { 0.0 });
+        for i in 0..m {
+            for j in 0..i {
+                if rng.random_range(0.0..1.0) < 0.3 {
+                    let x = rng.random_range(-0.5..0.5);
+                    a[(i, j)] = x;
+                    a[(j, i)] = x;
+                }
+            }
+        }
+        a
+    }
+
+    /// The pencil of functions c_p (columns over the orthonormal functions): H = C^T A C,
+    /// S = C^T C.
+    fn pencil(a: &Mat<f64>, functions: &[Vec<f64>]) -> Pencil {
+        let dot = |x: &[f64], y: &[f64]| x.iter().zip(y).map(|(p, q)| p * q).sum::<f64>();
+        let image = |x: &[f64]| {
+            (0..a.nrows()).map(|i| (0..a.ncols()).map(|j| a[(i, j)] * x[j]).sum()).collect::<Vec<f64>>()
+        };
+        let rows = functions
+            .iter()
+            .enumerate()
+            .map(|(p, cp)| {
+                let acp = image(cp);
+                (p..functions.len())
+                    .map(|q| Entry {
+                        column: q as u32,
+                        h: dot(&acp, &functions[q]),
+                        s: dot(cp, &functions[q]),
+                    })
+                    .filter(|e| e.h != 0.0 || e.s != 0.0)
+                    .collect()
+            })
+            .collect();
+        Pencil { rows }
+    }
+
+    fn unit(m: usize, k: usize, scale: f64) -> Vec<f64> {
+        let mut e = vec![0.0; m];
+        e[k] = scale;
+        e
+    }
+
+    /// m independent functions (the orthonormal ones but the fifth, for which a combination of
+    /// the fourth and fifth stands), a repeated one and a scaled copy: the roots are A's
+    /// eigenvalues, the two copies dropped.
+    fn functions(m: usize) -> Vec<Vec<f64>> {
+        let mut out: Vec<Vec<f64>> = (0..m).filter(|&k| k != 4).map(|k| unit(m, k, 1.0)).collect();
+        out.insert(2, unit(m, 1, 1.0));
+        out.push(unit(m, 2, -2.0));
+        let mut mixed = unit(m, 3, 0.6);
+        mixed[4] = 0.8;
+        out.push(mixed);
+        out
+    }
+
+    #[test]
+    fn repeated_functions_are_dropped_and_the_roots_are_those_of_the_independent_ones() {
+        let m = 12;
+        let a = random_symmetric(m, 1);
+        let p = pencil(&a, &functions(m));
+        let solution = lowest_roots(&p, m, &|_| {}).unwrap();
+        assert_eq!((solution.dimension, solution.dropped), (m, 2));
+        let (expected, _) = symmetric_eigen(a.as_ref()).unwrap();
+        for (got, want) in solution.values.iter().zip(&expected) {
+            assert!((got - want).abs() < 1e-12, "{got} vs {want}");
+        }
+        // C^T S C = 1 over the functions as given, and the largest component positive
+        let n = p.dimension();
+        for (r, c) in solution.vectors.iter().enumerate() {
+            for (t, d) in solution.vectors.iter().enumerate() {
+                let overlap: f64 = (0..n)
+                    .flat_map(|x| (0..n).map(move |y| (x, y)))
+                    .map(|(x, y)| c[x] * d[y] * p.get(x, y).map_or(0.0, |e| e.s))
+                    .sum();
+                assert!((overlap - if r == t { 1.0 } else { 0.0 }).abs() < 1e-12);
+            }
+            let largest = c.iter().copied().fold(0.0, |m: f64, x| if x.abs() > m.abs() { x } else { m });
+            assert!(largest > 0.0);
+        }
+    }
+
+    #[test]
+    fn davidson_finds_the_roots_of_the_dense_solver() {
+        let m = 300;
+        let a = random_symmetric(m, 2);
+        let p = pencil(&a, &functions(m));
+        let dense = lowest_roots_within(&p, 6, usize::MAX, &|_| {}).unwrap();
+        let iterative = lowest_roots_within(&p, 6, 10, &|_| {}).unwrap();
+        assert_eq!((iterative.dimension, iterative.dropped), (m, 2));
+        for (d, i) in dense.values.iter().zip(&iterative.values) {
+            assert!((d - i).abs() < 1e-12, "{d} vs {i}");
+        }
+        for (d, i) in dense.vectors.iter().zip(&iterative.vectors) {
+            assert!(d.iter().zip(i).all(|(x, y)| (x - y).abs() < 1e-7));
+        }
+    }
 }

@@ -3,6 +3,7 @@
 
 pub mod bind;
 pub mod compiled;
+pub mod davidson;
 pub mod eigen;
 pub mod evaluate;
 pub mod fcidump;

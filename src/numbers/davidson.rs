@@ -1,0 +1,134 @@
+//! Davidson iteration: the lowest roots of a large real symmetric matrix known through its
+//! product with vectors and its diagonal, for spaces past the dense solver's dimension.
+
+use crate::error::{Error, ErrorKind, Result};
+use crate::numbers::eigen::symmetric_eigen;
+use faer::Mat;
+
+/// The iteration stops when every wanted root's residual norm ‖Ax − θx‖ is below this; the
+/// energies are then exact to about its square.
+pub const RESIDUAL_TOLERANCE: f64 = 1e-8;
+
+/// The most iterations before the roots are declared not found.
+pub const MAX_ITERATIONS: usize = 400;
+
+/// The smallest |θ − A_ii| the diagonal preconditioner divides by.
+const SMALLEST_DENOMINATOR: f64 = 1e-8;
+
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    a.iter().zip(b).map(|(x, y)| x * y).sum()
+}
+
+/// Σ_k c_k v_k.
+fn combine(vectors: &[Vec<f64>], c: impl Fn(usize) -> f64, n: usize) -> Vec<f64> {
+    let mut out = vec![0.0; n];
+    for (k, v) in vectors.iter().enumerate() {
+        let ck = c(k);
+        out.iter_mut().zip(v).for_each(|(o, x)| *o += ck * x);
+    }
+    out
+}
+
+/// `t` made orthogonal to `basis` (two passes of Gram–Schmidt) and normalized; None when
+/// nothing of it is left.
+fn orthonormalized(mut t: Vec<f64>, basis: &[Vec<f64>]) -> Option<Vec<f64>> {
+    let before = dot(&t, &t).sqrt();
+    for _ in 0..2 {
+        for v in basis {
+            let overlap = dot(v, &t);
+            t.iter_mut().zip(v).for_each(|(x, y)| *x -= overlap * y);
+        }
+    }
+    let norm = dot(&t, &t).sqrt();
+    (norm > 1e-10 * before.max(1e-300)).then(|| t.into_iter().map(|x| x / norm).collect())
+}
+
+/// The `count` lowest eigenvalues (ascending) and unit eigenvectors of the symmetric matrix A of
+/// dimension `diagonal.len()`, given `apply(x) = A x`. Deterministic: every step is sequential
+/// except inside `apply`, which must itself be deterministic.
+pub fn lowest(
+    apply: &dyn Fn(&[f64]) -> Vec<f64>,
+    diagonal: &[f64],
+    count: usize,
+    progress: &dyn Fn(&str),
+) -> Result<(Vec<f64>, Vec<Vec<f64>>)> {
+    let n = diagonal.len();
+    let count = count.min(n);
+    if count == 0 {
+        return Ok((vec![], vec![]));
+    }
+    let largest = n.min((8 * count).max(40));
+    // start from the unit vectors of the lowest diagonal entries
+    let mut order: Vec<usize> = (0..n).collect();
+    order.sort_by(|&a, &b| diagonal[a].total_cmp(&diagonal[b]).then(a.cmp(&b)));
+    let mut basis: Vec<Vec<f64>> = order[..count]
+        .iter()
+        .map(|&p| {
+            let mut e = vec![0.0; n];
+            e[p] = 1.0;
+            e
+        })
+        .collect();
+    let mut images: Vec<Vec<f64>> = basis.iter().map(|v| apply(v)).collect();
+    for iteration in 1..=MAX_ITERATIONS {
+        let m = basis.len();
+        let small = Mat::from_fn(m, m, |a, b| dot(&basis[a], &images[b]));
+        let (theta, s) = symmetric_eigen(small.as_ref())?;
+        let ritz = |r: usize, of: &[Vec<f64>]| combine(of, |k| s[(k, r)], n);
+        let mut vectors = vec![];
+        let mut residuals = vec![];
+        for r in 0..count {
+            let (x, ax) = (ritz(r, &basis), ritz(r, &images));
+            residuals.push(ax.iter().zip(&x).map(|(a, x)| a - theta[r] * x).collect::<Vec<f64>>());
+            vectors.push(x);
+        }
+        let norms: Vec<f64> = residuals.iter().map(|r| dot(r, r).sqrt()).collect();
+        let worst = norms.iter().copied().fold(0.0, f64::max);
+        progress(&format!("Davidson iteration {iteration}: dimension {n}, largest residual {worst:.1e}"));
+        if worst < RESIDUAL_TOLERANCE {
+            return Ok((theta[..count].to_vec(), vectors));
+        }
+        if m + count > largest {
+            // restart from the Ritz vectors of the lowest roots, twice as many as wanted
+            let keep = (2 * count).min(m);
+            let (b, i) =
+                ((0..keep).map(|r| ritz(r, &basis)).collect(), (0..keep).map(|r| ritz(r, &images)).collect());
+            basis = b;
+            images = i;
+        }
+        let mut added = 0;
+        for r in (0..count).filter(|&r| norms[r] >= RESIDUAL_TOLERANCE) {
+            let t = residuals[r]
+                .iter()
+                .zip(diagonal)
+                .map(|(res, d)| {
+                    let denominator = theta[r] - d;
+                    let guarded = if denominator.abs() < SMALLEST_DENOMINATOR {
+                        SMALLEST_DENOMINATOR.copysign(denominator)
+                    } else {
+                        denominator
+                    };
+                    -res / guarded
+                })
+                .collect();
+            if let Some(t) = orthonormalized(t, &basis) {
+                images.push(apply(&t));
+                basis.push(t);
+                added += 1;
+            }
+        }
+        if added == 0 {
+            return Err(not_converged(n, worst, iteration));
+        }
+    }
+    Err(not_converged(n, f64::NAN, MAX_ITERATIONS))
+}
+
+fn not_converged(dimension: usize, residual: f64, iterations: usize) -> Error {
+    Error::new(ErrorKind::EigenNotConverged {
+        dimension,
+        why: format!(
+            "Davidson iteration stopped after {iterations} iterations with a residual of {residual:.1e}, above {RESIDUAL_TOLERANCE:.0e}"
+        ),
+    })
+}

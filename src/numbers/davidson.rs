@@ -77,9 +77,9 @@ pub fn lowest(
         let ritz = |r: usize, of: &[Vec<f64>]| combine(of, |k| s[(k, r)], n);
         let mut vectors = vec![];
         let mut residuals = vec![];
-        for r in 0..count {
+        for (r, value) in theta.iter().enumerate().take(count) {
             let (x, ax) = (ritz(r, &basis), ritz(r, &images));
-            residuals.push(ax.iter().zip(&x).map(|(a, x)| a - theta[r] * x).collect::<Vec<f64>>());
+            residuals.push(ax.iter().zip(&x).map(|(a, x)| a - value * x).collect::<Vec<f64>>());
             vectors.push(x);
         }
         let norms: Vec<f64> = residuals.iter().map(|r| dot(r, r).sqrt()).collect();

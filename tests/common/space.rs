@@ -81,34 +81,35 @@ pub fn space(declarations: &str, operands: &[&str], fresh: &[(&str, &str)]) -> S
     }
     let program = parse("space.spinfold", &text).expect("the space parses");
     let id = |name: &str| program.indices.iter().position(|i| i.name == name).map(|k| k as u32);
-    let indices_of = |operand: &str| {
-        let mut out: Vec<u32> = renamed_text(operand, &[])
-            .split(|c: char| !(c.is_ascii_alphanumeric() || c == '_'))
-            .filter_map(id)
-            .collect();
-        out.sort();
-        out.dedup();
-        out
-    };
-    let list: Vec<Operand> =
-        operands.iter().map(|o| Operand { label: o.to_string(), indices: indices_of(o) }).collect();
+    let fresh_ids: Vec<u32> = fresh.iter().filter_map(|(_, to)| id(to)).collect();
+    let mut derivations =
+        program.requests.iter().map(|r| derive(&program, r, &Options::default()).expect("derives"));
     let mut pairs = vec![];
-    let mut requests = program.requests.iter();
-    for (row, _) in list.iter().enumerate() {
-        for (column, operand) in list.iter().enumerate().skip(row) {
-            let request = requests.next().expect("one request per pair");
-            let derivation = derive(&program, request, &Options::default()).expect("the pair derives");
-            let renamed = operand
-                .indices
-                .iter()
-                .map(|&k| {
-                    let name = program.indices[k as usize].name.as_str();
-                    let to = fresh.iter().find(|(from, _)| *from == name).expect("a fresh letter").1;
-                    (k, id(to).expect("a declared fresh letter"))
-                })
-                .collect();
-            pairs.push(Pair { row, column, derivation, renamed });
+    for row in 0..operands.len() {
+        for column in row..operands.len() {
+            let derivation = derivations.next().expect("one request per pair");
+            pairs.push(Pair { row, column, derivation, renamed: vec![] });
         }
+    }
+    // an operand's indices: those of its element with itself that are not fresh letters
+    let list: Vec<Operand> = (0..operands.len())
+        .map(|k| {
+            let own = pairs.iter().find(|p| p.row == k && p.column == k).expect("the diagonal pair");
+            let indices =
+                own.derivation.free_indices.iter().copied().filter(|i| !fresh_ids.contains(i)).collect();
+            Operand { label: operands[k].to_string(), indices }
+        })
+        .collect();
+    for pair in &mut pairs {
+        pair.renamed = list[pair.column]
+            .indices
+            .iter()
+            .map(|&k| {
+                let name = program.indices[k as usize].name.as_str();
+                let to = fresh.iter().find(|(from, _)| *from == name).expect("a fresh letter").1;
+                (k, id(to).expect("a declared fresh letter"))
+            })
+            .collect();
     }
     Space { program, operands: list, pairs }
 }

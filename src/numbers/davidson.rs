@@ -44,10 +44,10 @@ fn orthonormalized(mut t: Vec<f64>, basis: &[Vec<f64>]) -> Option<Vec<f64>> {
 }
 
 /// The `count` lowest eigenvalues (ascending) and unit eigenvectors of the symmetric matrix A of
-/// dimension `diagonal.len()`, given `apply(x) = A x`. Deterministic: every step is sequential
-/// except inside `apply`, which must itself be deterministic.
+/// dimension `diagonal.len()`, given `apply(xs) = [A x for x in xs]`. Deterministic: every
+/// step is sequential except inside `apply`, which must itself be deterministic.
 pub fn lowest(
-    apply: &dyn Fn(&[f64]) -> Vec<f64>,
+    apply: &dyn Fn(&[Vec<f64>]) -> Vec<Vec<f64>>,
     diagonal: &[f64],
     count: usize,
     progress: &dyn Fn(&str),
@@ -69,11 +69,16 @@ pub fn lowest(
             e
         })
         .collect();
-    let mut images: Vec<Vec<f64>> = basis.iter().map(|v| apply(v)).collect();
+    let mut images = apply(&basis);
+    // the projected matrix basis · images, grown as vectors are added
+    let mut small: Vec<Vec<f64>> = vec![];
     for iteration in 1..=MAX_ITERATIONS {
         let m = basis.len();
-        let small = Mat::from_fn(m, m, |a, b| dot(&basis[a], &images[b]));
-        let (theta, s) = symmetric_eigen(small.as_ref())?;
+        for (a, row) in small.iter_mut().enumerate() {
+            row.extend((row.len()..m).map(|b| dot(&basis[a], &images[b])));
+        }
+        small.extend((small.len()..m).map(|a| (0..m).map(|b| dot(&basis[a], &images[b])).collect()));
+        let (theta, s) = symmetric_eigen(Mat::from_fn(m, m, |a, b| small[a][b]).as_ref())?;
         let ritz = |r: usize, of: &[Vec<f64>]| combine(of, |k| s[(k, r)], n);
         let mut vectors = vec![];
         let mut residuals = vec![];
@@ -95,8 +100,9 @@ pub fn lowest(
                 ((0..keep).map(|r| ritz(r, &basis)).collect(), (0..keep).map(|r| ritz(r, &images)).collect());
             basis = b;
             images = i;
+            small.clear();
         }
-        let mut added = 0;
+        let mut new = vec![];
         for r in (0..count).filter(|&r| norms[r] >= RESIDUAL_TOLERANCE) {
             let t = residuals[r]
                 .iter()
@@ -112,14 +118,14 @@ pub fn lowest(
                 })
                 .collect();
             if let Some(t) = orthonormalized(t, &basis) {
-                images.push(apply(&t));
                 basis.push(t);
-                added += 1;
+                new.push(basis.len() - 1);
             }
         }
-        if added == 0 {
+        if new.is_empty() {
             return Err(not_converged(n, worst, iteration));
         }
+        images.extend(apply(&basis[new[0]..]));
     }
     Err(not_converged(n, f64::NAN, MAX_ITERATIONS))
 }

@@ -5,6 +5,7 @@ use crate::error::{Change, Error, ErrorKind, Limit, Result};
 use faer::dyn_stack::{MemBuffer, MemStack};
 use faer::linalg::evd::{self, ComputeEigenvectors};
 use faer::{Mat, MatRef, Par};
+use rayon::prelude::*;
 use std::time::{Duration, Instant};
 
 /// Overlap eigenvalues below this, relative to the unit diagonal of the overlap of the
@@ -268,7 +269,7 @@ pub fn lowest_roots_within(
         (values[..count].to_vec(), ys)
     } else {
         let diagonal = projected_diagonal(pencil, &basis);
-        crate::numbers::davidson::lowest(&|y| apply(pencil, &basis, y), &diagonal, count, progress)?
+        crate::numbers::davidson::lowest(&|ys| apply(pencil, &basis, ys), &diagonal, count, progress)?
     };
     let vectors = ys.iter().map(|y: &Vec<f64>| signed(basis.expand(y))).collect();
     Ok(Solution {
@@ -290,22 +291,58 @@ fn signed(mut v: Vec<f64>) -> Vec<f64> {
     v
 }
 
-/// H' y = X^T H X y through the stored upper triangle of H.
-fn apply(pencil: &Pencil, basis: &Orthonormal, y: &[f64]) -> Vec<f64> {
-    let x = basis.expand(y);
-    let mut z = vec![0.0; x.len()];
-    for (p, row) in pencil.rows.iter().enumerate() {
-        let mut zp = 0.0;
-        for e in row {
-            let q = e.column as usize;
-            zp += e.h * x[q];
-            if q != p {
-                z[q] += e.h * x[p];
-            }
+/// The number of pieces the rows of H are cut into for a product with vectors: fixed, so that
+/// the partial sums, and with them the result, do not depend on the number of threads.
+const PRODUCT_PIECES: usize = 16;
+
+/// H' Y = X^T H X Y for a block of vectors, through the stored upper triangle of H: pieces of
+/// rows of about equal numbers of entries in parallel, each scattering its transposed part into
+/// its own buffer, the buffers added in order.
+fn apply(pencil: &Pencil, basis: &Orthonormal, ys: &[Vec<f64>]) -> Vec<Vec<f64>> {
+    let (n, width) = (pencil.dimension(), ys.len());
+    // X Y with the vectors interleaved, so that one entry of H serves them all at once
+    let mut x = vec![0.0; n * width];
+    for (j, y) in ys.iter().enumerate() {
+        for (p, v) in basis.expand(y).into_iter().enumerate() {
+            x[p * width + j] = v;
         }
-        z[p] += zp;
     }
-    basis.contract(&z)
+    let entries: usize = pencil.rows.iter().map(Vec::len).sum();
+    let mut bounds = vec![0];
+    let mut count = 0;
+    for (p, row) in pencil.rows.iter().enumerate() {
+        count += row.len();
+        if count * PRODUCT_PIECES >= entries * bounds.len() && bounds.len() < PRODUCT_PIECES {
+            bounds.push(p + 1);
+        }
+    }
+    bounds.push(n);
+    bounds.dedup();
+    let pieces: Vec<Vec<f64>> = bounds
+        .par_windows(2)
+        .map(|w| {
+            let mut z = vec![0.0; n * width];
+            for p in w[0]..w[1] {
+                for e in &pencil.rows[p] {
+                    let q = e.column as usize;
+                    for j in 0..width {
+                        z[p * width + j] += e.h * x[q * width + j];
+                    }
+                    if q != p {
+                        for j in 0..width {
+                            z[q * width + j] += e.h * x[p * width + j];
+                        }
+                    }
+                }
+            }
+            z
+        })
+        .collect();
+    let mut z = vec![0.0; n * width];
+    for piece in pieces {
+        z.iter_mut().zip(piece).for_each(|(a, b)| *a += b);
+    }
+    (0..width).map(|j| basis.contract(&(0..n).map(|p| z[p * width + j]).collect::<Vec<f64>>())).collect()
 }
 
 /// The diagonal of H' = X^T H X.

@@ -15,6 +15,9 @@ pub const MAX_ITERATIONS: usize = 400;
 /// The smallest |θ − A_ii| the diagonal preconditioner divides by.
 const SMALLEST_DENOMINATOR: f64 = 1e-8;
 
+/// The matrix times each of a block of vectors.
+pub type Product<'a> = dyn Fn(&[Vec<f64>]) -> Vec<Vec<f64>> + 'a;
+
 fn dot(a: &[f64], b: &[f64]) -> f64 {
     a.iter().zip(b).map(|(x, y)| x * y).sum()
 }
@@ -47,7 +50,7 @@ fn orthonormalized(mut t: Vec<f64>, basis: &[Vec<f64>]) -> Option<Vec<f64>> {
 /// dimension `diagonal.len()`, given `apply(xs) = [A x for x in xs]`. Deterministic: every
 /// step is sequential except inside `apply`, which must itself be deterministic.
 pub fn lowest(
-    apply: &dyn Fn(&[Vec<f64>]) -> Vec<Vec<f64>>,
+    apply: &Product,
     diagonal: &[f64],
     count: usize,
     progress: &dyn Fn(&str),

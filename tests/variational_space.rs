@@ -239,3 +239,13 @@ fn a_space_past_the_member_limit_is_refused_before_any_work() {
     let message = e.message();
     assert!(message.contains("160000") && message.contains(&spinfold::MEMBER_LIMIT.to_string()), "{message}");
 }
+
+/// With one virtual orbital every member of ref[i j -> a b] has a = b and vanishes: the space
+/// is empty, and so are its roots.
+#[test]
+fn a_space_whose_members_all_vanish_has_no_roots() {
+    let s = space(CLOSED_SHELL, &["ref[i j -> a b]"], FRESH);
+    let binding = s.binding(&[("occ", &[0, 1, 2]), ("vir", &[3])]);
+    let roots = solve(&s, &binding, &IntegralTable::random(4, 1), 5);
+    assert_eq!((roots.dimension, roots.dropped, roots.vanishing, roots.roots.len()), (0, 0, 9, 0));
+}

@@ -4,6 +4,8 @@
 use crate::error::{Error, ErrorKind, Result};
 use crate::numbers::eigen::symmetric_eigen;
 use faer::Mat;
+use rand::{RngExt, SeedableRng};
+use rand_chacha::ChaCha8Rng;
 
 /// The iteration stops when every wanted root's residual norm ‖Ax − θx‖ is below this; the
 /// energies are then exact to about its square.
@@ -11,6 +13,10 @@ pub const RESIDUAL_TOLERANCE: f64 = 1e-8;
 
 /// The most iterations before the roots are declared not found.
 pub const MAX_ITERATIONS: usize = 400;
+
+/// The seed and weight of the admixture of every direction to the starting vectors.
+const GUESS_SEED: u64 = 2024;
+const GUESS_ADMIXTURE: f64 = 1e-2;
 
 /// The smallest |θ − A_ii| the diagonal preconditioner divides by.
 const SMALLEST_DENOMINATOR: f64 = 1e-8;
@@ -46,6 +52,25 @@ fn orthonormalized(mut t: Vec<f64>, basis: &[Vec<f64>]) -> Option<Vec<f64>> {
     (norm > 1e-10 * before.max(1e-300)).then(|| t.into_iter().map(|x| x / norm).collect())
 }
 
+/// Olsen's correction for a Ritz pair (θ, x) with residual r: t = M⁻¹r − ε M⁻¹x with
+/// M = diag(A) − θ and ε chosen to make t orthogonal to x, so that t does not merely repeat x
+/// where the diagonal is a good approximation of A.
+fn correction(residual: &[f64], x: &[f64], diagonal: &[f64], theta: f64) -> Vec<f64> {
+    let inverse = |v: &[f64]| -> Vec<f64> {
+        v.iter()
+            .zip(diagonal)
+            .map(|(v, d)| {
+                let m = d - theta;
+                v / if m.abs() < SMALLEST_DENOMINATOR { SMALLEST_DENOMINATOR.copysign(m) } else { m }
+            })
+            .collect()
+    };
+    let (mr, mx) = (inverse(residual), inverse(x));
+    let denominator = dot(x, &mx);
+    let epsilon = if denominator.abs() > f64::MIN_POSITIVE { dot(x, &mr) / denominator } else { 0.0 };
+    mr.iter().zip(&mx).map(|(a, b)| a - epsilon * b).collect()
+}
+
 /// The `count` lowest eigenvalues (ascending) and unit eigenvectors of the symmetric matrix A of
 /// dimension `diagonal.len()`, given `apply(xs) = [A x for x in xs]`. Deterministic: every
 /// step is sequential except inside `apply`, which must itself be deterministic.
@@ -61,17 +86,19 @@ pub fn lowest(
         return Ok((vec![], vec![]));
     }
     let largest = n.min((8 * count).max(40));
-    // start from the unit vectors of the lowest diagonal entries
+    // start from the unit vectors of the lowest diagonal entries, twice as many as wanted, each
+    // with a small seeded admixture of every direction: a root whose symmetry none of those
+    // entries has would otherwise never enter the subspace
     let mut order: Vec<usize> = (0..n).collect();
     order.sort_by(|&a, &b| diagonal[a].total_cmp(&diagonal[b]).then(a.cmp(&b)));
-    let mut basis: Vec<Vec<f64>> = order[..count]
-        .iter()
-        .map(|&p| {
-            let mut e = vec![0.0; n];
-            e[p] = 1.0;
-            e
-        })
-        .collect();
+    let mut rng = ChaCha8Rng::seed_from_u64(GUESS_SEED);
+    let scale = GUESS_ADMIXTURE / (n as f64).sqrt();
+    let mut basis: Vec<Vec<f64>> = vec![];
+    for &p in &order[..(2 * count).min(n)] {
+        let mut guess: Vec<f64> = (0..n).map(|_| scale * rng.random_range(-1.0..1.0)).collect();
+        guess[p] += 1.0;
+        basis.extend(orthonormalized(guess, &basis));
+    }
     let mut images = apply(&basis);
     // the projected matrix basis · images, grown as vectors are added
     let mut small: Vec<Vec<f64>> = vec![];
@@ -105,22 +132,13 @@ pub fn lowest(
             images = i;
             small.clear();
         }
-        let mut new = vec![];
+        let mut new: Vec<usize> = vec![];
         for r in (0..count).filter(|&r| norms[r] >= RESIDUAL_TOLERANCE) {
-            let t = residuals[r]
-                .iter()
-                .zip(diagonal)
-                .map(|(res, d)| {
-                    let denominator = theta[r] - d;
-                    let guarded = if denominator.abs() < SMALLEST_DENOMINATOR {
-                        SMALLEST_DENOMINATOR.copysign(denominator)
-                    } else {
-                        denominator
-                    };
-                    -res / guarded
-                })
-                .collect();
-            if let Some(t) = orthonormalized(t, &basis) {
+            let t = correction(&residuals[r], &vectors[r], diagonal, theta[r]);
+            // where the preconditioned direction adds nothing new, the residual itself does
+            if let Some(t) =
+                orthonormalized(t, &basis).or_else(|| orthonormalized(residuals[r].clone(), &basis))
+            {
                 basis.push(t);
                 new.push(basis.len() - 1);
             }

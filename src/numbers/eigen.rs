@@ -17,7 +17,7 @@ pub const DEPENDENCE_THRESHOLD: f64 = 1e-8;
 
 /// Past this many orthonormalized functions the lowest roots are found by Davidson iteration
 /// instead of a dense eigendecomposition, whose time grows as the cube of the dimension.
-pub const DENSE_LIMIT: usize = 4000;
+pub const DENSE_LIMIT: usize = 2000;
 
 /// H and S of a space: their entries on and above the diagonal that are not both zero, row by
 /// row, columns ascending. Every diagonal overlap is positive.
@@ -485,6 +485,27 @@ mod tests {
         }
         for (d, i) in dense.vectors.iter().zip(&iterative.vectors) {
             assert!(d.iter().zip(i).all(|(x, y)| (x - y).abs() < 1e-7));
+        }
+    }
+
+    /// Two blocks that H does not couple: in the second every diagonal entry is high but the
+    /// couplings make its lowest root the lowest of all. Davidson must find it although no
+    /// starting vector lies in that block.
+    #[test]
+    fn davidson_finds_a_root_in_a_block_without_a_low_diagonal() {
+        let (m, low) = (200, 20);
+        let mut a = Mat::from_fn(m, m, |i, j| if i == j { i as f64 * 0.1 } else { 0.0 });
+        for i in m - low..m {
+            for j in m - low..m {
+                a[(i, j)] = if i == j { 30.0 } else { -2.0 };
+            }
+        }
+        let p = pencil(&a, &(0..m).map(|k| unit(m, k, 1.0)).collect::<Vec<_>>());
+        let dense = lowest_roots_within(&p, 3, usize::MAX, &|_| {}).unwrap();
+        let iterative = lowest_roots_within(&p, 3, 10, &|_| {}).unwrap();
+        assert!((dense.values[0] - (30.0 - 2.0 * (low - 1) as f64)).abs() < 1e-10);
+        for (d, i) in dense.values.iter().zip(&iterative.values) {
+            assert!((d - i).abs() < 1e-10, "{d} vs {i}");
         }
     }
 }

@@ -249,3 +249,13 @@ fn a_space_whose_members_all_vanish_has_no_roots() {
     let roots = solve(&s, &binding, &IntegralTable::random(4, 1), 5);
     assert_eq!((roots.dimension, roots.dropped, roots.vanishing, roots.roots.len()), (0, 0, 9, 0));
 }
+
+/// An index that no operand runs over and no binding fixes has no value: refused, naming it.
+#[test]
+fn an_index_neither_run_over_nor_bound_is_refused() {
+    let (ints, binding, s) = water();
+    let mut operands = s.operands.clone();
+    operands[1].indices.retain(|&k| s.program.indices[k as usize].name != "a");
+    let e = solve_space(&s.program, &operands, &s.elements(), &binding, &ints, 1, &|_| {}).unwrap_err();
+    assert!(e.message().contains("the index `a`") && e.message().contains("--bind a="), "{}", e.message());
+}

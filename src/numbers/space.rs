@@ -120,6 +120,19 @@ struct Evaluator<'p, 't> {
     pairs: Vec<Vec<Option<CompiledPair<'p, 't>>>>,
 }
 
+/// Whether index k of a pair element's derivation has a value at every pair of members: run
+/// over by the row operand, the name a column operand's index is renamed to, or bound (under
+/// its own name or, renamed, under the column operand's).
+fn covers(operands: &[Operand], element: &PairElement, binding: &Binding, k: u32) -> bool {
+    let bound = |k: u32| binding.indices.get(k as usize).is_some_and(Option::is_some);
+    let column = &operands[element.column].indices;
+    let renamed = |from: u32| element.renamed.iter().find(|(f, _)| *f == from).map_or(from, |&(_, to)| to);
+    operands[element.row].indices.contains(&k)
+        || column.iter().any(|&c| renamed(c) == k)
+        || element.renamed.iter().any(|&(from, to)| to == k && !column.contains(&from) && bound(from))
+        || bound(k)
+}
+
 /// A worker's binding and scratch space.
 struct Scratch {
     binding: Binding,
@@ -142,6 +155,17 @@ impl<'p, 't> Evaluator<'p, 't> {
             let d = element.derivation;
             if d.distinct {
                 return Err(Error::new(ErrorKind::DistinctSpace { request: d.text.clone() }));
+            }
+            if let Some(&k) = d.free_indices.iter().find(|&&k| !covers(operands, element, &binding, k)) {
+                // the name as written in the operand, before any renaming
+                let written = element.renamed.iter().find(|(_, to)| *to == k).map_or(k, |&(from, _)| from);
+                let name = &program.indices[written as usize].name;
+                return Err(Error::new(ErrorKind::Binding {
+                    why: format!(
+                        "`{}` needs the index `{name}`, which is neither run over by an operand nor bound: add --bind {name}=...",
+                        d.text
+                    ),
+                }));
             }
             let exprs = CompiledExprs::new([&d.value, &d.overlap], tables);
             pairs[element.row][element.column] = Some(CompiledPair { element, exprs });

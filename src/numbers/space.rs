@@ -2,7 +2,7 @@
 //! bound indices, H and S assembled from the derived pair elements, and their lowest roots.
 
 use crate::engine::derive::Derivation;
-use crate::error::{Error, ErrorKind, Result};
+use crate::error::{Change, Error, ErrorKind, Limit, Result};
 use crate::language::orbital::SpaceId;
 use crate::language::program::Program;
 use crate::numbers::compiled::{CompiledExprs, Tables};
@@ -280,12 +280,30 @@ fn assemble(evaluator: &Evaluator, kept: &[usize], progress: &dyn Fn(&str)) -> R
         for row in chunk {
             rows.push(row?);
         }
+        let entries: usize = rows.iter().map(Vec::len).sum();
+        if entries > ENTRY_LIMIT {
+            return Err(Error::new(ErrorKind::TooLarge {
+                what: format!("the first {} of {n} rows of H and S of the space hold", rows.len()),
+                count: entries.to_string(),
+                limit: Box::new(Limit {
+                    value: ENTRY_LIMIT as u128,
+                    unit: "non-zero entries",
+                    change: Change::Fixed(format!(
+                        "the entries are kept in memory ({} bytes each)",
+                        std::mem::size_of::<Entry>()
+                    )),
+                }),
+            }));
+        }
         let done: usize = total - (n - end) * (n - end + 1) / 2;
         progress(&format!("assembling H and S over {n} functions: {}%", 100 * done / total.max(1)));
         start = end;
     }
     Ok(Pencil { rows })
 }
+
+/// The most non-zero entries of the upper triangles of H and S kept: 2^27, 3 GiB.
+pub const ENTRY_LIMIT: usize = 1 << 27;
 
 /// The number of progress steps of the assembly.
 const CHUNKS: usize = 50;

@@ -260,8 +260,8 @@ element ref[i' -> a'] ref[k' -> c']
         Binding { orbitals: (0..named).collect(), spaces, indices }
     }
 
-    /// Compiled values equal `evaluate` on every example and on random bindings, coincident
-    /// indices included, each binding taking its own pattern's form.
+    /// Compiled values equal `evaluate` on every example, plain and with Fock factors, and on
+    /// random bindings, coincident indices included, each binding taking its own pattern's form.
     #[test]
     fn compiled_values_equal_evaluate() {
         let mut rng = ChaCha8Rng::seed_from_u64(11);
@@ -272,8 +272,11 @@ element ref[i' -> a'] ref[k' -> c']
             let space_of = program.indices.iter().map(|i| i.space).collect();
             let base = random_binding(&program, &mut rng);
             let tables = Tables::new(&base, &ints, space_of);
-            for request in &program.requests {
-                let d = derive(&program, request, &Options::default()).expect("the request derives");
+            let fock = Options { fock: true, ..Options::default() };
+            for (request, options) in
+                program.requests.iter().flat_map(|r| [(r, Options::default()), (r, fock.clone())])
+            {
+                let d = derive(&program, request, &options).expect("the request derives");
                 let compiled = CompiledExprs::new([&d.value, &d.overlap, &d.s_z], &tables);
                 let mut key = vec![];
                 for _ in 0..40 {

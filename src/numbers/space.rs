@@ -37,7 +37,8 @@ pub struct Operand {
 pub struct PairElement<'a> {
     pub row: usize,
     pub column: usize,
-    /// value: <f|H|g> electronic; overlap: <f|g>.
+    /// The derivation of an `element` request: value <f|H|g> electronic; overlap <f|g>. (An
+    /// energy's value is divided by the norm, so it is not a matrix element.)
     pub derivation: &'a Derivation,
     pub renamed: Vec<(u32, u32)>,
 }

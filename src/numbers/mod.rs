@@ -2,7 +2,11 @@
 //! to orbitals, and the evaluation of derived expressions with them, row by row.
 
 pub mod bind;
+pub mod compiled;
+pub mod davidson;
+pub mod eigen;
 pub mod evaluate;
 pub mod fcidump;
 pub mod integrals;
+pub mod space;
 pub mod tabulate;

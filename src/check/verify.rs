@@ -1,6 +1,7 @@
 //! Built-in verification: every derived expression is evaluated on random integrals for
 //! several space sizes and every index assignment, and compared with brute-force algebra.
 
+use crate::check::block_check::{BlockReport, verify_block};
 use crate::check::brute_force;
 use crate::engine::coincidence;
 use crate::engine::derive::{Derivation, Options, derive};
@@ -54,11 +55,16 @@ pub struct Report {
     pub determinant_pairs: Option<usize>,
     /// Why nothing could be checked by brute force, when that is so.
     pub not_checked: Option<String>,
+    /// For a request on pairs of functions: the report of each pair and of the assembled
+    /// forms; the counts above are their totals. The JSON output places each pair's report
+    /// beside its element.
+    #[serde(skip)]
+    pub block: Option<Box<BlockReport>>,
 }
 
 impl Report {
     /// Nothing checked yet.
-    fn empty(derivation: &Derivation, seed: u64) -> Report {
+    pub(super) fn empty(derivation: &Derivation, seed: u64) -> Report {
         Report {
             checks: 0,
             configurations: vec![],
@@ -69,10 +75,14 @@ impl Report {
             sample: None,
             determinant_pairs: None,
             not_checked: None,
+            block: None,
         }
     }
 
     pub fn summary(&self) -> String {
+        if let Some(block) = &self.block {
+            return block.summary(self);
+        }
         if let Some(why) = &self.not_checked {
             return format!("not checked by brute force: {why}");
         }
@@ -218,7 +228,8 @@ pub fn compare(
     let vanishes = norm.abs() < 1e-12 * scale;
     let (expected, second) = match request.kind {
         RequestKind::Overlap => (overlap, None),
-        RequestKind::Element => {
+        // a `roots` request is checked through its pairs, which are elements
+        RequestKind::Element | RequestKind::Roots => {
             (brute_force::matrix_element(&bra, &ket, ints), Some(("overlap", overlap, &derivation.overlap)))
         }
         RequestKind::Energy if vanishes => return Ok(None),
@@ -230,7 +241,9 @@ pub fn compare(
         ),
     };
     let scale = match request.kind {
-        RequestKind::Overlap | RequestKind::Element => (norm * brute_force::dot(&ket, &ket)).sqrt(),
+        RequestKind::Overlap | RequestKind::Element | RequestKind::Roots => {
+            (norm * brute_force::dot(&ket, &ket)).sqrt()
+        }
         RequestKind::Energy | RequestKind::Spin => 1.0,
     };
     let mut out = vec![Comparison {
@@ -307,6 +320,7 @@ fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, s
             bra_text: request.bra_text.clone(),
             ket_text: request.ket_text.clone(),
             span: request.span.clone(),
+            block: None,
         };
         let d = derive(program, &pair, &options)?;
         let r = verify(program, &pair, &d, seed)?;
@@ -427,6 +441,9 @@ fn assignments(
 
 /// Checks one derivation of `request`; returns the report or a verification failure.
 pub fn verify(program: &Program, request: &Request, derivation: &Derivation, seed: u64) -> Result<Report> {
+    if let Some(block) = &derivation.block {
+        return verify_block(program, request, derivation, block, seed);
+    }
     let mut report = Report::empty(derivation, seed);
     if request.bra.is_unexpanded() {
         report.not_checked = Some(format!(

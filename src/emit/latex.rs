@@ -701,7 +701,9 @@ fn left_sides(d: &Derivation) -> Vec<String> {
         RequestKind::Energy => vec![format!(
             r"\frac{{\langle {b} \vert \hat{{H}} \vert {b} \rangle}}{{\langle {b} \vert {b} \rangle}}"
         )],
-        RequestKind::Element => vec![format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle")],
+        RequestKind::Element | RequestKind::Roots => {
+            vec![format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle")]
+        }
         RequestKind::Overlap => vec![format!(r"\langle {b} \vert {k} \rangle")],
         RequestKind::Spin => vec![
             format!(r"\langle \hat{{S}}^2 \rangle_{{{b}}}"),

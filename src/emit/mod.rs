@@ -8,10 +8,80 @@ pub mod rust;
 pub mod states;
 pub mod text;
 
+use crate::engine::block_derivation::Monomial;
+use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
 use crate::language::orbital::{Orb, SpaceId};
 use crate::language::program::Program;
 use std::collections::BTreeSet;
+
+/// Every expression a derivation shows: its value (and <S_z> for spin), or for a request on
+/// pairs of functions every pair's value and overlap.
+pub fn expressions(d: &crate::engine::derive::Derivation) -> Vec<&Expr> {
+    match &d.block {
+        Some(block) => block.pairs.iter().flat_map(|p| [&p.value, &p.overlap]).collect(),
+        None => vec![&d.value],
+    }
+}
+
+/// A derivation's notes, with those of its pairs, each led by the pair it is about.
+pub fn notes(d: &crate::engine::derive::Derivation) -> Vec<String> {
+    let mut out = d.notes.clone();
+    for p in d.block.iter().flat_map(|b| &b.pairs) {
+        out.extend(
+            p.notes.iter().map(|n| format!("{}: {n}", p.text.split_once(": ").map_or("", |(_, b)| b))),
+        );
+    }
+    out
+}
+
+/// One summand of a quadratic (or bilinear) form in the free coefficients as it is written:
+/// `number × coefficients × (expression)`; an expression that is a plain number is folded into
+/// `number` and leaves `expr` empty.
+pub struct Summand<'a> {
+    pub number: Exact,
+    /// The names of the coefficients multiplied, a square twice; empty for the fixed part.
+    pub coefficients: Vec<String>,
+    pub expr: Option<&'a Expr>,
+}
+
+/// The summands of the monomials' values (`overlap` false) or overlaps (true), zeros left out.
+pub fn summands<'a>(program: &Program, monomials: &'a [Monomial], overlap: bool) -> Vec<Summand<'a>> {
+    monomials
+        .iter()
+        .filter_map(|m| {
+            let expr = if overlap { &m.overlap } else { &m.value };
+            let weight = Exact::integer(m.weight.into());
+            let coefficients =
+                m.coefficients.iter().map(|&c| program.coefficients[c as usize].name.clone()).collect();
+            let constant = match expr.terms.as_slice() {
+                [] => return None,
+                [t] if t.factor == Factor::One && t.deltas.is_empty() && t.sums.is_empty() => Some(&t.coeff),
+                _ => None,
+            };
+            Some(match constant {
+                Some(c) => Summand { number: &weight * c, coefficients, expr: None },
+                None => Summand { number: weight, coefficients, expr: Some(expr) },
+            })
+        })
+        .collect()
+}
+
+/// A product of coefficient names with powers: `cg cu`, `cg²` (`cg^2` in ASCII).
+pub fn monomial_text(coefficients: &[String], square: &dyn Fn(&str) -> String, joint: &str) -> String {
+    let mut out: Vec<String> = vec![];
+    let mut k = 0;
+    while k < coefficients.len() {
+        if coefficients.get(k + 1) == Some(&coefficients[k]) {
+            out.push(square(&coefficients[k]));
+            k += 2;
+        } else {
+            out.push(coefficients[k].clone());
+            k += 1;
+        }
+    }
+    out.join(joint)
+}
 
 /// The letters summation indices take when a space's own letters do not serve: k, l, m, n,
 /// then k1, l1, m1, n1, k2, …
@@ -151,7 +221,11 @@ pub struct Definitions {
 
 impl Definitions {
     pub fn used_in(expr: &Expr) -> Definitions {
-        let uses = |kind| expr.terms.iter().any(|t| t.kind() == kind);
+        Definitions::used_in_any(&[expr])
+    }
+
+    pub fn used_in_any(expressions: &[&Expr]) -> Definitions {
+        let uses = |kind| expressions.iter().flat_map(|e| &e.terms).any(|t| t.kind() == kind);
         Definitions { fock: uses(IntegralKind::Fock), reference: uses(IntegralKind::RefEnergy) }
     }
 

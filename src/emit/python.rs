@@ -437,7 +437,7 @@ impl<'a> BodyWriter<'a> {
 fn function_name(ids: &mut Identifiers, d: &Derivation, number: usize) -> String {
     let simple = |label: &str| label.chars().all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '.');
     let operands = match d.kind {
-        RequestKind::Energy | RequestKind::Spin => vec![d.bra.as_str()],
+        RequestKind::Energy | RequestKind::Spin | RequestKind::Roots => vec![d.bra.as_str()],
         RequestKind::Element | RequestKind::Overlap => vec![d.bra.as_str(), d.ket.as_str()],
     };
     if operands.iter().all(|o| simple(o)) {
@@ -484,7 +484,7 @@ fn function(
     let request = docstring_safe(&d.text);
     let summary = match d.kind {
         RequestKind::Energy => format!("The energy {meaning}, electronic part, for `{request}`."),
-        RequestKind::Element => {
+        RequestKind::Element | RequestKind::Roots => {
             format!("The Hamiltonian matrix element {meaning}, electronic part, for `{request}`.")
         }
         RequestKind::Overlap => format!("The overlap {meaning}, for `{request}`."),

@@ -334,7 +334,9 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
 fn meaning(kind: RequestKind) -> &'static str {
     match kind {
         RequestKind::Energy => "the energy <X|H|X>/<X|X>, electronic part (add the constant energy)",
-        RequestKind::Element => "the matrix element <X|H|Y>, electronic part (add the constant times <X|Y>)",
+        RequestKind::Element | RequestKind::Roots => {
+            "the matrix element <X|H|Y>, electronic part (add the constant times <X|Y>)"
+        }
         RequestKind::Overlap => "the overlap <X|Y>",
         RequestKind::Spin => "the expectation value <S^2>",
     }

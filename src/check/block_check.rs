@@ -7,8 +7,7 @@ use crate::engine::derive::Derivation;
 use crate::engine::exact::{Exact, ExactDisplay};
 use crate::engine::expression::Expr;
 use crate::error::Result;
-use crate::language::block::Function;
-use crate::language::program::{Program, Request, RequestKind, State};
+use crate::language::program::{Program, Request, RequestKind};
 use itertools::Itertools;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -69,16 +68,6 @@ fn random_values(coefficients: impl Iterator<Item = u32>, rng: &mut ChaCha8Rng) 
         .collect()
 }
 
-/// The fixed state that functions with coefficients set to `values` sum to (a fixed part
-/// keeps its weight 1).
-fn state_at(functions: &[Function], values: &BTreeMap<u32, Exact>) -> State {
-    let mut scaled = functions
-        .iter()
-        .map(|f| f.state.clone().scaled(&f.coefficient.map_or(Exact::one(), |c| values[&c].clone())));
-    let first = scaled.next().expect("a block has functions");
-    scaled.fold(first, |acc, s| acc.joined(&s))
-}
-
 /// Verifies every pair; for free coefficients also the value and overlap assembled from the
 /// pairs at random coefficients, each an ordinary element (or overlap) of the states those
 /// coefficients make, checked against brute force on their vectors.
@@ -100,8 +89,7 @@ pub fn verify_block(
     let kind = if request.kind == RequestKind::Overlap { RequestKind::Overlap } else { RequestKind::Element };
     if request.kind != RequestKind::Roots {
         let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0xc0ef);
-        let used = block.block.rows.iter().chain(&block.block.columns).filter_map(|f| f.coefficient).unique();
-        let used: Vec<u32> = used.sorted().collect();
+        let used = block.block.coefficients();
         for k in 0..COEFFICIENT_SETS {
             let values = random_values(used.iter().copied(), &mut rng);
             let named = values
@@ -114,11 +102,12 @@ pub fn verify_block(
                     )
                 })
                 .join(", ");
+            let (bra, ket) = block.block.states_at(&values);
             let at = Request {
                 kind,
                 text: format!("{} at {named}", request.text),
-                bra: state_at(&block.block.rows, &values),
-                ket: state_at(&block.block.columns, &values),
+                bra,
+                ket,
                 block: None,
                 ..request.clone()
             };

@@ -231,11 +231,11 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)]) -
                 terms: block.is_none().then(|| terms(&d.value, &namer)),
                 overlap: block.is_none().then(|| terms(&d.overlap, &namer)),
                 coefficients: free.map(|b| {
-                    let mut used: Vec<u32> =
-                        b.block.rows.iter().chain(&b.block.columns).filter_map(|f| f.coefficient).collect();
-                    used.sort();
-                    used.dedup();
-                    used.iter().map(|&c| program.coefficients[c as usize].name.clone()).collect()
+                    b.block
+                        .coefficients()
+                        .iter()
+                        .map(|&c| program.coefficients[c as usize].name.clone())
+                        .collect()
                 }),
                 monomials: free.map(|b| monomials(program, b, &namer)),
                 operands: block.filter(|_| d.kind == RequestKind::Roots).map(|b| {
@@ -258,7 +258,7 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)]) -
                 definitions: super::text::definitions(
                     d,
                     &namer,
-                    Definitions::used_in_any(&super::expressions(d)),
+                    Definitions::used_in(&super::expressions(d)),
                     false,
                 )
                 .into_iter()

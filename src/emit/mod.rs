@@ -220,11 +220,7 @@ pub struct Definitions {
 }
 
 impl Definitions {
-    pub fn used_in(expr: &Expr) -> Definitions {
-        Definitions::used_in_any(&[expr])
-    }
-
-    pub fn used_in_any(expressions: &[&Expr]) -> Definitions {
+    pub fn used_in(expressions: &[&Expr]) -> Definitions {
         let uses = |kind| expressions.iter().flat_map(|e| &e.terms).any(|t| t.kind() == kind);
         Definitions { fock: uses(IntegralKind::Fock), reference: uses(IntegralKind::RefEnergy) }
     }
@@ -317,6 +313,63 @@ pub fn test_vectors(
         }
     }
     Ok(out)
+}
+
+/// The overlap <f|g> of a pair as a request and derivation of its own (an `overlap` pair
+/// already is one), so that it is emitted and tested like any overlap.
+pub fn overlap_of(
+    request: &crate::language::program::Request,
+    d: &crate::engine::derive::Derivation,
+) -> (crate::language::program::Request, crate::engine::derive::Derivation) {
+    use crate::language::program::RequestKind;
+    if d.kind == RequestKind::Overlap {
+        return (request.clone(), d.clone());
+    }
+    let text = |t: &str| t.replacen("|H|", "|", 1);
+    (
+        crate::language::program::Request {
+            kind: RequestKind::Overlap,
+            text: text(&request.text),
+            ..request.clone()
+        },
+        crate::engine::derive::Derivation {
+            kind: RequestKind::Overlap,
+            text: text(&d.text),
+            value: d.overlap.clone(),
+            ..d.clone()
+        },
+    )
+}
+
+/// The values generated code checks a function of free coefficients at: 3/4, -1/2, 5/8, -3/8,
+/// 7/8, -1/4, then again.
+pub fn test_coefficients(used: &[u32]) -> std::collections::BTreeMap<u32, Exact> {
+    const NUMERATORS: [i64; 6] = [6, -4, 5, -3, 7, -2];
+    used.iter().enumerate().map(|(k, &c)| (c, Exact::fraction(NUMERATORS[k % 6], 8))).collect()
+}
+
+/// For a request with free coefficients: the coefficient values its assembled function is
+/// tested at, and the fixed request they make with a derivation to take test vectors from
+/// (brute force only: None when the states are too large to check whole).
+#[allow(clippy::type_complexity)]
+pub fn assembled_test(
+    request: &crate::language::program::Request,
+    d: &crate::engine::derive::Derivation,
+    block: &crate::engine::block_derivation::BlockDerivation,
+) -> Option<(
+    std::collections::BTreeMap<u32, Exact>,
+    crate::language::program::Request,
+    crate::engine::derive::Derivation,
+)> {
+    let values = test_coefficients(&block.block.coefficients());
+    let (bra, ket) = block.block.states_at(&values);
+    let at = crate::language::program::Request { bra, ket, block: None, ..request.clone() };
+    if !crate::check::verify::fits_whole_check(&at) {
+        return None;
+    }
+    let (value, overlap) = block.at(&values);
+    let derivation = crate::engine::derive::Derivation { value, overlap, block: None, ..d.clone() };
+    Some((values, at, derivation))
 }
 
 /// Identifiers for generated code: input names made valid, keywords and clashes avoided.

@@ -238,7 +238,7 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], a
                 out.push_str(&format!("  {line}\n"));
             }
         }
-        let legend = definitions(d, &namer, Definitions::used_in_any(&expressions), ascii);
+        let legend = definitions(d, &namer, Definitions::used_in(&expressions), ascii);
         if !legend.is_empty() {
             let legend: Vec<String> = legend.into_iter().map(|(_, text)| text).collect();
             out.push_str(&format!("  with {}\n", legend.join(" and ")));

@@ -1,10 +1,11 @@
 //! A request made of pairs of functions: the energy, element or overlap of states with free
 //! coefficients (pairs of their parts), and the matrix elements of a `roots` space (pairs of its operands).
 
+use crate::engine::exact::Exact;
 use crate::error::Span;
 use crate::language::orbital::Orb;
 use crate::language::program::{Index, Linear, Program, Request, RequestKind, State, Symbols};
-use std::collections::BTreeSet;
+use std::collections::{BTreeMap, BTreeSet};
 
 /// One function of a block: a part of a state with free coefficients, or an operand of `roots`.
 #[derive(Clone, Debug)]
@@ -53,6 +54,27 @@ pub struct Block {
 }
 
 impl Block {
+    /// The free coefficients its functions carry, ascending.
+    pub fn coefficients(&self) -> Vec<u32> {
+        let mut used: Vec<u32> =
+            self.rows.iter().chain(&self.columns).filter_map(|f| f.coefficient).collect();
+        used.sort();
+        used.dedup();
+        used
+    }
+
+    /// The fixed bra and ket that the functions sum to with the free coefficients set to
+    /// `values` (a fixed part keeps its weight 1).
+    pub fn states_at(&self, values: &BTreeMap<u32, Exact>) -> (State, State) {
+        let at = |functions: &[Function]| {
+            let mut scaled = functions
+                .iter()
+                .map(|f| f.state.clone().scaled(&f.coefficient.map_or(Exact::one(), |c| values[&c].clone())));
+            let first = scaled.next().expect("a block has functions");
+            scaled.fold(first, |acc, s| acc.joined(&s))
+        };
+        (at(&self.rows), at(&self.columns))
+    }
     /// The block of `energy`, `element` or `overlap` on states with free coefficients: every
     /// pair of a bra part and a ket part (for an energy, of two parts of the state, once).
     pub fn free(
@@ -78,18 +100,10 @@ impl Block {
         let pair_kind =
             if kind == RequestKind::Overlap { RequestKind::Overlap } else { RequestKind::Element };
         let mut pairs = vec![];
-        for row in 0..rows.len() {
+        for (row, f) in rows.iter().enumerate() {
             let first = if symmetric { row } else { 0 };
-            for column in first..columns.len() {
-                let request = pair_request(
-                    pair_kind,
-                    text,
-                    span,
-                    &rows[row],
-                    &columns[column],
-                    columns[column].state.clone(),
-                    "",
-                );
+            for (column, g) in columns.iter().enumerate().skip(first) {
+                let request = pair_request(pair_kind, text, span, f, g, g.state.clone(), "");
                 pairs.push(Pair { row, column, renamed: vec![], request });
             }
         }

@@ -228,6 +228,16 @@ pub enum ErrorKind {
         value: String,
         row: String,
     },
+    /// An eigensolver that did not converge.
+    EigenNotConverged {
+        dimension: usize,
+        why: String,
+    },
+    /// A space whose pair elements were derived with --distinct: its members take every
+    /// assignment, equal indices included.
+    DistinctSpace {
+        request: String,
+    },
     Usage {
         why: String,
     },
@@ -387,6 +397,12 @@ impl Error {
             NonFinite { request, value, row } => format!(
                 "`{request}` evaluates to {value}{row}: the integrals are too large for double precision"
             ),
+            EigenNotConverged { dimension, why } => {
+                format!("the roots of a space of dimension {dimension} were not found: {why}")
+            }
+            DistinctSpace { request } => format!(
+                "`{request}` was derived with --distinct, but the members of a space take every assignment of their indices, equal ones included"
+            ),
             Usage { why } => why.clone(),
             VerificationFailed { request, report } => {
                 format!("verification failed for `{request}`: {report}")
@@ -442,6 +458,7 @@ impl Error {
             RootTooLarge { .. } => "no option changes this limit: the radicand of an exact coefficient is a 64-bit integer, and the product of two such roots must still fit; take square factors out of the root (sqrt(40000000000) is 200000)".into(),
             NotUtf8 { .. } => "save the input as UTF-8 (names are ASCII; comments may hold any UTF-8 text)".into(),
             StateVanishes { .. } => "bind the indices to different orbitals, or leave one unbound: a table leaves out the rows where the state does not exist".into(),
+            DistinctSpace { .. } => "drop --distinct to evaluate the roots of a space".into(),
             DistinctCoincide { .. } => "drop --distinct: without it the expression holds for every assignment, equal indices included".into(),
             NonFinite { .. } => "check the values of the integral file".into(),
             IntegralFile { .. } => "the integral file must be in the integral-dump text format described in README.md".into(),

@@ -48,6 +48,10 @@ pub use numbers::bind::Bindings;
 pub use numbers::evaluate::{Binding, evaluate};
 pub use numbers::fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump};
 pub use numbers::integrals::{IntegralTable, Integrals, TABLE_BUDGET_BYTES};
+pub use numbers::space::{
+    Component, DEPENDENCE_THRESHOLD, MEMBER_LIMIT, Operand, PairElement, Root, SpaceRoots, Timing,
+    solve_space,
+};
 pub use numbers::tabulate::{Entry, Evaluated, Omitted};
 pub use output::{remove_temporaries_on_signal, write_files, write_output};
 pub use pipeline::{

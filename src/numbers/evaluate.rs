@@ -42,7 +42,7 @@ fn factor_value(factor: &Factor, binding: &Binding, summed: &[usize], ints: &dyn
     }
 }
 
-fn term_value(term: &Term, binding: &Binding, ints: &dyn Integrals) -> f64 {
+pub(crate) fn term_value(term: &Term, binding: &Binding, ints: &dyn Integrals) -> f64 {
     let none: [usize; 0] = [];
     if term.deltas.iter().any(|&(a, b)| binding.orbital(a, &none) != binding.orbital(b, &none)) {
         return 0.0;
@@ -89,7 +89,7 @@ pub fn evaluate(expr: &Expr, binding: &Binding, ints: &dyn Integrals) -> f64 {
 /// The expression with every generic index replaced by the smallest index bound to the same
 /// orbital, terms whose deltas then join different orbitals dropped, and like terms collected
 /// exactly; None when the binding puts no two of its generic indices on one orbital.
-fn specialized(expr: &Expr, binding: &Binding) -> Option<Expr> {
+pub(crate) fn specialized(expr: &Expr, binding: &Binding) -> Option<Expr> {
     let indices: Vec<u32> = expr
         .free_orbs()
         .into_iter()

@@ -6,7 +6,7 @@ use rand_chacha::ChaCha8Rng;
 use rustc_hash::FxHashMap;
 
 /// Integral access with 0-based orbital numbers.
-pub trait Integrals {
+pub trait Integrals: Sync {
     fn orbital_count(&self) -> usize;
     fn h(&self, p: usize, q: usize) -> f64;
     /// (pq|rs) in chemists' notation.

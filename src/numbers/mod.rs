@@ -2,7 +2,10 @@
 //! to orbitals, and the evaluation of derived expressions with them, row by row.
 
 pub mod bind;
+pub mod compiled;
+pub mod eigen;
 pub mod evaluate;
 pub mod fcidump;
 pub mod integrals;
+pub mod space;
 pub mod tabulate;

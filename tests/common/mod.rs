@@ -3,6 +3,8 @@
 
 #![allow(dead_code)]
 
+pub mod space;
+
 use spinfold::{Format, Options, Program, derive_checked, render};
 use std::path::Path;
 

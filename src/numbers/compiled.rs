@@ -310,13 +310,18 @@ element ref[i' -> a'] ref[k' -> c']
         let mut key = vec![];
         let mut direct = 0;
         for _ in 0..30 {
-            let indices = program.indices.iter().map(|i| Some(spaces[i.space as usize][rng.random_range(0..3)])).collect();
+            let indices = program
+                .indices
+                .iter()
+                .map(|i| Some(spaces[i.space as usize][rng.random_range(0..3)]))
+                .collect();
             let binding = Binding { indices, ..base.clone() };
             let [value] = compiled.values(&binding, &mut key);
             let expected = evaluate(&d.value, &binding, &ints);
             assert!((value - expected).abs() <= 1e-12 * expected.abs().max(1.0));
             let forms = compiled.forms.read().expect("unlocked");
-            direct = forms.values().flat_map(|f| &f.terms[0]).filter(|c| matches!(c, Compiled::Direct(_))).count();
+            direct =
+                forms.values().flat_map(|f| &f.terms[0]).filter(|c| matches!(c, Compiled::Direct(_))).count();
         }
         assert!(direct > 0, "some four-index term was too large for a table");
     }

@@ -170,6 +170,9 @@ pub fn tabulate(
 /// The value of a row and, for free coefficients, their values there.
 pub type RowValue = (f64, Vec<(String, f64)>);
 
+/// Why a row has no value, from the blocks of equal indices and the row's binding.
+pub type Excluded<'d> = dyn Fn(&[Vec<u32>], &Binding) -> Option<Exclusion<'d>> + 'd;
+
 /// A request's values over every assignment of its unbound indices: `excluded` says why a
 /// row has none (given the blocks of equal indices among `d.free_indices` and the row's
 /// binding), `value` gives it.
@@ -178,7 +181,7 @@ pub fn table<'d>(
     request: &Request,
     d: &'d Derivation,
     bindings: &Bindings,
-    excluded: &dyn Fn(&[Vec<u32>], &Binding) -> Option<Exclusion<'d>>,
+    excluded: &Excluded<'d>,
     value: &dyn Fn(&Binding) -> Result<RowValue>,
 ) -> Result<Evaluated> {
     let (binding, unbound) = bindings.for_request(program, request)?;

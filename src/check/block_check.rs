@@ -1,7 +1,7 @@
 //! The check of a request on pairs of functions: every pair verified as the element it is, and
 //! for states with free coefficients the assembled forms at random coefficients against brute force.
 
-use crate::check::verify::{Report, TOLERANCE, fits_whole_check, verify};
+use crate::check::verify::{Report, TOLERANCE, block_configurations, fits_whole_check, verify, verify_sized};
 use crate::engine::block_derivation::BlockDerivation;
 use crate::engine::derive::Derivation;
 use crate::engine::exact::{Exact, ExactDisplay};
@@ -38,20 +38,26 @@ impl BlockReport {
             };
         let pairs = self.pairs.len();
         let mut out = format!(
-            "verified against brute-force determinant algebra: each of the {pairs} pair element{} as an element, {} check(s)",
+            "verified against brute-force determinant algebra: {pairs} pair element{}, {} as an element ({} check(s))",
             if pairs == 1 { "" } else { "s" },
+            if pairs == 1 { "checked" } else { "each checked" },
             checks(&self.pairs)
         );
         if !self.assembled.is_empty() {
             out.push_str(&format!(
-                ", and {} assembled at {} random sets of the free coefficients, {} check(s)",
+                ", and {} assembled at {} random sets of the free coefficients ({} check(s))",
                 self.assembled_what,
                 self.assembled.len(),
                 checks(&self.assembled)
             ));
         }
+        let sizes = if total.configurations.iter().all(|c| c.is_empty()) {
+            String::new()
+        } else {
+            format!(" with spaces sized {}", total.configurations.iter().map(|c| format!("({c})")).join(", "))
+        };
         out.push_str(&format!(
-            ", on random integrals (seed {}){sampled}, all within {:.0e} relative",
+            ", on random integrals (seed {}){sizes}{sampled}, all within {:.0e} relative",
             total.seed, TOLERANCE
         ));
         out
@@ -78,12 +84,21 @@ pub fn verify_block(
     block: &BlockDerivation,
     seed: u64,
 ) -> Result<Report> {
+    // every pair taken whole on the same configurations; a pair too large is sampled its own way
+    let configurations = block_configurations(program, request, &block.pairs);
+    let check = |request: &Request, d: &Derivation, seed: u64| {
+        if fits_whole_check(request) {
+            verify_sized(program, request, d, seed, configurations.clone())
+        } else {
+            verify(program, request, d, seed)
+        }
+    };
     let pairs = block
         .block
         .pairs
         .iter()
         .zip(&block.pairs)
-        .map(|(pair, d)| verify(program, &pair.request, d, seed))
+        .map(|(pair, d)| check(&pair.request, d, seed))
         .collect::<Result<Vec<Report>>>()?;
     let mut assembled = vec![];
     let kind = if request.kind == RequestKind::Overlap { RequestKind::Overlap } else { RequestKind::Element };
@@ -127,7 +142,7 @@ pub fn verify_block(
                 block: None,
                 ..derivation.clone()
             };
-            assembled.push(verify(program, &at, &d, seed.wrapping_add(k as u64))?);
+            assembled.push(check(&at, &d, seed.wrapping_add(k as u64))?);
         }
     }
     let all = || pairs.iter().chain(&assembled);
@@ -136,6 +151,8 @@ pub fn verify_block(
     report.max_deviation = all().map(|r| r.max_deviation).fold(0.0, f64::max);
     report.sampled = all().any(|r| r.sampled);
     report.determinant_pairs = all().filter_map(|r| r.determinant_pairs).reduce(|a, b| a + b);
+    report.configurations =
+        all().map(|r| r.configurations.clone()).max_by_key(|c| c.len()).unwrap_or_default();
     let assembled_what = match request.kind {
         RequestKind::Energy => format!("<{0}|H|{0}> and <{0}|{0}>", request.bra_text),
         RequestKind::Overlap => format!("<{}|{}>", request.bra_text, request.ket_text),

@@ -17,7 +17,7 @@ use rand::seq::IndexedRandom;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
-use std::collections::{BTreeMap, HashMap, HashSet};
+use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
 
 /// Relative agreement demanded between the derived expression and brute force.
 pub const TOLERANCE: f64 = 1e-10;
@@ -138,6 +138,12 @@ fn size_configurations(program: &Program, request: &Request, derivation: &Deriva
     let (_, used, _) = symbols_of(program, request);
     let needed =
         |s: u32| derivation.free_indices.iter().filter(|&&k| program.indices[k as usize].space == s).count();
+    sizes(program, &used, &needed)
+}
+
+/// Three configurations of sizes for the spaces `used`, a space with `needed(s)` generic
+/// indices getting room for all of them to differ (see `size_configurations`).
+fn sizes(program: &Program, used: &BTreeSet<u32>, needed: &dyn Fn(u32) -> usize) -> Vec<Vec<usize>> {
     (0..3)
         .map(|c| {
             (0..program.spaces.len() as u32)
@@ -456,7 +462,38 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
     if !fits_whole_check(request) && request.kind != RequestKind::Spin {
         return verify_pairs(program, request, derivation, seed);
     }
-    let configurations = size_configurations(program, request, derivation);
+    verify_sized(program, request, derivation, seed, size_configurations(program, request, derivation))
+}
+
+/// Sizes for the checks of the pairs of a block: the spaces the whole request uses, each with
+/// room for as many different indices as any pair has there, so that every pair is checked on
+/// the same three configurations.
+pub(super) fn block_configurations(
+    program: &Program,
+    request: &Request,
+    pairs: &[Derivation],
+) -> Vec<Vec<usize>> {
+    let needed = |s: u32| {
+        pairs
+            .iter()
+            .map(|d| d.free_indices.iter().filter(|&&k| program.indices[k as usize].space == s).count())
+            .max()
+            .unwrap_or(0)
+    };
+    let (_, used, _) = symbols_of(program, request);
+    sizes(program, &used, &needed)
+}
+
+/// Checks a request that brute force takes whole on the configurations given (see
+/// `size_configurations`).
+pub(super) fn verify_sized(
+    program: &Program,
+    request: &Request,
+    derivation: &Derivation,
+    seed: u64,
+    configurations: Vec<Vec<usize>>,
+) -> Result<Report> {
+    let mut report = Report::empty(derivation, seed);
     let pairs = distinct_determinants(&request.bra).len() * distinct_determinants(&request.ket).len();
     let cap = (WORK_BUDGET / (configurations.len() * pairs).max(1)).clamp(1, MAX_ASSIGNMENTS);
     let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0x5eed);

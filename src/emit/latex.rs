@@ -836,6 +836,29 @@ fn form_rows(lhs: &str, summands: &[Summand], namer: &Namer) -> Vec<String> {
         let names: Vec<String> = s.coefficients.iter().map(|n| name(n)).collect();
         let monomial = monomial_text(&names, &|n| format!("{n}^{{2}}"), r"\,");
         let negative = s.expr.is_none() && s.number.is_negative();
+        // the summand without its sign: inline text, or the lines of a long expression
+        let (text, lines) = match s.expr {
+            None => (times(&s.number, if monomial.is_empty() { "1" } else { &monomial }), vec![]),
+            Some(expr) => {
+                let prefix =
+                    if monomial.is_empty() { String::new() } else { times(&s.number, &monomial) + " " };
+                let lines =
+                    layout(expr, namer, Room { first: room - 2.0, rest: room - 2.0, inside: room - 3.0 });
+                match lines.as_slice() {
+                    [line] => {
+                        let tall = line.text.contains(r"\frac");
+                        let (open, close) =
+                            if tall { (r"\Bigl(", r"\Bigr)") } else { (r"\bigl(", r"\bigr)") };
+                        (format!("{prefix}{open} {} {close}", line.text), vec![])
+                    }
+                    _ => (format!(r"{prefix}\Bigl[ "), lines),
+                }
+            }
+        };
+        if !fresh && (!lines.is_empty() || used + width(&text) + SIGN > room) {
+            rows.push(std::mem::replace(&mut current, r"&\quad ".to_string()));
+            (used, fresh) = (0.0, true);
+        }
         let sign = match (first, fresh, negative) {
             (true, _, false) => "",
             (true, _, true) => "-",
@@ -845,37 +868,18 @@ fn form_rows(lhs: &str, summands: &[Summand], namer: &Namer) -> Vec<String> {
             (false, false, true) => " - ",
         };
         first = false;
-        let Some(expr) = s.expr else {
-            let text =
-                format!("{sign}{}", times(&s.number, if monomial.is_empty() { "1" } else { &monomial }));
-            used += width(&text);
-            current.push_str(&text);
+        current.push_str(sign);
+        current.push_str(&text);
+        let Some((last, middle)) = lines.split_last() else {
+            used += width(&text) + SIGN;
             fresh = false;
             continue;
         };
-        let prefix = if monomial.is_empty() { String::new() } else { times(&s.number, &monomial) + " " };
-        let lines = layout(expr, namer, Room { first: room - 2.0, rest: room - 2.0, inside: room - 3.0 });
-        if lines.len() == 1 && used + width(&prefix) + width(&lines[0].text) + 2.0 <= room {
-            let tall = lines[0].text.contains(r"\frac");
-            let (open, close) = if tall { (r"\Bigl(", r"\Bigr)") } else { (r"\bigl(", r"\bigr)") };
-            let text = format!("{sign}{prefix}{open} {} {close}", lines[0].text);
-            used += width(&text);
-            current.push_str(&text);
-            fresh = false;
-            continue;
+        for line in middle {
+            current.push_str(&line.text);
+            rows.push(std::mem::replace(&mut current, r"&\qquad ".to_string()));
         }
-        if !fresh {
-            rows.push(std::mem::replace(&mut current, r"&\quad ".to_string()));
-            let sign = if sign.is_empty() { "" } else { "{} + " };
-            current.push_str(sign);
-        } else {
-            current.push_str(sign);
-        }
-        current.push_str(&format!(r"{prefix}\Bigl[ {}", lines[0].text));
-        for line in &lines[1..] {
-            rows.push(std::mem::replace(&mut current, format!(r"&\qquad {}", line.text)));
-        }
-        current.push_str(r" \Bigr]");
+        current.push_str(&format!(r"{} \Bigr]", last.text));
         rows.push(std::mem::replace(&mut current, r"&\quad ".to_string()));
         (used, fresh) = (0.0, true);
     }

@@ -289,8 +289,13 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
         program.source.name.replace(['\n', '\r'], " ")
     );
     out.push_str(PREAMBLE);
-    let uses =
-        |kind: IntegralKind| derivations.iter().any(|(d, _)| d.value.terms.iter().any(|t| t.kind() == kind));
+    let uses = |kind: IntegralKind| {
+        derivations
+            .iter()
+            .flat_map(|(d, _)| super::expressions(d))
+            .flat_map(|e| &e.terms)
+            .any(|t| t.kind() == kind)
+    };
     if uses(IntegralKind::Fock) {
         out.push_str(FOCK);
     }

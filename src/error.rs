@@ -70,8 +70,7 @@ impl PartialEq for Span {
 }
 
 /// The statements of the input language, as the help after a syntax error lists them.
-pub const STATEMENTS: &str =
-    "`orbitals`, `space`, `det`, `state`, `csf`, `csfs`, `energy`, `element`, `overlap`, `spin`";
+pub const STATEMENTS: &str = "`orbitals`, `space`, `coefficients`, `det`, `state`, `csf`, `csfs`, `energy`, `element`, `overlap`, `spin`, `roots`";
 
 /// What went wrong. Each kind carries the names it is about; `Error` adds the place.
 #[derive(Clone, Debug, PartialEq)]
@@ -120,6 +119,42 @@ pub enum ErrorKind {
         why: String,
     },
     NumberAlone,
+    /// A free coefficient that multiplies no state (alone in a sum, or excited).
+    FreeAlone {
+        name: String,
+    },
+    /// Two free coefficients multiplied: a state must be linear in them.
+    FreeProduct {
+        first: String,
+        second: String,
+    },
+    FreeDivisor {
+        name: String,
+    },
+    FreeUnderRoot {
+        name: String,
+    },
+    /// A `det` whose value holds free coefficients.
+    FreeInDeterminant {
+        det: String,
+        coefficients: String,
+    },
+    /// A request that needs fixed states (`spin`, `roots`) given one with free coefficients.
+    FreeNotAllowed {
+        request: String,
+        state: String,
+        coefficients: String,
+    },
+    /// `eval` of a request whose free coefficients are not all given with --set.
+    Unset {
+        request: String,
+        unset: String,
+        why: String,
+    },
+    /// A wrong `--set NAME=VALUE`.
+    Setting {
+        why: String,
+    },
     StateTimesState,
     DivisionByState,
     DivisionByZero,
@@ -314,6 +349,26 @@ impl Error {
             NotADeterminant { name } => format!("`{name}` is not a single determinant"),
             BadCoefficient { why } => format!("this coefficient is not exact: {why}"),
             NumberAlone => "a number stands alone in a state; it must multiply a determinant or state".into(),
+            FreeAlone { name } => {
+                format!(
+                    "the free coefficient `{name}` stands alone here; it must multiply a determinant or state"
+                )
+            }
+            FreeProduct { first, second } => format!(
+                "the free coefficients `{first}` and `{second}` multiply each other here, but a state must be linear in its free coefficients"
+            ),
+            FreeDivisor { name } => format!("the free coefficient `{name}` stands in a denominator"),
+            FreeUnderRoot { name } => format!("the free coefficient `{name}` stands under a square root"),
+            FreeInDeterminant { det, coefficients } => format!(
+                "`{det}` is a `det`, one determinant as written, but free coefficients ({coefficients}) stand in it"
+            ),
+            FreeNotAllowed { request, state, coefficients } => format!(
+                "`{request}` needs states with fixed coefficients, but `{state}` has the free coefficients {coefficients}"
+            ),
+            Unset { request, unset, why } => {
+                format!("`{request}` has free coefficients without a value: {unset}; {why}")
+            }
+            Setting { why } => why.clone(),
             StateTimesState => "two states are multiplied together".into(),
             DivisionByState => "a state stands in a denominator".into(),
             DivisionByZero => "a coefficient divides by zero".into(),
@@ -399,7 +454,7 @@ impl Error {
         Some(match &self.kind {
             Syntax { .. } => format!("see the input language in README.md; statements are {STATEMENTS}"),
             Undefined { .. } => {
-                "declare it first with `orbitals`, `space`, `det`, `state`, `csf` or `csfs`".into()
+                "declare it first with `orbitals`, `space`, `coefficients` (a free coefficient), `det`, `state`, `csf` or `csfs`".into()
             }
             WrongKind { .. } => "check which name was meant".into(),
             Redefined { .. } => "give each orbital, space, index, determinant and state its own name".into(),
@@ -415,11 +470,18 @@ impl Error {
             NotADeterminant { .. } => "use `state` for a combination of determinants".into(),
             BadCoefficient { .. } => "write integers, fractions and sqrt(n) or sqrt(p/q), multiplied or divided".into(),
             NumberAlone | StateTimesState | DivisionByState => "write a combination as c1 D1 + c2 D2, with each coefficient multiplying one determinant or state".into(),
+            FreeAlone { name } => format!("write `{name}` before the determinant or state it multiplies, e.g. `{name} | a b |`"),
+            FreeProduct { .. } | FreeDivisor { .. } | FreeUnderRoot { .. } => "a term's coefficient is an exact number, a free coefficient, or their product (`sqrt(2) cg`, `-cu/2`)".into(),
+            FreeInDeterminant { det, .. } => format!("define it as a `state`: `state {det} = ...`"),
+            FreeNotAllowed { request, .. } if request == "roots" => "the operands of `roots` span the space themselves: list the parts the free coefficients multiply as operands of their own".into(),
+            FreeNotAllowed { .. } => "write the state with numbers for its coefficients".into(),
+            Unset { .. } => "give each a value, e.g. `--set cg=0.98`".into(),
+            Setting { .. } => "write --set NAME=VALUE once for each free coefficient of the input, e.g. --set cg=0.98".into(),
             DivisionByZero => "use a non-zero divisor".into(),
             EmptyState { .. } | ZeroNorm { .. } => "check the signs and coefficients of the combination".into(),
             ElectronCount { .. } => "the Hamiltonian conserves the number of electrons: every determinant of the bra and the ket must have the same count".into(),
             ClosedSpaces { .. } => "write the same closed spaces in every determinant of the bra and the ket; their sizes are unknown".into(),
-            RequestArity { .. } => "write `energy X`, `spin X`, `element X Y` or `overlap X Y`".into(),
+            RequestArity { .. } => "write `energy X`, `spin X`, `element X Y`, `overlap X Y` or `roots X Y ...`".into(),
             Coupling { .. } => "write `csf X = | core^2 p q r | S=1/2 path=1/2,0,1/2`: the intermediate spin after each open shell, ending at S".into(),
             ClosedShellNeeded { .. } => "write every orbital of the determinant doubly occupied (`p^2`): the excitation makes the open shells".into(),
             ExcitedShell { .. } => "a spin-adapted excitation moves electrons out of doubly occupied orbitals into empty ones".into(),

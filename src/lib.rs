@@ -48,13 +48,14 @@ pub use numbers::bind::Bindings;
 pub use numbers::evaluate::{Binding, evaluate};
 pub use numbers::fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump};
 pub use numbers::integrals::{IntegralTable, Integrals, TABLE_BUDGET_BYTES};
+pub use numbers::settings::{DEFAULT_ROOTS, Settings};
 pub use numbers::space::{
     Component, DEPENDENCE_THRESHOLD, MEMBER_LIMIT, Operand, PairElement, Root, SpaceRoots, Timing,
     solve_space,
 };
-pub use numbers::tabulate::{Entry, Evaluated, Omitted};
+pub use numbers::tabulate::{ComponentValue, Entry, Evaluated, FreeValue, Omitted, RootValue, RootsOut};
 pub use output::{remove_temporaries_on_signal, write_files, write_output};
 pub use pipeline::{
-    DEFAULT_SEED, Format, derive_checked, eval_warnings, evaluate_all, render, render_each, render_states,
-    results_json, results_text,
+    DEFAULT_SEED, Format, derive_checked, eval_warnings, evaluate_all, evaluate_with, render, render_each,
+    render_states, results_json, results_text,
 };

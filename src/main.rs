@@ -4,7 +4,7 @@
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
     Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, MAX_CASES, Options, Program, Result,
-    Route, Source, Span, derive_checked, eval_warnings, evaluate_all, parse_with, read_dump,
+    Route, Settings, Source, Span, derive_checked, eval_warnings, evaluate_with, parse_with, read_dump,
     remove_temporaries_on_signal, render, render_each, render_states, results_json, results_text,
     write_files, write_output,
 };
@@ -126,6 +126,14 @@ enum Command {
         /// core=none (no orbitals), i=3. An unbound generic index is tabulated over its space.
         #[arg(long = "bind", value_name = "NAME=SPEC")]
         bind: Vec<String>,
+        /// Give a free coefficient a value: cg=0.98. Requests with free coefficients are evaluated
+        /// at the values set; an energy with none set is given where it is stationary.
+        #[arg(long = "set", value_name = "NAME=VALUE")]
+        set: Vec<String>,
+        /// How many of the lowest roots of each `roots` space to print (default: all up to 10,
+        /// else the 10 lowest).
+        #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
+        roots: Option<u64>,
         /// Print {"results": [...]} as JSON.
         #[arg(long)]
         json: bool,
@@ -212,17 +220,44 @@ fn run(cli: Cli) -> Result<()> {
             let program = parse_with(&name, &text, limits)?;
             write_output(output.as_deref(), &render_states(&program, json))
         }
-        Command::Eval { common, integrals, bind, json, output } => {
+        Command::Eval { common, integrals, bind, set, roots, json, output } => {
             let dump = read_dump(&integrals)?;
             let (program, checked) = derived(&common)?;
             let bindings = Bindings::parse(&program, &bind, dump.header.norb)?;
-            let results = evaluate_all(&program, &checked, &bindings, &dump.integrals)?;
+            let roots = roots.map(|n| usize::try_from(n).unwrap_or(usize::MAX));
+            let settings = Settings::parse(&program, &set, roots)?;
+            let progress = Progress::new();
+            let results = evaluate_with(&program, &checked, &bindings, &dump.integrals, &settings, &|m| {
+                progress.say(m)
+            })?;
             let warnings = eval_warnings(&dump, &results);
             for warning in &warnings {
                 eprintln!("warning: {warning}");
             }
             let text = if json { results_json(&results, &warnings) } else { results_text(&results) };
             write_output(output.as_deref(), &text)
+        }
+    }
+}
+
+/// Progress of long computations on standard error: nothing in the first second, then at
+/// most one line a second.
+struct Progress {
+    start: std::time::Instant,
+    last: std::cell::Cell<Option<std::time::Instant>>,
+}
+
+impl Progress {
+    fn new() -> Progress {
+        Progress { start: std::time::Instant::now(), last: std::cell::Cell::new(None) }
+    }
+
+    fn say(&self, message: &str) {
+        let now = std::time::Instant::now();
+        let quiet = self.last.get().is_some_and(|t| now - t < std::time::Duration::from_secs(1));
+        if now - self.start > std::time::Duration::from_secs(1) && !quiet {
+            let _ = writeln!(std::io::stderr(), "progress: {message}");
+            self.last.set(Some(now));
         }
     }
 }

@@ -8,9 +8,11 @@ use crate::error::Result;
 use crate::language::program::Program;
 use crate::language::program::RequestKind;
 use crate::numbers::bind::Bindings;
+use crate::numbers::block_values::evaluate_block;
 use crate::numbers::fcidump::IntegralDump;
 use crate::numbers::integrals::Integrals;
-use crate::numbers::tabulate::{Evaluated, equal_text, tabulate};
+use crate::numbers::settings::Settings;
+use crate::numbers::tabulate::{Evaluated, FreeValue, RootsOut, equal_text, tabulate};
 use itertools::Itertools;
 
 /// The seed of the random integrals used by verification unless another is asked for.
@@ -94,18 +96,36 @@ pub fn render_states(program: &Program, json: bool) -> String {
 }
 
 /// Evaluates every derivation with real integrals: energies include the file's constant,
-/// elements the constant times the overlap; overlaps and spin values are pure numbers.
+/// elements the constant times the overlap; overlaps and spin values are pure numbers. Free
+/// coefficients take no values (an energy is then given where it is stationary), and a
+/// `roots` space gives its lowest `DEFAULT_ROOTS` roots.
 pub fn evaluate_all(
     program: &Program,
     derivations: &[Checked],
     bindings: &Bindings,
     ints: &dyn Integrals,
 ) -> Result<Vec<Evaluated>> {
+    evaluate_with(program, derivations, bindings, ints, &Settings::default(), &|_| {})
+}
+
+/// Evaluates every derivation as `evaluate_all` does, with values for free coefficients and
+/// the number of roots from `settings`; `progress` hears about long computations.
+pub fn evaluate_with(
+    program: &Program,
+    derivations: &[Checked],
+    bindings: &Bindings,
+    ints: &dyn Integrals,
+    settings: &Settings,
+    progress: &dyn Fn(&str),
+) -> Result<Vec<Evaluated>> {
     program
         .requests
         .iter()
         .zip(derivations)
-        .map(|(request, (d, _))| tabulate(program, request, d, bindings, ints))
+        .map(|(request, (d, _))| match &d.block {
+            Some(block) => evaluate_block(program, request, d, block, bindings, ints, settings, progress),
+            None => tabulate(program, request, d, bindings, ints),
+        })
         .collect()
 }
 
@@ -114,9 +134,11 @@ pub fn evaluate_all(
 /// on the neutral molecule's integrals is legitimate, a slip in the bindings is not).
 pub fn eval_warnings(dump: &IntegralDump, results: &[Evaluated]) -> Vec<String> {
     let mut out = dump.warnings.clone();
+    out.extend(results.iter().flat_map(|r| r.warnings.iter().cloned()));
     if let Some(nelec) = dump.header.nelec {
         for r in results {
-            if matches!(r.kind, RequestKind::Energy | RequestKind::Element) && r.electrons != nelec {
+            let energies = matches!(r.kind, RequestKind::Energy | RequestKind::Element | RequestKind::Roots);
+            if energies && r.electrons != nelec {
                 out.push(format!(
                     "`{}` has {} electrons under the bindings, but the integral file was made for NELEC={nelec}",
                     r.request, r.electrons
@@ -141,8 +163,26 @@ fn fixed(value: f64) -> String {
 pub fn results_text(results: &[Evaluated]) -> String {
     let mut out = String::new();
     for r in results {
+        if let Some(roots) = &r.roots {
+            out.push_str(&roots_text(&r.request, roots));
+            continue;
+        }
+        // the free coefficients, after the value: where the energy is stationary, or as set
+        let coefficients = |e: &crate::numbers::tabulate::Entry| -> String {
+            let at = e.coefficients.iter().map(|(n, x)| format!("{n} = {}", fixed(*x))).join(", ");
+            match r.free {
+                Some(FreeValue::Stationary) => format!("  stationary at {at}"),
+                Some(FreeValue::Set) => format!("  at {at}"),
+                None => String::new(),
+            }
+        };
         if !r.tabulated {
-            out.push_str(&format!("{:<32} {:>22}\n", r.request, fixed(r.entries[0].value)));
+            out.push_str(&format!(
+                "{:<32} {:>22}{}\n",
+                r.request,
+                fixed(r.entries[0].value),
+                coefficients(&r.entries[0])
+            ));
             continue;
         }
         out.push_str(&format!("{}\n", r.request));
@@ -153,9 +193,10 @@ pub fn results_text(results: &[Evaluated]) -> String {
         ));
         for e in &r.entries {
             out.push_str(&format!(
-                "  {}  {:>22}\n",
+                "  {}  {:>22}{}\n",
                 e.indices.iter().map(|(_, m)| format!("{m:>4}")).join(" "),
-                fixed(e.value)
+                fixed(e.value),
+                coefficients(e)
             ));
         }
         for o in &r.omitted {
@@ -171,6 +212,42 @@ pub fn results_text(results: &[Evaluated]) -> String {
     out
 }
 
+/// Components of a root shown in text: the largest, and the others down to a tenth of it, at
+/// most this many.
+const SHOWN_COMPONENTS: usize = 5;
+
+/// The roots of a space as text: its size, then each root's value and its largest components
+/// (operand, index values, coefficient).
+fn roots_text(request: &str, roots: &RootsOut) -> String {
+    let mut out = format!("{request}\n");
+    out.push_str(&format!(
+        "  dimension {} ({} dropped for linear dependence, {} vanishing members left out); {}\n",
+        roots.dimension,
+        roots.dropped,
+        roots.vanishing,
+        if roots.roots.len() == roots.dimension {
+            format!("all {} roots", roots.dimension)
+        } else {
+            format!("the {} lowest of {} roots", roots.roots.len(), roots.dimension)
+        }
+    ));
+    for (k, root) in roots.roots.iter().enumerate() {
+        out.push_str(&format!("  root {:<4} {:>22}\n", k + 1, fixed(root.value)));
+        let largest = root.vector.first().map_or(0.0, |c| c.coefficient.abs());
+        for c in root.vector.iter().take(SHOWN_COMPONENTS).filter(|c| c.coefficient.abs() >= largest / 10.0) {
+            let indices = c.indices.iter().map(|(n, m)| format!("{n}={m}")).join(" ");
+            out.push_str(&format!(
+                "      {:>16}  {}{}{}\n",
+                format!("{:.8}", c.coefficient),
+                c.operand,
+                if indices.is_empty() { "" } else { "  " },
+                indices
+            ));
+        }
+    }
+    out
+}
+
 /// Results as JSON: `{"results": [{"request": ..., "value": ...}, ...], "warnings": [...]}`; a
 /// tabulated request has `"values": [{"indices": {"i": 1, ...}, "value": ...}]` instead of
 /// `"value"`, and `"omitted": [{"count": ..., "equal": [["i", "j"]], "reason": ...}]`.
@@ -178,19 +255,45 @@ pub fn results_json(results: &[Evaluated], warnings: &[String]) -> String {
     let list: Vec<serde_json::Value> = results
         .iter()
         .map(|r| {
-            if r.tabulated {
+            let map = |pairs: &[(String, usize)]| -> serde_json::Map<String, serde_json::Value> {
+                pairs.iter().map(|(n, m)| (n.clone(), serde_json::json!(m))).collect()
+            };
+            // with free coefficients, their values beside each value
+            let with_coefficients = |mut v: serde_json::Value, e: &crate::numbers::tabulate::Entry| {
+                if r.free.is_some() {
+                    let c: serde_json::Map<String, serde_json::Value> =
+                        e.coefficients.iter().map(|(n, x)| (n.clone(), serde_json::json!(x))).collect();
+                    v["coefficients"] = c.into();
+                    v["stationary"] = (r.free == Some(FreeValue::Stationary)).into();
+                }
+                v
+            };
+            if let Some(roots) = &r.roots {
+                let list: Vec<serde_json::Value> = roots
+                    .roots
+                    .iter()
+                    .map(|root| {
+                        let vector: Vec<serde_json::Value> = root
+                            .vector
+                            .iter()
+                            .map(|c| {
+                                serde_json::json!({"operand": c.operand, "indices": map(&c.indices), "coefficient": c.coefficient})
+                            })
+                            .collect();
+                        serde_json::json!({"value": root.value, "vector": vector})
+                    })
+                    .collect();
+                serde_json::json!({"request": r.request, "dimension": roots.dimension, "dropped": roots.dropped,
+                    "vanishing": roots.vanishing, "roots": list})
+            } else if r.tabulated {
                 let values: Vec<serde_json::Value> = r
                     .entries
                     .iter()
-                    .map(|e| {
-                        let indices: serde_json::Map<String, serde_json::Value> =
-                            e.indices.iter().map(|(n, m)| (n.clone(), serde_json::json!(m))).collect();
-                        serde_json::json!({"indices": indices, "value": e.value})
-                    })
+                    .map(|e| with_coefficients(serde_json::json!({"indices": map(&e.indices), "value": e.value}), e))
                     .collect();
                 serde_json::json!({"request": r.request, "values": values, "omitted": r.omitted})
             } else {
-                serde_json::json!({"request": r.request, "value": r.entries[0].value})
+                with_coefficients(serde_json::json!({"request": r.request, "value": r.entries[0].value}), &r.entries[0])
             }
         })
         .collect();

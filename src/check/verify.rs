@@ -1,6 +1,7 @@
 //! Built-in verification: every derived expression is evaluated on random integrals for
 //! several space sizes and every index assignment, and compared with brute-force algebra.
 
+use crate::check::block_check::{BlockReport, verify_block};
 use crate::check::brute_force;
 use crate::engine::coincidence;
 use crate::engine::derive::{Derivation, Options, derive};
@@ -16,7 +17,7 @@ use rand::seq::IndexedRandom;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
-use std::collections::{BTreeMap, HashMap, HashSet};
+use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
 
 /// Relative agreement demanded between the derived expression and brute force.
 pub const TOLERANCE: f64 = 1e-10;
@@ -54,11 +55,16 @@ pub struct Report {
     pub determinant_pairs: Option<usize>,
     /// Why nothing could be checked by brute force, when that is so.
     pub not_checked: Option<String>,
+    /// For a request on pairs of functions: the report of each pair and of the assembled
+    /// forms; the counts above are their totals. The JSON output places each pair's report
+    /// beside its element.
+    #[serde(skip)]
+    pub block: Option<Box<BlockReport>>,
 }
 
 impl Report {
     /// Nothing checked yet.
-    fn empty(derivation: &Derivation, seed: u64) -> Report {
+    pub(super) fn empty(derivation: &Derivation, seed: u64) -> Report {
         Report {
             checks: 0,
             configurations: vec![],
@@ -69,10 +75,14 @@ impl Report {
             sample: None,
             determinant_pairs: None,
             not_checked: None,
+            block: None,
         }
     }
 
     pub fn summary(&self) -> String {
+        if let Some(block) = &self.block {
+            return block.summary(self);
+        }
         if let Some(why) = &self.not_checked {
             return format!("not checked by brute force: {why}");
         }
@@ -128,6 +138,12 @@ fn size_configurations(program: &Program, request: &Request, derivation: &Deriva
     let (_, used, _) = symbols_of(program, request);
     let needed =
         |s: u32| derivation.free_indices.iter().filter(|&&k| program.indices[k as usize].space == s).count();
+    sizes(program, &used, &needed)
+}
+
+/// Three configurations of sizes for the spaces `used`, a space with `needed(s)` generic
+/// indices getting room for all of them to differ (see `size_configurations`).
+fn sizes(program: &Program, used: &BTreeSet<u32>, needed: &dyn Fn(u32) -> usize) -> Vec<Vec<usize>> {
     (0..3)
         .map(|c| {
             (0..program.spaces.len() as u32)
@@ -218,7 +234,8 @@ pub fn compare(
     let vanishes = norm.abs() < 1e-12 * scale;
     let (expected, second) = match request.kind {
         RequestKind::Overlap => (overlap, None),
-        RequestKind::Element => {
+        // a `roots` request is checked through its pairs, which are elements
+        RequestKind::Element | RequestKind::Roots => {
             (brute_force::matrix_element(&bra, &ket, ints), Some(("overlap", overlap, &derivation.overlap)))
         }
         RequestKind::Energy if vanishes => return Ok(None),
@@ -230,7 +247,9 @@ pub fn compare(
         ),
     };
     let scale = match request.kind {
-        RequestKind::Overlap | RequestKind::Element => (norm * brute_force::dot(&ket, &ket)).sqrt(),
+        RequestKind::Overlap | RequestKind::Element | RequestKind::Roots => {
+            (norm * brute_force::dot(&ket, &ket)).sqrt()
+        }
         RequestKind::Energy | RequestKind::Spin => 1.0,
     };
     let mut out = vec![Comparison {
@@ -307,6 +326,7 @@ fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, s
             bra_text: request.bra_text.clone(),
             ket_text: request.ket_text.clone(),
             span: request.span.clone(),
+            block: None,
         };
         let d = derive(program, &pair, &options)?;
         let r = verify(program, &pair, &d, seed)?;
@@ -427,6 +447,9 @@ fn assignments(
 
 /// Checks one derivation of `request`; returns the report or a verification failure.
 pub fn verify(program: &Program, request: &Request, derivation: &Derivation, seed: u64) -> Result<Report> {
+    if let Some(block) = &derivation.block {
+        return verify_block(program, request, derivation, block, seed);
+    }
     let mut report = Report::empty(derivation, seed);
     if request.bra.is_unexpanded() {
         report.not_checked = Some(format!(
@@ -439,7 +462,38 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
     if !fits_whole_check(request) && request.kind != RequestKind::Spin {
         return verify_pairs(program, request, derivation, seed);
     }
-    let configurations = size_configurations(program, request, derivation);
+    verify_sized(program, request, derivation, seed, size_configurations(program, request, derivation))
+}
+
+/// Sizes for the checks of the pairs of a block: the spaces the whole request uses, each with
+/// room for as many different indices as any pair has there, so that every pair is checked on
+/// the same three configurations.
+pub(super) fn block_configurations(
+    program: &Program,
+    request: &Request,
+    pairs: &[Derivation],
+) -> Vec<Vec<usize>> {
+    let needed = |s: u32| {
+        pairs
+            .iter()
+            .map(|d| d.free_indices.iter().filter(|&&k| program.indices[k as usize].space == s).count())
+            .max()
+            .unwrap_or(0)
+    };
+    let (_, used, _) = symbols_of(program, request);
+    sizes(program, &used, &needed)
+}
+
+/// Checks a request that brute force takes whole on the configurations given (see
+/// `size_configurations`).
+pub(super) fn verify_sized(
+    program: &Program,
+    request: &Request,
+    derivation: &Derivation,
+    seed: u64,
+    configurations: Vec<Vec<usize>>,
+) -> Result<Report> {
+    let mut report = Report::empty(derivation, seed);
     let pairs = distinct_determinants(&request.bra).len() * distinct_determinants(&request.ket).len();
     let cap = (WORK_BUDGET / (configurations.len() * pairs).max(1)).clamp(1, MAX_ASSIGNMENTS);
     let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0x5eed);

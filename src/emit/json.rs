@@ -1,8 +1,9 @@
 //! The JSON form of derivations: a stable, documented schema (README.md, "JSON output") with
 //! every term's exact coefficient, deltas, summed indices and integral.
 
-use super::{Definitions, Namer, integral_parts};
+use super::{Definitions, Namer, integral_parts, monomial_text};
 use crate::check::verify::Report;
+use crate::engine::block_derivation::BlockDerivation;
 use crate::engine::derive::Derivation;
 use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, IntegralKind};
@@ -25,8 +26,24 @@ struct RequestOut<'a> {
     kind: RequestKind,
     bra: &'a str,
     ket: &'a str,
-    terms: Vec<TermOut>,
-    overlap: Vec<TermOut>,
+    /// The expression; absent for a request on pairs of functions, whose `monomials` (free
+    /// coefficients) and `elements` hold it.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    terms: Option<Vec<TermOut>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    overlap: Option<Vec<TermOut>>,
+    /// The free coefficients of the request, in declaration order.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    coefficients: Option<Vec<String>>,
+    /// value = Σ monomial × terms, overlap = Σ monomial × overlap.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    monomials: Option<Vec<MonomialOut>>,
+    /// For `roots`: the operands and the generic indices their members run over.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    operands: Option<Vec<OperandOut>>,
+    /// The pairs of functions, each derived and verified as an element.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    elements: Option<Vec<ElementOut<'a>>>,
     /// For `spin` requests: <S_z>; `terms` then hold <S²>.
     #[serde(skip_serializing_if = "Option::is_none")]
     s_z: Option<Vec<TermOut>>,
@@ -36,6 +53,38 @@ struct RequestOut<'a> {
     /// terms use (only with --fock).
     #[serde(skip_serializing_if = "serde_json::Map::is_empty")]
     definitions: serde_json::Map<String, serde_json::Value>,
+    notes: &'a [String],
+    verification: Option<&'a Report>,
+}
+
+#[derive(Serialize)]
+struct MonomialOut {
+    /// The coefficients multiplied, a square twice; [] for the fixed part with itself.
+    coefficients: Vec<String>,
+    /// The same as text: `cg^2`, `cg cu`, `1`.
+    monomial: String,
+    terms: Vec<TermOut>,
+    overlap: Vec<TermOut>,
+}
+
+#[derive(Serialize)]
+struct OperandOut {
+    operand: String,
+    indices: Vec<String>,
+}
+
+#[derive(Serialize)]
+struct ElementOut<'a> {
+    /// Positions of the bra and ket functions (operands of `roots`, parts otherwise).
+    row: usize,
+    column: usize,
+    bra: &'a str,
+    ket: &'a str,
+    /// Generic indices of the ket renamed apart from the bra's: original → used in the terms.
+    renamed: serde_json::Map<String, serde_json::Value>,
+    /// <bra|H|ket> (for an overlap request <bra|ket>).
+    terms: Vec<TermOut>,
+    overlap: Vec<TermOut>,
     notes: &'a [String],
     verification: Option<&'a Report>,
 }
@@ -117,24 +166,104 @@ fn terms(expr: &Expr, namer: &Namer) -> Vec<TermOut> {
         .collect()
 }
 
+/// The monomials of a request with free coefficients, each with its weight folded into its terms.
+fn monomials(program: &Program, block: &BlockDerivation, namer: &Namer) -> Vec<MonomialOut> {
+    block
+        .monomials()
+        .iter()
+        .map(|m| {
+            let names: Vec<String> =
+                m.coefficients.iter().map(|&c| program.coefficients[c as usize].name.clone()).collect();
+            let text = monomial_text(&names, &|n| format!("{n}^2"), " ");
+            let weight = Exact::integer(m.weight.into());
+            MonomialOut {
+                monomial: if text.is_empty() { "1".into() } else { text },
+                coefficients: names,
+                terms: terms(&m.value.scaled(&weight), namer),
+                overlap: terms(&m.overlap.scaled(&weight), namer),
+            }
+        })
+        .collect()
+}
+
+fn elements<'a>(
+    program: &Program,
+    block: &'a BlockDerivation,
+    report: Option<&'a Report>,
+) -> Vec<ElementOut<'a>> {
+    let reports = report.and_then(|r| r.block.as_ref()).map(|b| &b.pairs);
+    let name = |k: u32| program.indices[k as usize].name.clone();
+    block
+        .block
+        .pairs
+        .iter()
+        .zip(&block.pairs)
+        .enumerate()
+        .map(|(k, (pair, d))| {
+            let namer = Namer::new(program, &[&d.value, &d.overlap]);
+            ElementOut {
+                row: pair.row,
+                column: pair.column,
+                bra: &d.bra,
+                ket: &d.ket,
+                renamed: pair.renamed.iter().map(|&(a, b)| (name(a), name(b).into())).collect(),
+                terms: terms(&d.value, &namer),
+                overlap: terms(&d.overlap, &namer),
+                notes: &d.notes,
+                verification: reports.and_then(|r| r.get(k)),
+            }
+        })
+        .collect()
+}
+
 pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)]) -> String {
     let requests = derivations
         .iter()
         .map(|(d, report)| {
-            let namer = Namer::new(program, &[&d.value, &d.overlap]);
+            let namer = Namer::new(program, &super::expressions(d));
+            let block = d.block.as_deref();
+            let free = block.filter(|_| d.kind != RequestKind::Roots);
             RequestOut {
                 request: &d.text,
                 kind: d.kind,
                 bra: &d.bra,
                 ket: &d.ket,
-                terms: terms(&d.value, &namer),
-                overlap: terms(&d.overlap, &namer),
+                terms: block.is_none().then(|| terms(&d.value, &namer)),
+                overlap: block.is_none().then(|| terms(&d.overlap, &namer)),
+                coefficients: free.map(|b| {
+                    b.block
+                        .coefficients()
+                        .iter()
+                        .map(|&c| program.coefficients[c as usize].name.clone())
+                        .collect()
+                }),
+                monomials: free.map(|b| monomials(program, b, &namer)),
+                operands: block.filter(|_| d.kind == RequestKind::Roots).map(|b| {
+                    b.block
+                        .rows
+                        .iter()
+                        .map(|f| OperandOut {
+                            operand: f.label.clone(),
+                            indices: f
+                                .indices
+                                .iter()
+                                .map(|&k| program.indices[k as usize].name.clone())
+                                .collect(),
+                        })
+                        .collect()
+                }),
+                elements: block.map(|b| elements(program, b, report.as_ref())),
                 s_z: (d.kind == RequestKind::Spin).then(|| terms(&d.s_z, &namer)),
                 closed_spaces: d.closed.members().iter().map(|&s| namer.space(s).to_string()).collect(),
-                definitions: super::text::definitions(d, &namer, Definitions::used_in(&d.value), false)
-                    .into_iter()
-                    .map(|(kind, text)| (json_kind(kind).to_string(), text.into()))
-                    .collect(),
+                definitions: super::text::definitions(
+                    d,
+                    &namer,
+                    Definitions::used_in(&super::expressions(d)),
+                    false,
+                )
+                .into_iter()
+                .map(|(kind, text)| (json_kind(kind).to_string(), text.into()))
+                .collect(),
                 notes: &d.notes,
                 verification: report.as_ref(),
             }

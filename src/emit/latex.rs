@@ -2,8 +2,11 @@
 //! printed width of what they hold, sums labelled with their spaces, exact fractions and
 //! radicals, and every piece of the input rendered so that it cannot inject TeX.
 
-use super::{Definitions, Group, Namer, groups, integral_parts, verification_line};
+use super::{
+    Definitions, Group, Namer, Summand, groups, integral_parts, monomial_text, summands, verification_line,
+};
 use crate::check::verify::Report;
+use crate::engine::block_derivation::BlockDerivation;
 use crate::engine::derive::Derivation;
 use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
@@ -701,7 +704,9 @@ fn left_sides(d: &Derivation) -> Vec<String> {
         RequestKind::Energy => vec![format!(
             r"\frac{{\langle {b} \vert \hat{{H}} \vert {b} \rangle}}{{\langle {b} \vert {b} \rangle}}"
         )],
-        RequestKind::Element => vec![format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle")],
+        RequestKind::Element | RequestKind::Roots => {
+            vec![format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle")]
+        }
         RequestKind::Overlap => vec![format!(r"\langle {b} \vert {k} \rangle")],
         RequestKind::Spin => vec![
             format!(r"\langle \hat{{S}}^2 \rangle_{{{b}}}"),
@@ -751,9 +756,20 @@ fn fock_legend(d: &Derivation, namer: &Namer, used: Definitions) -> Vec<(String,
 /// takes a line of its own (`&lhs \\ &\quad = …`, continuations `&\qquad {} + …`). The
 /// definitions in `legend` follow under the expression.
 fn environment(d: &Derivation, namer: &Namer, legend: Definitions) -> String {
-    let left = left_sides(d);
-    let left_width = left.iter().map(|l| width(l)).fold(0.0, f32::max);
     let expressions = if d.kind == RequestKind::Spin { vec![&d.value, &d.s_z] } else { vec![&d.value] };
+    rows_environment(d, left_sides(d), &expressions, namer, legend)
+}
+
+/// The `align*` of expressions with their left sides (see `environment`); `d` gives the closed
+/// spaces of the legend.
+fn rows_environment(
+    d: &Derivation,
+    left: Vec<String>,
+    expressions: &[&Expr],
+    namer: &Namer,
+    legend: Definitions,
+) -> String {
+    let left_width = left.iter().map(|l| width(l)).fold(0.0, f32::max);
     let arrange = |wide: bool| -> Vec<Vec<Line>> {
         let (column, indent) = if wide { (0.0, 1.0) } else { (left_width, 0.0) };
         let room = Room {
@@ -786,6 +802,11 @@ fn environment(d: &Derivation, namer: &Namer, legend: Definitions) -> String {
             });
         }
     }
+    with_legend(d, namer, legend, &rows, wide)
+}
+
+/// `align*` around rows, the definitions in `legend` under them.
+fn with_legend(d: &Derivation, namer: &Namer, legend: Definitions, rows: &[String], wide: bool) -> String {
     let mut out = String::from("\\begin{align*}\n  ");
     out.push_str(&rows.join(" \\\\\n  "));
     if legend.any() {
@@ -797,6 +818,128 @@ fn environment(d: &Derivation, namer: &Namer, legend: Definitions) -> String {
         out.push_str(&legend.join(" \\\\\n  "));
     }
     out.push_str("\n\\end{align*}\n");
+    out
+}
+
+/// The rows of a form in the free coefficients: `lhs &= n m \bigl( … \bigr) + …`. A summand
+/// whose expression takes one line stays on the row; a longer one starts a row of its own,
+/// its expression in brackets that open on its first line and close on its last.
+fn form_rows(lhs: &str, summands: &[Summand], namer: &Namer) -> Vec<String> {
+    let room = MEASURE - width(lhs) - 1.34;
+    let mut rows = vec![];
+    let mut current = format!("{lhs}\n  &= ");
+    let (mut used, mut first, mut fresh) = (0.0f32, true, true);
+    if summands.is_empty() {
+        current.push('0');
+    }
+    for s in summands {
+        let names: Vec<String> = s.coefficients.iter().map(|n| name(n)).collect();
+        let monomial = monomial_text(&names, &|n| format!("{n}^{{2}}"), r"\,");
+        let negative = s.expr.is_none() && s.number.is_negative();
+        // the summand without its sign: inline text, or the lines of a long expression
+        let (text, lines) = match s.expr {
+            None => (times(&s.number, if monomial.is_empty() { "1" } else { &monomial }), vec![]),
+            Some(expr) => {
+                let prefix =
+                    if monomial.is_empty() { String::new() } else { times(&s.number, &monomial) + " " };
+                let lines =
+                    layout(expr, namer, Room { first: room - 2.0, rest: room - 2.0, inside: room - 3.0 });
+                match lines.as_slice() {
+                    [line] => {
+                        let tall = line.text.contains(r"\frac");
+                        let (open, close) =
+                            if tall { (r"\Bigl(", r"\Bigr)") } else { (r"\bigl(", r"\bigr)") };
+                        (format!("{prefix}{open} {} {close}", line.text), vec![])
+                    }
+                    _ => (format!(r"{prefix}\Bigl[ "), lines),
+                }
+            }
+        };
+        if !fresh && (!lines.is_empty() || used + width(&text) + SIGN > room) {
+            rows.push(std::mem::replace(&mut current, r"&\quad ".to_string()));
+            (used, fresh) = (0.0, true);
+        }
+        let sign = match (first, fresh, negative) {
+            (true, _, false) => "",
+            (true, _, true) => "-",
+            (false, true, false) => "{} + ",
+            (false, true, true) => "{} - ",
+            (false, false, false) => " + ",
+            (false, false, true) => " - ",
+        };
+        first = false;
+        current.push_str(sign);
+        current.push_str(&text);
+        let Some((last, middle)) = lines.split_last() else {
+            used += width(&text) + SIGN;
+            fresh = false;
+            continue;
+        };
+        for line in middle {
+            current.push_str(&line.text);
+            rows.push(std::mem::replace(&mut current, r"&\qquad ".to_string()));
+        }
+        current.push_str(&format!(r"{} \Bigr]", last.text));
+        rows.push(std::mem::replace(&mut current, r"&\quad ".to_string()));
+        (used, fresh) = (0.0, true);
+    }
+    if !fresh || rows.is_empty() {
+        rows.push(current);
+    }
+    rows
+}
+
+/// The `align*` of a request on pairs of functions. Free coefficients: the value and the
+/// overlap as forms in the coefficients. `roots`: one per pair, <f|H|g> and <f|g>, a ket whose
+/// indices are renamed apart from the bra's carrying the renaming below its bracket.
+fn block_environments(
+    program: &Program,
+    d: &Derivation,
+    block: &BlockDerivation,
+    legend: Definitions,
+) -> String {
+    let (b, k) = (label(&d.bra), label(&d.ket));
+    if d.kind != RequestKind::Roots {
+        let monomials = block.monomials();
+        let expressions: Vec<&Expr> = monomials.iter().flat_map(|m| [&m.value, &m.overlap]).collect();
+        let namer = Namer::new(program, &expressions);
+        let h = format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle");
+        let s = format!(r"\langle {b} \vert {k} \rangle");
+        let forms = match d.kind {
+            RequestKind::Overlap => vec![(s, false)],
+            _ => vec![(h, false), (s, true)],
+        };
+        let rows: Vec<String> = forms
+            .into_iter()
+            .flat_map(|(lhs, overlap)| form_rows(&lhs, &summands(program, &monomials, overlap), &namer))
+            .collect();
+        return with_legend(d, &namer, legend, &rows, false);
+    }
+    let mut out = String::new();
+    for (pair, pd) in block.block.pairs.iter().zip(&block.pairs) {
+        let namer = Namer::new(program, &[&pd.value, &pd.overlap]);
+        let renamed = if pair.renamed.is_empty() {
+            String::new()
+        } else {
+            let to = |(a, b): &(u32, u32)| {
+                format!(
+                    r"{} \to {}",
+                    name(&program.indices[*a as usize].name),
+                    name(&program.indices[*b as usize].name)
+                )
+            };
+            format!("_{{{}}}", pair.renamed.iter().map(to).collect::<Vec<_>>().join(r",\, "))
+        };
+        let (b, k) = (label(&pd.bra), label(&pd.ket));
+        let left = vec![
+            format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle{renamed}"),
+            format!(r"\langle {b} \vert {k} \rangle{renamed}"),
+        ];
+        out.push_str(&rows_environment(pd, left, &[&pd.value, &pd.overlap], &namer, Definitions::default()));
+    }
+    if legend.any() {
+        out.push_str(&with_legend(d, &Namer::new(program, &super::expressions(d)), legend, &[], false));
+    }
     out
 }
 
@@ -813,8 +956,9 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], s
     // f_pq and E_ref are each defined where they first appear over a set of closed spaces
     let (mut fock_defined, mut reference_defined) = (vec![], vec![]);
     for (d, report) in derivations {
-        let namer = Namer::new(program, &[&d.value]);
-        let used = Definitions::used_in(&d.value);
+        let expressions = super::expressions(d);
+        let namer = Namer::new(program, &expressions);
+        let used = Definitions::used_in(&expressions);
         let legend = Definitions {
             fock: used.fock && !fock_defined.contains(&d.closed),
             reference: used.reference && !reference_defined.contains(&d.closed),
@@ -827,8 +971,11 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], s
         }
         out.push_str(&format!("% {}\n", comment(&d.text)));
         out.push_str(&format!("% {}\n", comment(&verification_line(report.as_ref()))));
-        out.push_str(&environment(d, &namer, legend));
-        for note in &d.notes {
+        match &d.block {
+            Some(block) => out.push_str(&block_environments(program, d, block, legend)),
+            None => out.push_str(&environment(d, &namer, legend)),
+        }
+        for note in &super::notes(d) {
             out.push_str(&format!("% note: {}\n", comment(note)));
         }
     }

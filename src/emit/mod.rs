@@ -8,10 +8,80 @@ pub mod rust;
 pub mod states;
 pub mod text;
 
+use crate::engine::block_derivation::Monomial;
+use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
 use crate::language::orbital::{Orb, SpaceId};
 use crate::language::program::Program;
 use std::collections::BTreeSet;
+
+/// Every expression a derivation shows: its value (and <S_z> for spin), or for a request on
+/// pairs of functions every pair's value and overlap.
+pub fn expressions(d: &crate::engine::derive::Derivation) -> Vec<&Expr> {
+    match &d.block {
+        Some(block) => block.pairs.iter().flat_map(|p| [&p.value, &p.overlap]).collect(),
+        None => vec![&d.value],
+    }
+}
+
+/// A derivation's notes, with those of its pairs, each led by the pair it is about.
+pub fn notes(d: &crate::engine::derive::Derivation) -> Vec<String> {
+    let mut out = d.notes.clone();
+    for p in d.block.iter().flat_map(|b| &b.pairs) {
+        out.extend(
+            p.notes.iter().map(|n| format!("{}: {n}", p.text.split_once(": ").map_or("", |(_, b)| b))),
+        );
+    }
+    out
+}
+
+/// One summand of a quadratic (or bilinear) form in the free coefficients as it is written:
+/// `number × coefficients × (expression)`; an expression that is a plain number is folded into
+/// `number` and leaves `expr` empty.
+pub struct Summand<'a> {
+    pub number: Exact,
+    /// The names of the coefficients multiplied, a square twice; empty for the fixed part.
+    pub coefficients: Vec<String>,
+    pub expr: Option<&'a Expr>,
+}
+
+/// The summands of the monomials' values (`overlap` false) or overlaps (true), zeros left out.
+pub fn summands<'a>(program: &Program, monomials: &'a [Monomial], overlap: bool) -> Vec<Summand<'a>> {
+    monomials
+        .iter()
+        .filter_map(|m| {
+            let expr = if overlap { &m.overlap } else { &m.value };
+            let weight = Exact::integer(m.weight.into());
+            let coefficients =
+                m.coefficients.iter().map(|&c| program.coefficients[c as usize].name.clone()).collect();
+            let constant = match expr.terms.as_slice() {
+                [] => return None,
+                [t] if t.factor == Factor::One && t.deltas.is_empty() && t.sums.is_empty() => Some(&t.coeff),
+                _ => None,
+            };
+            Some(match constant {
+                Some(c) => Summand { number: &weight * c, coefficients, expr: None },
+                None => Summand { number: weight, coefficients, expr: Some(expr) },
+            })
+        })
+        .collect()
+}
+
+/// A product of coefficient names with powers: `cg cu`, `cg²` (`cg^2` in ASCII).
+pub fn monomial_text(coefficients: &[String], square: &dyn Fn(&str) -> String, joint: &str) -> String {
+    let mut out: Vec<String> = vec![];
+    let mut k = 0;
+    while k < coefficients.len() {
+        if coefficients.get(k + 1) == Some(&coefficients[k]) {
+            out.push(square(&coefficients[k]));
+            k += 2;
+        } else {
+            out.push(coefficients[k].clone());
+            k += 1;
+        }
+    }
+    out.join(joint)
+}
 
 /// The letters summation indices take when a space's own letters do not serve: k, l, m, n,
 /// then k1, l1, m1, n1, k2, …
@@ -150,8 +220,8 @@ pub struct Definitions {
 }
 
 impl Definitions {
-    pub fn used_in(expr: &Expr) -> Definitions {
-        let uses = |kind| expr.terms.iter().any(|t| t.kind() == kind);
+    pub fn used_in(expressions: &[&Expr]) -> Definitions {
+        let uses = |kind| expressions.iter().flat_map(|e| &e.terms).any(|t| t.kind() == kind);
         Definitions { fock: uses(IntegralKind::Fock), reference: uses(IntegralKind::RefEnergy) }
     }
 
@@ -243,6 +313,63 @@ pub fn test_vectors(
         }
     }
     Ok(out)
+}
+
+/// The overlap <f|g> of a pair as a request and derivation of its own (an `overlap` pair
+/// already is one), so that it is emitted and tested like any overlap.
+pub fn overlap_of(
+    request: &crate::language::program::Request,
+    d: &crate::engine::derive::Derivation,
+) -> (crate::language::program::Request, crate::engine::derive::Derivation) {
+    use crate::language::program::RequestKind;
+    if d.kind == RequestKind::Overlap {
+        return (request.clone(), d.clone());
+    }
+    let text = |t: &str| t.replacen("|H|", "|", 1);
+    (
+        crate::language::program::Request {
+            kind: RequestKind::Overlap,
+            text: text(&request.text),
+            ..request.clone()
+        },
+        crate::engine::derive::Derivation {
+            kind: RequestKind::Overlap,
+            text: text(&d.text),
+            value: d.overlap.clone(),
+            ..d.clone()
+        },
+    )
+}
+
+/// The values generated code checks a function of free coefficients at: 3/4, -1/2, 5/8, -3/8,
+/// 7/8, -1/4, then again.
+pub fn test_coefficients(used: &[u32]) -> std::collections::BTreeMap<u32, Exact> {
+    const NUMERATORS: [i64; 6] = [6, -4, 5, -3, 7, -2];
+    used.iter().enumerate().map(|(k, &c)| (c, Exact::fraction(NUMERATORS[k % 6], 8))).collect()
+}
+
+/// For a request with free coefficients: the coefficient values its assembled function is
+/// tested at, and the fixed request they make with a derivation to take test vectors from
+/// (brute force only: None when the states are too large to check whole).
+#[allow(clippy::type_complexity)]
+pub fn assembled_test(
+    request: &crate::language::program::Request,
+    d: &crate::engine::derive::Derivation,
+    block: &crate::engine::block_derivation::BlockDerivation,
+) -> Option<(
+    std::collections::BTreeMap<u32, Exact>,
+    crate::language::program::Request,
+    crate::engine::derive::Derivation,
+)> {
+    let values = test_coefficients(&block.block.coefficients());
+    let (bra, ket) = block.block.states_at(&values);
+    let at = crate::language::program::Request { bra, ket, block: None, ..request.clone() };
+    if !crate::check::verify::fits_whole_check(&at) {
+        return None;
+    }
+    let (value, overlap) = block.at(&values);
+    let derivation = crate::engine::derive::Derivation { value, overlap, block: None, ..d.clone() };
+    Some((values, at, derivation))
 }
 
 /// Identifiers for generated code: input names made valid, keywords and clashes avoided.

@@ -86,6 +86,7 @@ struct Symbols {
     orbitals: Vec<String>,
     indices: Vec<String>,
     spaces: Vec<String>,
+    coefficients: Vec<String>,
 }
 
 impl Symbols {
@@ -95,6 +96,7 @@ impl Symbols {
             orbitals: program.orbitals.iter().map(|o| ids.fresh(&o.name)).collect(),
             indices: program.indices.iter().map(|i| ids.fresh(&i.name)).collect(),
             spaces: program.spaces.iter().map(|s| ids.fresh(&s.name)).collect(),
+            coefficients: program.coefficients.iter().map(|c| ids.fresh(&c.name)).collect(),
         }
     }
 }
@@ -434,17 +436,183 @@ impl<'a> BodyWriter<'a> {
 
 /// The function's name from its request: `energy_s`, `element_ab_ba`; requests whose operands
 /// are written inline (determinants, excitations, combinations) are named by their number.
-fn function_name(ids: &mut Identifiers, d: &Derivation, number: usize) -> String {
+fn function_name(d: &Derivation, number: usize) -> String {
     let simple = |label: &str| label.chars().all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '.');
     let operands = match d.kind {
-        RequestKind::Energy | RequestKind::Spin => vec![d.bra.as_str()],
+        RequestKind::Energy | RequestKind::Spin | RequestKind::Roots => vec![d.bra.as_str()],
         RequestKind::Element | RequestKind::Overlap => vec![d.bra.as_str(), d.ket.as_str()],
     };
     if operands.iter().all(|o| simple(o)) {
-        ids.fresh(&format!("{} {}", d.kind.keyword(), operands.join(" ")))
+        format!("{} {}", d.kind.keyword(), operands.join(" "))
     } else {
-        ids.fresh(&format!("{}_{number}", d.kind.keyword()))
+        format!("{}_{number}", d.kind.keyword())
     }
+}
+
+/// What one request becomes: its functions (one; for a request on pairs of functions one per
+/// pair's <f|H|g> and <f|g>, and for free coefficients the function of the coefficients that
+/// assembles them), checked by one test function named after `name`.
+struct Emitted {
+    name: String,
+    text: String,
+    units: Vec<(Request, Checked, Function)>,
+    assembled: Option<Assembled>,
+}
+
+/// The function of the free coefficients, with what its test needs.
+struct Assembled {
+    function: Function,
+    coefficients: Vec<u32>,
+    values: BTreeMap<u32, crate::engine::exact::Exact>,
+    vectors: Vec<TestVector>,
+}
+
+/// The functions of one request (see `Emitted`).
+fn emitted(
+    program: &Program,
+    symbols: &Symbols,
+    (request, checked): (&Request, &Checked),
+    names: &mut Identifiers,
+    number: usize,
+    needs: &mut Needs,
+) -> Result<Emitted> {
+    let d = &checked.0;
+    let base = function_name(d, number);
+    let Some(block) = &d.block else {
+        let name = names.fresh(&base);
+        let f = function(program, symbols, checked, name.clone(), needs)?;
+        return Ok(Emitted {
+            name,
+            text: d.text.clone(),
+            units: vec![(request.clone(), checked.clone(), f)],
+            assembled: None,
+        });
+    };
+    let mut units = vec![];
+    for (pair, pd) in block.block.pairs.iter().zip(&block.pairs) {
+        let label = |f: &crate::language::block::Function, k: usize| match (d.kind, f.coefficient) {
+            (RequestKind::Roots, _) => (k + 1).to_string(),
+            (_, Some(c)) => program.coefficients[c as usize].name.clone(),
+            (_, None) => "fixed".into(),
+        };
+        let which = format!(
+            "{} {}",
+            label(&block.block.rows[pair.row], pair.row),
+            label(&block.block.columns[pair.column], pair.column)
+        );
+        if pd.kind == RequestKind::Element {
+            let name = names.fresh(&format!("{base} h {which}"));
+            let h = (pd.clone(), None);
+            units.push((pair.request.clone(), h.clone(), function(program, symbols, &h, name, needs)?));
+        }
+        let (overlap_request, overlap) = super::overlap_of(&pair.request, pd);
+        let name = names.fresh(&format!("{base} s {which}"));
+        let s = (overlap, None);
+        units.push((overlap_request, s.clone(), function(program, symbols, &s, name, needs)?));
+    }
+    let name = names.fresh(&base);
+    let assembled = (d.kind != RequestKind::Roots)
+        .then(|| assembled(program, symbols, request, d, block, &units, name.clone()))
+        .transpose()?;
+    Ok(Emitted { name, text: d.text.clone(), units, assembled })
+}
+
+/// For free coefficients: the function of the coefficients that assembles the request from
+/// the pair functions in `units` (each pair's <f|H|g>, if it has one, then its <f|g>).
+fn assembled(
+    program: &Program,
+    symbols: &Symbols,
+    request: &Request,
+    d: &Derivation,
+    block: &crate::engine::block_derivation::BlockDerivation,
+    units: &[(Request, Checked, Function)],
+    name: String,
+) -> Result<Assembled> {
+    let coefficients = block.block.coefficients();
+    let expressions: Vec<&Expr> = block.pairs.iter().flat_map(|p| [&p.value, &p.overlap]).collect();
+    let parameters = Parameters::of(&expressions);
+    let names = parameter_names(symbols, &parameters);
+    let coefficient_names: Vec<&str> =
+        coefficients.iter().map(|&c| symbols.coefficients[c as usize].as_str()).collect();
+    let signature: Vec<&str> = ["h", "eri"]
+        .into_iter()
+        .chain(coefficient_names.iter().copied())
+        .chain(names.iter().map(String::as_str))
+        .collect();
+    let mut code = String::new();
+    let _ = writeln!(code, "def {name}({}):", signature.join(", "));
+    let (what, constant) = match d.kind {
+        RequestKind::Energy => (
+            format!("The energy <{0}|H|{0}> / <{0}|{0}>", d.bra),
+            "Electronic part: add the constant energy for the total.",
+        ),
+        RequestKind::Overlap => (format!("The overlap <{}|{}>", d.bra, d.ket), ""),
+        _ => (
+            format!("The Hamiltonian matrix element <{}|H|{}>", d.bra, d.ket),
+            "Electronic part: add the constant energy times the overlap for the total.",
+        ),
+    };
+    let _ = writeln!(
+        code,
+        "    \"\"\"{} at values of its free coefficients, for `{}`.\n",
+        docstring_safe(&what),
+        docstring_safe(&d.text)
+    );
+    let _ = writeln!(code, "    Assembled from the functions of its pairs above. {constant}");
+    let _ = writeln!(code, "    {}: the free coefficients (floats).", coefficient_names.join(", "));
+    let _ = writeln!(code, "    \"\"\"");
+    let mut sums = [vec![], vec![]];
+    let mut functions = units.iter().map(|(_, _, f)| f);
+    for pair in &block.block.pairs {
+        let product: Vec<&str> =
+            [block.block.rows[pair.row].coefficient, block.block.columns[pair.column].coefficient]
+                .into_iter()
+                .flatten()
+                .map(|c| symbols.coefficients[c as usize].as_str())
+                .collect();
+        let weight = if block.block.symmetric && pair.row != pair.column { "2.0 * " } else { "" };
+        let factor = format!("{weight}{}", product.iter().map(|c| format!("{c} * ")).collect::<String>());
+        let mut calls = vec![];
+        if d.kind != RequestKind::Overlap {
+            calls.push((0, functions.next().expect("a function per pair value")));
+        }
+        calls.push((1, functions.next().expect("a function per pair overlap")));
+        for (sum, f) in calls {
+            // an element needs no overlap: the constant times <X|Y> is the caller's
+            if sum == 1 && d.kind == RequestKind::Element {
+                continue;
+            }
+            let arguments: String =
+                parameter_names(symbols, &f.parameters).iter().map(|n| format!(", {n}={n}")).collect();
+            sums[sum].push(format!("{factor}{}(h, eri{arguments})", f.name));
+        }
+    }
+    for (k, target) in ["_value", "_overlap"].into_iter().enumerate() {
+        if sums[k].is_empty() {
+            continue;
+        }
+        let _ = writeln!(code, "    {target} = 0.0");
+        for term in &sums[k] {
+            let _ = writeln!(code, "    {target} += {term}");
+        }
+    }
+    let _ = writeln!(
+        code,
+        "    return {}",
+        match d.kind {
+            RequestKind::Energy => "_value / _overlap",
+            RequestKind::Overlap => "_overlap",
+            _ => "_value",
+        }
+    );
+    let (values, vectors) = match super::assembled_test(request, d, block) {
+        Some((values, at_request, at)) => {
+            let vectors = test_vectors(program, &at_request, &at)?;
+            (values, vectors.into_iter().filter(|v| v.source == "brute force").collect())
+        }
+        None => (BTreeMap::new(), vec![]),
+    };
+    Ok(Assembled { function: Function { name, parameters, code }, coefficients, values, vectors })
 }
 
 /// One generated function with what its test needs to call it.
@@ -484,7 +652,7 @@ fn function(
     let request = docstring_safe(&d.text);
     let summary = match d.kind {
         RequestKind::Energy => format!("The energy {meaning}, electronic part, for `{request}`."),
-        RequestKind::Element => {
+        RequestKind::Element | RequestKind::Roots => {
             format!("The Hamiltonian matrix element {meaning}, electronic part, for `{request}`.")
         }
         RequestKind::Overlap => format!("The overlap {meaning}, for `{request}`."),
@@ -740,24 +908,50 @@ fn s_z_expected(program: &Program, request: &Request, d: &Derivation, v: &TestVe
     Ok(evaluate(&d.s_z, &v.binding, &ints))
 }
 
-fn test_function(
-    program: &Program,
-    symbols: &Symbols,
-    request: &Request,
-    checked: &Checked,
-    f: &Function,
-) -> Result<String> {
-    let d = &checked.0;
-    let vectors = test_vectors(program, request, d)?;
+/// The one test function of a request: every function it became, at every test vector.
+fn test_function(program: &Program, symbols: &Symbols, e: &Emitted) -> Result<String> {
     let mut out = String::new();
-    let _ = writeln!(out, "def test_{}():", f.name);
+    let _ = writeln!(out, "def test_{}():", e.name);
     let _ = writeln!(
         out,
         "    \"\"\"`{}` at every test vector, against values spinfold computed on the test integrals.\"\"\"",
-        docstring_safe(&d.text)
+        docstring_safe(&e.text)
     );
+    for (request, (d, _), f) in &e.units {
+        let vectors = test_vectors(program, request, d)?;
+        let spin = (d.kind == RequestKind::Spin).then_some((request, d));
+        out.push_str(&test_calls(program, symbols, f, &vectors, "", spin)?);
+    }
+    if let Some(a) = &e.assembled {
+        let values: String = a
+            .coefficients
+            .iter()
+            .map(|c| {
+                format!(
+                    ", {}={}",
+                    symbols.coefficients[*c as usize],
+                    float_literal(a.values[c].to_f64_rounded())
+                )
+            })
+            .collect();
+        out.push_str(&test_calls(program, symbols, &a.function, &a.vectors, &values, None)?);
+    }
+    Ok(out)
+}
+
+/// Calls of `f` at every vector (`extra`: arguments given before the vector's), checked; for
+/// a `spin` request (`spin`: it and its derivation) both <S²> and <S_z>.
+fn test_calls(
+    program: &Program,
+    symbols: &Symbols,
+    f: &Function,
+    vectors: &[TestVector],
+    extra: &str,
+    spin: Option<(&Request, &Derivation)>,
+) -> Result<String> {
+    let mut out = String::new();
     if vectors.is_empty() {
-        let _ = writeln!(out, "    # no test vector: the state vanishes at every one tried");
+        let _ = writeln!(out, "    # {}: no test vector, the state vanishes at every one tried", f.name);
         return Ok(out);
     }
     // with spaces, every vector in each arrangement of their members (see _arranged)
@@ -773,11 +967,11 @@ fn test_function(
         }
         None => "    ",
     };
-    for v in &vectors {
+    for v in vectors {
         let args = call_arguments(symbols, &f.parameters, v)?;
         let _ = writeln!(out, "{indent}# {}, {} orbitals", comment_safe(v.source), v.orbitals);
-        let call = format!("{}(*_hashed_integrals({}){args})", f.name, v.orbitals);
-        if d.kind == RequestKind::Spin {
+        let call = format!("{}(*_hashed_integrals({}){extra}{args})", f.name, v.orbitals);
+        if let Some((request, d)) = spin {
             let s_z = s_z_expected(program, request, d, v)?;
             let _ = writeln!(out, "{indent}_s_squared, _s_z = {call}");
             let _ = writeln!(out, "{indent}_check(_s_squared, {})", float_literal(v.expected));
@@ -827,14 +1021,13 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
     let symbols = Symbols::new(program);
     let mut names = Identifiers::new(KEYWORDS, RESERVED);
     let mut needs = Needs::default();
-    let functions = derivations
+    let emitted = program
+        .requests
         .iter()
+        .zip(derivations)
         .enumerate()
-        .map(|(k, checked)| {
-            let name = function_name(&mut names, &checked.0, k + 1);
-            function(program, &symbols, checked, name, &mut needs)
-        })
-        .collect::<Result<Vec<Function>>>()?;
+        .map(|(k, unit)| emitted(program, &symbols, unit, &mut names, k + 1, &mut needs))
+        .collect::<Result<Vec<Emitted>>>()?;
 
     let mut out = module_docstring(program);
     for (needed, helper) in [
@@ -849,7 +1042,10 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
             out.push_str(helper);
         }
     }
-    for f in &functions {
+    let functions = emitted
+        .iter()
+        .flat_map(|e| e.units.iter().map(|(_, _, f)| f).chain(e.assembled.iter().map(|a| &a.function)));
+    for f in functions {
         out.push_str("\n\n");
         out.push_str(&f.code);
     }
@@ -858,10 +1054,10 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
     out.push_str(&hashed_integrals_code());
     out.push_str(&hashed_samples());
     let mut tests = vec!["test_hashed_integrals".to_string()];
-    for ((request, checked), f) in program.requests.iter().zip(derivations).zip(&functions) {
+    for e in &emitted {
         out.push_str("\n\n");
-        out.push_str(&test_function(program, &symbols, request, checked, f)?);
-        tests.push(format!("test_{}", f.name));
+        out.push_str(&test_function(program, &symbols, e)?);
+        tests.push(format!("test_{}", e.name));
     }
     out.push_str("\n\nif __name__ == \"__main__\":\n    _tests = [\n");
     for t in &tests {

@@ -3,11 +3,13 @@
 
 use super::{Group, Identifiers, Namer, TEST_SEED, groups, test_vectors};
 use crate::check::verify::Checked;
+use crate::engine::block_derivation::BlockDerivation;
+use crate::engine::derive::Derivation;
 use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, Factor, IntegralKind};
 use crate::error::Result;
 use crate::language::orbital::{Orb, SpaceId, SpaceSet};
-use crate::language::program::{Program, RequestKind};
+use crate::language::program::{Program, Request, RequestKind};
 use std::fmt::Write;
 
 const KEYWORDS: &[&str] = &[
@@ -30,12 +32,16 @@ struct Signature {
 }
 
 impl Signature {
-    fn new(program: &Program, expr: &Expr, name: String) -> Signature {
-        let mut local = Identifiers::new(KEYWORDS, RESERVED);
-        let orbitals = expr.free_orbs().into_iter().map(|o| (o, local.fresh(&program.orb_name(o)))).collect();
-        let mut spaces: Vec<SpaceId> = expr
-            .terms
+    /// The signature of a function computing these expressions; `coefficients` are taken first
+    /// (by name, as `f64`), reserving their names.
+    fn new(program: &Program, expressions: &[&Expr], name: String, local: &mut Identifiers) -> Signature {
+        let mut orbs: Vec<Orb> = expressions.iter().flat_map(|e| e.free_orbs()).collect();
+        orbs.sort();
+        orbs.dedup();
+        let orbitals = orbs.into_iter().map(|o| (o, local.fresh(&program.orb_name(o)))).collect();
+        let mut spaces: Vec<SpaceId> = expressions
             .iter()
+            .flat_map(|e| &e.terms)
             .flat_map(|t| {
                 let closed = match t.factor {
                     Factor::Fock(_, _, c) | Factor::RefEnergy(c) => c.members(),
@@ -48,6 +54,33 @@ impl Signature {
         spaces.dedup();
         let spaces = spaces.into_iter().map(|s| (s, local.fresh(&program.spaces[s as usize].name))).collect();
         Signature { name, orbitals, spaces }
+    }
+
+    /// The arguments of a call to `callee` from a function with this signature.
+    fn arguments_for(&self, callee: &Signature) -> Vec<String> {
+        let orbitals = callee.orbitals.iter().map(|(o, _)| self.orbital(*o).to_string());
+        let spaces = callee.spaces.iter().map(|(s, _)| self.space(*s).to_string());
+        std::iter::once("ints".to_string()).chain(orbitals).chain(spaces).collect()
+    }
+
+    /// Arguments from a test vector's binding: `&Hashed`, then orbital numbers and spaces.
+    fn test_arguments(&self, binding: &crate::numbers::evaluate::Binding) -> Vec<String> {
+        let mut arguments = vec!["&Hashed".to_string()];
+        arguments.extend(self.orbitals.iter().map(|(o, _)| {
+            match *o {
+                Orb::Named(x) => binding.orbitals[x as usize],
+                Orb::Index(x) => binding.indices[x as usize].unwrap_or(0),
+                Orb::Summed(_) => 0,
+            }
+            .to_string()
+        }));
+        arguments.extend(self.spaces.iter().map(|(s, _)| {
+            format!(
+                "&[{}]",
+                binding.spaces[*s as usize].iter().map(|m| m.to_string()).collect::<Vec<_>>().join(", ")
+            )
+        }));
+        arguments
     }
 
     fn orbital(&self, o: Orb) -> &str {
@@ -256,8 +289,13 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
         program.source.name.replace(['\n', '\r'], " ")
     );
     out.push_str(PREAMBLE);
-    let uses =
-        |kind: IntegralKind| derivations.iter().any(|(d, _)| d.value.terms.iter().any(|t| t.kind() == kind));
+    let uses = |kind: IntegralKind| {
+        derivations
+            .iter()
+            .flat_map(|(d, _)| super::expressions(d))
+            .flat_map(|e| &e.terms)
+            .any(|t| t.kind() == kind)
+    };
     if uses(IntegralKind::Fock) {
         out.push_str(FOCK);
     }
@@ -272,57 +310,49 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
         } else {
             vec![&d.bra, &d.ket]
         };
-        let name = names.fresh(&function_name(d.kind, &operands, n + 1));
-        let sig = Signature::new(program, &d.value, name);
-        let namer = Namer::new(program, &[&d.value]);
-        out.push('\n');
-        writeln!(out, "/// `{}`: {}.", d.text.replace('`', "'"), meaning(d.kind)).ok();
-        out.push_str("///\n/// ```text\n");
-        let formula = super::text::render(program, std::slice::from_ref(&(d.clone(), None)), true);
-        for line in formula.lines().skip(1).filter(|l| !l.contains("not verified")) {
-            writeln!(out, "/// {}", line.trim_end()).ok();
+        let base = function_name(d.kind, &operands, n + 1);
+        let Some(block) = &d.block else {
+            let name = names.fresh(&base);
+            function(program, request, d, name, &mut out, &mut tests)?;
+            continue;
+        };
+        let mut callees = vec![];
+        for (pair, pd) in block.block.pairs.iter().zip(&block.pairs) {
+            let label = |f: &crate::language::block::Function, k: usize| match (d.kind, f.coefficient) {
+                (RequestKind::Roots, _) => (k + 1).to_string(),
+                (_, Some(c)) => program.coefficients[c as usize].name.clone(),
+                (_, None) => "fixed".into(),
+            };
+            let which = format!(
+                "{}_{}",
+                label(&block.block.rows[pair.row], pair.row),
+                label(&block.block.columns[pair.column], pair.column)
+            );
+            let h = (pd.kind == RequestKind::Element)
+                .then(|| {
+                    function(
+                        program,
+                        &pair.request,
+                        pd,
+                        names.fresh(&format!("{base}_h_{which}")),
+                        &mut out,
+                        &mut tests,
+                    )
+                })
+                .transpose()?;
+            let (overlap_request, overlap) = super::overlap_of(&pair.request, pd);
+            let s = function(
+                program,
+                &overlap_request,
+                &overlap,
+                names.fresh(&format!("{base}_s_{which}")),
+                &mut out,
+                &mut tests,
+            )?;
+            callees.push((h, s));
         }
-        out.push_str("/// ```\n");
-        let uses_integrals = d.value.terms.iter().any(|t| t.factor != Factor::One);
-        let parameters = sig.parameters(uses_integrals);
-        if parameters.len() > 7 {
-            out.push_str("#[allow(clippy::too_many_arguments)]\n");
-        }
-        out.push_str(&header(&sig.name, &parameters));
-        if d.value.is_zero() {
-            out.push_str("    0.0\n}\n");
-        } else {
-            out.push_str("    let mut value = 0.0;\n");
-            for group in groups(&d.value) {
-                group_code(&group, &namer, &sig, &mut out);
-            }
-            out.push_str("    value\n}\n");
-        }
-        for (k, v) in test_vectors(program, request, d)?.iter().enumerate() {
-            let mut arguments = vec!["&Hashed".to_string()];
-            arguments.extend(sig.orbitals.iter().map(|(o, _)| {
-                match *o {
-                    Orb::Named(x) => v.binding.orbitals[x as usize],
-                    Orb::Index(x) => v.binding.indices[x as usize].unwrap_or(0),
-                    Orb::Summed(_) => 0,
-                }
-                .to_string()
-            }));
-            arguments.extend(sig.spaces.iter().map(|(s, _)| {
-                format!(
-                    "&[{}]",
-                    v.binding.spaces[*s as usize]
-                        .iter()
-                        .map(|m| m.to_string())
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                )
-            }));
-            write!(tests, "\n    #[test]\n    fn check_{}_{}() {{\n", sig.name, k + 1).ok();
-            writeln!(tests, "        // expected value: {}", v.source).ok();
-            writeln!(tests, "        let derived = {};", call(&sig.name, &arguments, 8)).ok();
-            writeln!(tests, "        assert!(close(derived, {:?}), \"{{derived}}\");", v.expected).ok();
-            tests.push_str("    }\n");
+        if d.kind != RequestKind::Roots {
+            assembled(program, request, d, block, &callees, names.fresh(&base), &mut out, &mut tests)?;
         }
     }
     out.push_str(TEST_PREAMBLE.replace("SEED", &format!("0x{TEST_SEED:x}")).as_str());
@@ -331,10 +361,147 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
     Ok(out)
 }
 
+/// One function for one derivation (its value), with its tests; returns its signature.
+fn function(
+    program: &Program,
+    request: &Request,
+    d: &Derivation,
+    name: String,
+    out: &mut String,
+    tests: &mut String,
+) -> Result<Signature> {
+    let sig = Signature::new(program, &[&d.value], name, &mut Identifiers::new(KEYWORDS, RESERVED));
+    let namer = Namer::new(program, &[&d.value]);
+    out.push('\n');
+    writeln!(out, "/// `{}`: {}.", d.text.replace('`', "'"), meaning(d.kind)).ok();
+    out.push_str("///\n/// ```text\n");
+    let formula = super::text::render(program, std::slice::from_ref(&(d.clone(), None)), true);
+    for line in formula.lines().skip(1).filter(|l| !l.contains("not verified")) {
+        writeln!(out, "/// {}", line.trim_end()).ok();
+    }
+    out.push_str("/// ```\n");
+    let uses_integrals = d.value.terms.iter().any(|t| t.factor != Factor::One);
+    let parameters = sig.parameters(uses_integrals);
+    if parameters.len() > 7 {
+        out.push_str("#[allow(clippy::too_many_arguments)]\n");
+    }
+    out.push_str(&header(&sig.name, &parameters));
+    if d.value.is_zero() {
+        out.push_str("    0.0\n}\n");
+    } else {
+        out.push_str("    let mut value = 0.0;\n");
+        for group in groups(&d.value) {
+            group_code(&group, &namer, &sig, out);
+        }
+        out.push_str("    value\n}\n");
+    }
+    for (k, v) in test_vectors(program, request, d)?.iter().enumerate() {
+        test(tests, &sig.name, k + 1, v.source, &sig.test_arguments(&v.binding), v.expected);
+    }
+    Ok(sig)
+}
+
+fn test(tests: &mut String, name: &str, number: usize, source: &str, arguments: &[String], expected: f64) {
+    write!(tests, "\n    #[test]\n    fn check_{name}_{number}() {{\n").ok();
+    writeln!(tests, "        // expected value: {source}").ok();
+    writeln!(tests, "        let derived = {};", call(name, arguments, 8)).ok();
+    writeln!(tests, "        assert!(close(derived, {expected:?}), \"{{derived}}\");").ok();
+    tests.push_str("    }\n");
+}
+
+/// For free coefficients: the function of the coefficients that assembles the request from the
+/// pair functions (`callees`: each pair's <f|H|g> function, if it has one, and its <f|g>), tested at
+/// one set of coefficient values against brute force on the state they make.
+#[allow(clippy::too_many_arguments)]
+fn assembled(
+    program: &Program,
+    request: &Request,
+    d: &Derivation,
+    block: &BlockDerivation,
+    callees: &[(Option<Signature>, Signature)],
+    name: String,
+    out: &mut String,
+    tests: &mut String,
+) -> Result<()> {
+    let used = block.block.coefficients();
+    let mut local = Identifiers::new(KEYWORDS, RESERVED);
+    let coefficients: Vec<String> =
+        used.iter().map(|&c| local.fresh(&program.coefficients[c as usize].name)).collect();
+    let expressions: Vec<&Expr> = block.pairs.iter().flat_map(|p| [&p.value, &p.overlap]).collect();
+    let sig = Signature::new(program, &expressions, name, &mut local);
+    let coefficient =
+        |c: Option<u32>| c.map(|c| coefficients[used.iter().position(|&u| u == c).expect("used")].clone());
+    out.push('\n');
+    let what = match d.kind {
+        RequestKind::Energy => {
+            format!("<{0}|H|{0}> / <{0}|{0}>, electronic part (add the constant energy)", d.bra)
+        }
+        RequestKind::Overlap => format!("<{}|{}>", d.bra, d.ket),
+        _ => format!("<{0}|H|{1}>, electronic part (add the constant times <{0}|{1}>)", d.bra, d.ket),
+    };
+    writeln!(
+        out,
+        "/// `{}` at values of its free coefficients: {}.",
+        d.text.replace('`', "'"),
+        what.replace('`', "'")
+    )
+    .ok();
+    writeln!(out, "///\n/// Assembled from the functions of its pairs above.").ok();
+    let mut parameters = vec!["ints: &I".to_string()];
+    parameters.extend(coefficients.iter().map(|c| format!("{c}: f64")));
+    parameters.extend(sig.parameters(true).into_iter().skip(1));
+    if parameters.len() > 7 {
+        out.push_str("#[allow(clippy::too_many_arguments)]\n");
+    }
+    out.push_str(&header(&sig.name, &parameters));
+    let mut sums = [String::new(), String::new()];
+    for ((pair, (h, s)), k) in block.block.pairs.iter().zip(callees).zip(1..) {
+        let product: Vec<String> =
+            [block.block.rows[pair.row].coefficient, block.block.columns[pair.column].coefficient]
+                .into_iter()
+                .filter_map(coefficient)
+                .collect();
+        let weight = if block.block.symmetric && pair.row != pair.column { "2.0 * " } else { "" };
+        let factor = format!("{weight}{}", product.iter().map(|c| format!("{c} * ")).collect::<String>());
+        // an element needs no overlap: the constant times <X|Y> is the caller's
+        let s = Some(s).filter(|_| d.kind != RequestKind::Element);
+        for (sum, callee, local) in [(0, h.as_ref(), "h"), (1, s, "s")] {
+            let Some(callee) = callee else { continue };
+            writeln!(out, "    let {local}_{k} = {};", call(&callee.name, &sig.arguments_for(callee), 4))
+                .ok();
+            sums[sum].push_str(&format!("    {} += {factor}{local}_{k};\n", ["value", "overlap"][sum]));
+        }
+    }
+    for (k, name) in ["value", "overlap"].into_iter().enumerate().filter(|(k, _)| !sums[*k].is_empty()) {
+        writeln!(out, "    let mut {name} = 0.0;").ok();
+        out.push_str(&sums[k]);
+    }
+    out.push_str(match d.kind {
+        RequestKind::Energy => "    value / overlap\n}\n",
+        RequestKind::Overlap => "    overlap\n}\n",
+        _ => "    value\n}\n",
+    });
+    if let Some((values, at_request, at)) = super::assembled_test(request, d, block) {
+        for (k, v) in test_vectors(program, &at_request, &at)?
+            .iter()
+            .enumerate()
+            .filter(|(_, v)| v.source == "brute force")
+        {
+            let mut arguments = sig.test_arguments(&v.binding);
+            let numbers = used.iter().map(|c| format!("{:?}", values[c].to_f64_rounded()));
+            arguments.splice(1..1, numbers);
+            test(tests, &sig.name, k + 1, v.source, &arguments, v.expected);
+        }
+    }
+    Ok(())
+}
+
 fn meaning(kind: RequestKind) -> &'static str {
     match kind {
         RequestKind::Energy => "the energy <X|H|X>/<X|X>, electronic part (add the constant energy)",
-        RequestKind::Element => "the matrix element <X|H|Y>, electronic part (add the constant times <X|Y>)",
+        RequestKind::Element | RequestKind::Roots => {
+            "the matrix element <X|H|Y>, electronic part (add the constant times <X|Y>)"
+        }
         RequestKind::Overlap => "the overlap <X|Y>",
         RequestKind::Spin => "the expectation value <S^2>",
     }

@@ -1,9 +1,10 @@
 //! The determinant expansion of every named state, as text or JSON: what a coupled state or a
 //! combination is made of, with exact coefficients, for inspection or for other programs.
 
+use crate::engine::exact::Exact;
 use crate::engine::exact::ExactDisplay;
 use crate::language::orbital::Spin;
-use crate::language::program::{DetSpec, Occupant, Program};
+use crate::language::program::{DetSpec, NamedState, Occupant, Program};
 use serde::Serialize;
 
 fn det_text(program: &Program, det: &DetSpec) -> String {
@@ -24,6 +25,21 @@ fn det_text(program: &Program, det: &DetSpec) -> String {
     out
 }
 
+/// A state's terms: (the free coefficient that multiplies it, if any, exact coefficient,
+/// determinant), the fixed part first.
+fn terms<'a>(program: &Program, s: &'a NamedState) -> Vec<(Option<String>, &'a Exact, &'a DetSpec)> {
+    match &s.free {
+        Some(linear) => linear
+            .functions()
+            .flat_map(|(c, part)| {
+                let name = c.map(|c| program.coefficients[c as usize].name.clone());
+                part.terms.iter().map(move |(x, det)| (name.clone(), x, det))
+            })
+            .collect(),
+        None => s.state.terms.iter().map(|(x, det)| (None, x, det)).collect(),
+    }
+}
+
 /// Every named state with its determinants, one per line.
 pub fn render_text(program: &Program) -> String {
     let mut out = String::new();
@@ -32,13 +48,16 @@ pub fn render_text(program: &Program) -> String {
             out.push_str(&format!("{}  (not expanded: {} determinants)\n", s.name, c.determinants));
             continue;
         }
-        out.push_str(&format!("{}  ({} determinant(s))\n", s.name, s.state.terms.len()));
-        for (c, det) in s.state.terms.iter() {
-            out.push_str(&format!(
-                "  {:>12}  {}\n",
-                ExactDisplay { value: c, ascii: true }.to_string(),
-                det_text(program, det)
-            ));
+        let terms = terms(program, s);
+        out.push_str(&format!("{}  ({} determinant(s))\n", s.name, terms.len()));
+        for (free, c, det) in terms {
+            let number = ExactDisplay { value: c, ascii: true }.to_string();
+            let coefficient = match free {
+                Some(name) if *c == Exact::one() => name,
+                Some(name) => format!("{number} {name}"),
+                None => number,
+            };
+            out.push_str(&format!("  {coefficient:>12}  {}\n", det_text(program, det)));
         }
     }
     out
@@ -57,6 +76,9 @@ struct OccupantOut {
 #[derive(Serialize)]
 struct DetOut {
     coefficient: super::json::CoefficientOut,
+    /// The free coefficient that multiplies `coefficient`, for a state with free coefficients.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    free: Option<String>,
     /// In creation order, as written.
     occupants: Vec<OccupantOut>,
     /// Applied after the occupants, in order; `from` and `to` as spin-orbital names.
@@ -85,12 +107,11 @@ pub fn render_json(program: &Program) -> String {
                     .map_or_else(|_| c.determinants.to_string().into(), serde_json::Value::from)
             }),
             name: s.name.clone(),
-            determinants: s
-                .state
-                .terms
-                .iter()
-                .map(|(c, det)| DetOut {
+            determinants: terms(program, s)
+                .into_iter()
+                .map(|(free, c, det)| DetOut {
                     coefficient: super::json::coefficient(c),
+                    free,
                     occupants: det
                         .occupants
                         .iter()

@@ -1,11 +1,16 @@
 //! The readable text form of derivations: Σ, δ, h_pq, J_pq, K_pq and (pq|rs), one group of
 //! terms per line, in Unicode or plain ASCII.
 
-use super::{Definitions, Group, Namer, groups, integral_parts, join_signed, verification_line};
+use super::{
+    Definitions, Group, Namer, Summand, groups, integral_parts, join_signed, monomial_text, summands,
+    verification_line,
+};
 use crate::check::verify::Report;
+use crate::engine::block_derivation::BlockDerivation;
 use crate::engine::derive::Derivation;
 use crate::engine::exact::{Exact, ExactDisplay};
 use crate::engine::expression::{Expr, Factor, IntegralKind};
+use crate::language::block::renaming_text;
 use crate::language::program::{Program, RequestKind};
 
 struct Style {
@@ -195,6 +200,9 @@ pub fn request_meaning(d: &Derivation) -> String {
         RequestKind::Element => format!("<{bra}|H|{ket}>"),
         RequestKind::Overlap => format!("<{bra}|{ket}>"),
         RequestKind::Spin => format!("<S^2> and <S_z> of {bra}"),
+        RequestKind::Roots => {
+            return format!("the elements of H and the overlaps among the members of {}", d.bra);
+        }
     };
     if inline(&d.bra) {
         out.push_str(&format!(", {bra} = {}", d.bra));
@@ -213,9 +221,12 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], a
         if k > 0 {
             out.push('\n');
         }
-        let namer = Namer::new(program, &[&d.value]);
+        let expressions = super::expressions(d);
+        let namer = Namer::new(program, &expressions);
         out.push_str(&format!("{}    {}\n", d.text, request_meaning(d)));
-        if d.kind == RequestKind::Spin {
+        if let Some(block) = &d.block {
+            out.push_str(&block_lines(program, d, block, &style));
+        } else if d.kind == RequestKind::Spin {
             for (label, expr) in [("<S^2>", &d.value), ("<S_z>", &d.s_z)] {
                 for (k, line) in expression_lines(expr, &namer, &style).iter().enumerate() {
                     let lead = if k == 0 { label } else { "     " };
@@ -227,17 +238,113 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], a
                 out.push_str(&format!("  {line}\n"));
             }
         }
-        let legend = definitions(d, &namer, Definitions::used_in(&d.value), ascii);
+        let legend = definitions(d, &namer, Definitions::used_in(&expressions), ascii);
         if !legend.is_empty() {
             let legend: Vec<String> = legend.into_iter().map(|(_, text)| text).collect();
             out.push_str(&format!("  with {}\n", legend.join(" and ")));
         }
         // notes are plain ASCII as the engine writes them, fit for either style
-        for note in &d.notes {
+        for note in super::notes(d) {
             let note = if note.starts_with("warning:") { note.clone() } else { format!("note: {note}") };
             out.push_str(&format!("  {note}\n"));
         }
         out.push_str(&format!("  {}\n", verification_line(report.as_ref())));
+    }
+    out
+}
+
+/// `lhs = n1 m1 (e1) + n2 m2 (e2) …`: a form in the free coefficients. A summand whose
+/// expression fits one short line stands inline in parentheses; a longer one opens a
+/// parenthesis on its line, its expression follows indented, and the parenthesis closes at the
+/// start of the next line.
+fn form_lines(lhs: &str, summands: &[Summand], namer: &Namer, style: &Style) -> Vec<String> {
+    let square = |name: &str| if style.ascii { format!("{name}^2") } else { format!("{name}²") };
+    let mut lines = vec![];
+    let mut current = format!("{lhs} =");
+    if summands.is_empty() {
+        current.push_str(" 0");
+    }
+    for (k, s) in summands.iter().enumerate() {
+        let monomial = monomial_text(&s.coefficients, &square, " ");
+        let negative = s.expr.is_none() && s.number.is_negative();
+        let connector = match (k, negative) {
+            (0, false) => " ".to_string(),
+            (0, true) => format!(" {}", style.minus()),
+            (_, false) => " + ".to_string(),
+            (_, true) => format!(" {} ", style.minus()),
+        };
+        current.push_str(&connector);
+        let body = if monomial.is_empty() { "1".to_string() } else { monomial.clone() };
+        let Some(expr) = s.expr else {
+            current.push_str(&magnitude_times(&s.number, &body, style));
+            continue;
+        };
+        let head = if monomial.is_empty() {
+            String::new()
+        } else {
+            magnitude_times(&s.number, &monomial, style) + " "
+        };
+        let expression = expression_lines(expr, namer, style);
+        let inline = expression[0].trim_start_matches("= ");
+        if expression.len() == 1 && inline.chars().count() <= 40 {
+            current.push_str(&format!("{head}({inline})"));
+            continue;
+        }
+        current.push_str(&format!("{head}("));
+        lines.push(std::mem::take(&mut current));
+        for line in expression {
+            let line = match line.strip_prefix("= ") {
+                Some(first) => format!("  {first}"),
+                None => line,
+            };
+            lines.push(format!("    {line}"));
+        }
+        current = ")".to_string();
+    }
+    lines.push(current);
+    lines
+}
+
+/// The lines of a request on pairs of functions. Free coefficients: the value and the overlap
+/// as forms in the coefficients. `roots`: every pair, <f|H|g> with its expression and <f|g>.
+fn block_lines(program: &Program, d: &Derivation, block: &BlockDerivation, style: &Style) -> String {
+    let mut out = String::new();
+    if d.kind == RequestKind::Roots {
+        for (pair, pd) in block.block.pairs.iter().zip(&block.pairs) {
+            let namer = Namer::new(program, &[&pd.value, &pd.overlap]);
+            let renamed = renaming_text(program, &pair.renamed);
+            out.push_str(&format!("  <{}|H|{}>{renamed}\n", pd.bra, pd.ket));
+            for line in expression_lines(&pd.value, &namer, style) {
+                out.push_str(&format!("    {line}\n"));
+            }
+            let overlap = expression_lines(&pd.overlap, &namer, style);
+            out.push_str(&format!("  <{}|{}> {}\n", pd.bra, pd.ket, overlap[0]));
+            for line in &overlap[1..] {
+                out.push_str(&format!("    {line}\n"));
+            }
+        }
+        return out;
+    }
+    let monomials = block.monomials();
+    let expressions: Vec<&Expr> = monomials.iter().flat_map(|m| [&m.value, &m.overlap]).collect();
+    let namer = Namer::new(program, &expressions);
+    let (bra, ket) = (&d.bra, &d.ket);
+    let mut forms = vec![];
+    match d.kind {
+        RequestKind::Energy => {
+            forms.push((format!("<{bra}|H|{bra}>"), false));
+            forms.push((format!("<{bra}|{bra}>"), true));
+        }
+        RequestKind::Overlap => forms.push((format!("<{bra}|{ket}>"), false)),
+        _ => {
+            forms.push((format!("<{bra}|H|{ket}>"), false));
+            forms.push((format!("<{bra}|{ket}>"), true));
+        }
+    }
+    for (lhs, overlap) in forms {
+        for line in form_lines(&lhs, &summands(program, &monomials, overlap), &namer, style) {
+            out.push_str(&format!("  {line}\n"));
+        }
     }
     out
 }

@@ -1,6 +1,7 @@
 //! The expander: a request becomes an exact expression in spatial integrals, derived case by
 //! case over index coincidences and assembled with Kronecker deltas.
 
+use crate::engine::block_derivation::BlockDerivation;
 use crate::engine::coincidence::{self, Case};
 use crate::engine::determinant::{CaseDet, Vanishing};
 use crate::engine::exact::Exact;
@@ -12,6 +13,7 @@ use crate::error::{Error, ErrorKind, Result};
 use crate::language::orbital::{Orb, SpaceId, SpaceSet};
 use crate::language::program::{Coupling, Program, Request, RequestKind, State, Symbols};
 use std::collections::{BTreeMap, BTreeSet};
+use std::sync::Arc;
 
 /// How derivations are carried out.
 #[derive(Clone, Debug)]
@@ -80,6 +82,9 @@ pub struct Derivation {
     pub closed: SpaceSet,
     /// Derived assuming different generic indices are different orbitals.
     pub distinct: bool,
+    /// For a request on pairs of functions (free coefficients, `roots`): every pair derived;
+    /// `value`, `overlap` and `s_z` are then empty, and the pairs hold the result.
+    pub block: Option<Arc<BlockDerivation>>,
 }
 
 impl Derivation {
@@ -241,6 +246,7 @@ pub fn check_definition(
         bra_text: name.to_string(),
         ket_text: name.to_string(),
         span: span.clone(),
+        block: None,
     };
     derive(program, &request, &Options { distinct: true, ..Options::default() }).map(|_| ())
 }
@@ -349,7 +355,8 @@ fn case_channels(
     let zero_norm = || Error::at(ErrorKind::ZeroNorm { state: request.bra_text.clone() }, &request.span);
     Ok(match request.kind {
         RequestKind::Overlap => [Some(s.clone()), Some(s), None],
-        RequestKind::Element => {
+        // a `roots` request reaches here only through its pairs, which are elements
+        RequestKind::Element | RequestKind::Roots => {
             [Some(slater_condon::hamiltonian(&bra_bits, ket_bits, &universe, &closed)), Some(s), None]
         }
         RequestKind::Energy => match slater_condon::overlap(&bra_bits, &bra_bits).inverse() {
@@ -411,6 +418,9 @@ impl Mobius {
 
 /// Derives one request.
 pub fn derive(program: &Program, request: &Request, options: &Options) -> Result<Derivation> {
+    if let Some(block) = &request.block {
+        return crate::engine::block_derivation::derive_block(program, request, block, options);
+    }
     if let Some(coupling) = wants_spin_algebra(request, options) {
         return by_spin_algebra(program, request, coupling, options);
     }
@@ -461,5 +471,6 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         free_indices: all_indices.into_iter().collect(),
         closed: closed_set,
         distinct: options.distinct,
+        block: None,
     })
 }

@@ -1,6 +1,7 @@
 //! The engine: exact numbers, determinants in each coincidence case of the generic indices,
 //! the Slater–Condon rules, spin integration, spin coupling, and the expander that joins them.
 
+pub mod block_derivation;
 pub mod bounds;
 pub mod coincidence;
 pub mod coupling;

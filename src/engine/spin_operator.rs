@@ -128,5 +128,6 @@ pub fn coupled_spin(program: &Program, request: &Request, options: &Options) -> 
         free_indices: indices.into_iter().collect(),
         closed: SpaceSet::of(&closed),
         distinct: options.distinct,
+        block: None,
     })
 }

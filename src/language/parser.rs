@@ -3,13 +3,15 @@
 
 use crate::engine::coupling::{Twice, determinant_count, expanded, half, path_count, path_problem, paths};
 use crate::engine::derive::check_definition;
+use crate::engine::derive::{Options, derive};
 use crate::engine::exact::Exact;
 use crate::engine::spin_adapted_excitation::excited_shells;
 use crate::error::{Change, Error, ErrorKind, Limit, Result, STATEMENTS, Source, Span};
+use crate::language::block::Block;
 use crate::language::orbital::{Orb, Spin, SpinOrbital};
 use crate::language::program::{
-    Coupling, DetSpec, Excitation, Index, NamedState, Occupant, Orbital, Program, Request, RequestKind,
-    Shells, Space, State,
+    Coefficient, Coupling, DetSpec, Excitation, Index, Linear, NamedState, Occupant, Orbital, Program,
+    Request, RequestKind, Shells, Space, State,
 };
 use num_bigint::{BigInt, BigUint};
 use num_rational::BigRational;
@@ -32,12 +34,16 @@ enum Symbol {
     State(u32),
     /// `csfs X`: the coupled states X.1 .. X.count
     Family(u32),
+    /// A free coefficient.
+    Coefficient(u32),
 }
 
-/// A piece of a state expression: either a number or a state.
+/// A piece of a state expression: a number, a number times a free coefficient, or a state
+/// (linear in its free coefficients).
 enum Value {
     Number(Exact),
-    State(State),
+    Free(Exact, u32),
+    State(Linear),
 }
 
 /// Parses an input text, reported under `name` in errors.
@@ -57,15 +63,25 @@ pub fn parse_with(name: &str, text: &str, limits: Limits) -> Result<Program> {
             orbitals: vec![],
             spaces: vec![],
             indices: vec![],
+            coefficients: vec![],
             states: vec![],
             requests: vec![],
         },
         symbols: HashMap::new(),
         limits,
         deferred: BTreeSet::new(),
+        roots: vec![],
     };
     for statement in file.into_inner() {
         resolver.statement(statement)?;
+    }
+    // the pairs of a `roots` space are made once every name is declared, so that the indices
+    // generated to rename them apart clash with none
+    for (k, operands) in std::mem::take(&mut resolver.roots) {
+        let request = &resolver.program.requests[k];
+        let (text, span) = (request.text.clone(), request.span.clone());
+        let block = Block::roots(&mut resolver.program, &text, &span, operands);
+        resolver.program.requests[k].block = Some(Arc::new(block));
     }
     if limits.expand_unused {
         let deferred: Vec<u32> = resolver.deferred.iter().copied().collect();
@@ -99,6 +115,7 @@ fn describe(rule: &Rule) -> String {
         Rule::file
         | Rule::kw_orbitals
         | Rule::kw_space
+        | Rule::kw_coefficients
         | Rule::kw_det
         | Rule::kw_state
         | Rule::kw_csf
@@ -141,6 +158,8 @@ struct Resolver {
     /// Members of `csfs` families that nothing has used yet: only their couplings are kept,
     /// and each is expanded into determinants when a request or definition first names it.
     deferred: BTreeSet<u32>,
+    /// `roots` requests (their position) with their operands, made into blocks at the end.
+    roots: Vec<(usize, Vec<(State, String)>)>,
 }
 
 /// The most open shells a coupled state is expanded into determinants for: past it the
@@ -254,6 +273,7 @@ impl Resolver {
             Symbol::State(k) if self.program.states[k as usize].is_determinant => "a determinant",
             Symbol::State(_) => "a state",
             Symbol::Family(_) => "a family of coupled states",
+            Symbol::Coefficient(_) => "a free coefficient",
         };
         Error::at(
             ErrorKind::WrongKind { name: pair.as_str().into(), is: is.into(), wanted: wanted.into() },
@@ -268,6 +288,7 @@ impl Resolver {
         match rule {
             Rule::orbitals_stmt => self.orbitals(inner),
             Rule::space_stmt => self.space(inner),
+            Rule::coefficients_stmt => self.coefficients(inner),
             Rule::det_stmt | Rule::state_stmt => self.definition(rule == Rule::det_stmt, inner),
             Rule::csf_stmt => self.csf(span, inner),
             Rule::request_stmt => self.request(span, inner),
@@ -303,76 +324,182 @@ impl Resolver {
         Ok(())
     }
 
-    /// `det X = ...` (one determinant) and `state X = ...` (a combination).
+    /// `coefficients cg cu`
+    fn coefficients(&mut self, inner: Pairs<Rule>) -> Result<()> {
+        for name in inner.skip(1) {
+            let id = self.program.coefficients.len() as u32;
+            self.declare(&name, Symbol::Coefficient(id))?;
+            self.program
+                .coefficients
+                .push(Coefficient { name: name.as_str().into(), span: self.span(&name) });
+        }
+        Ok(())
+    }
+
+    fn coefficient_name(&self, c: u32) -> String {
+        self.program.coefficients[c as usize].name.clone()
+    }
+
+    /// The free coefficients of a state, as `cg, cu`.
+    fn coefficient_names(&self, state: &Linear) -> String {
+        state.parts.iter().map(|&(c, _)| self.coefficient_name(c)).collect::<Vec<_>>().join(", ")
+    }
+
+    /// `det X = ...` (one determinant) and `state X = ...` (a combination, possibly with free
+    /// coefficients).
     fn definition(&mut self, is_determinant: bool, mut inner: Pairs<Rule>) -> Result<()> {
         inner.next();
         let name = inner.next().expect("grammar: state name");
         let value = inner.next().expect("grammar: state value");
         self.expand_used(&value);
         let value_span = self.span(&value);
-        let state = match self.value(value)? {
+        let free_in_det = |coefficients: String| {
+            Error::at(ErrorKind::FreeInDeterminant { det: name.as_str().into(), coefficients }, &value_span)
+        };
+        let linear = match self.value(value)? {
             Value::State(s) => s,
             Value::Number(_) => return Err(Error::at(ErrorKind::NumberAlone, &value_span)),
+            Value::Free(_, c) if is_determinant => return Err(free_in_det(self.coefficient_name(c))),
+            Value::Free(_, c) => {
+                return Err(Error::at(ErrorKind::FreeAlone { name: self.coefficient_name(c) }, &value_span));
+            }
         };
-        if is_determinant && state.terms.len() != 1 {
-            return Err(Error::at(
-                ErrorKind::NotADeterminant { name: value_span.text().into() },
-                &value_span,
-            ));
+        if is_determinant && !linear.parts.is_empty() {
+            return Err(free_in_det(self.coefficient_names(&linear)));
         }
-        if state.terms.iter().all(|(c, _)| c.is_zero()) || state.terms.is_empty() {
-            return Err(Error::at(ErrorKind::EmptyState { name: name.as_str().into() }, &value_span));
+        for (coefficient, state) in linear.functions() {
+            let label = match coefficient {
+                None if linear.parts.is_empty() => name.as_str().to_string(),
+                None => format!("{}(1)", name.as_str()),
+                Some(c) => format!("{}({})", name.as_str(), self.coefficient_name(c)),
+            };
+            if is_determinant && state.terms.len() != 1 {
+                return Err(Error::at(
+                    ErrorKind::NotADeterminant { name: value_span.text().into() },
+                    &value_span,
+                ));
+            }
+            if state.terms.iter().all(|(c, _)| c.is_zero()) || state.terms.is_empty() {
+                return Err(Error::at(ErrorKind::EmptyState { name: label }, &value_span));
+            }
+            check_definition(&self.program, state, &label, &value_span)?;
         }
-        check_definition(&self.program, &state, name.as_str(), &value_span)?;
+        self.check_parts_comparable(&linear, &value_span)?;
         let id = self.program.states.len() as u32;
         self.declare(&name, Symbol::State(id))?;
+        let (state, free) = match linear.as_fixed() {
+            Some(fixed) => (fixed.clone(), None),
+            None => (linear.at_unit(), Some(linear)),
+        };
         self.program.states.push(NamedState {
             name: name.as_str().into(),
             state,
+            free,
             is_determinant,
             span: self.span(&name),
         });
         Ok(())
     }
 
-    /// `energy X`, `spin X`, `element X Y`, `overlap X Y`
+    /// The parts of a state with free coefficients must hold the same closed spaces and number
+    /// of electrons, as the determinants of one state must: checked by deriving the overlap of
+    /// the first part with each other.
+    fn check_parts_comparable(&self, linear: &Linear, span: &Span) -> Result<()> {
+        let mut functions = linear.functions().map(|(_, s)| s);
+        let Some(first) = functions.next() else { return Ok(()) };
+        for other in functions {
+            let request = Request {
+                kind: RequestKind::Overlap,
+                text: span.text().to_string(),
+                bra: first.clone(),
+                ket: other.clone(),
+                bra_text: span.text().to_string(),
+                ket_text: span.text().to_string(),
+                span: span.clone(),
+                block: None,
+            };
+            derive(&self.program, &request, &Options { distinct: true, ..Options::default() })?;
+        }
+        Ok(())
+    }
+
+    /// `energy X`, `spin X`, `element X Y`, `overlap X Y`, `roots X Y ...`
     fn request(&mut self, span: Span, mut inner: Pairs<Rule>) -> Result<()> {
         let keyword = inner.next().expect("grammar: request keyword");
         let kind = match keyword.as_str() {
             "energy" => RequestKind::Energy,
             "element" => RequestKind::Element,
             "spin" => RequestKind::Spin,
+            "roots" => RequestKind::Roots,
             _ => RequestKind::Overlap,
         };
-        let wanted = if matches!(kind, RequestKind::Energy | RequestKind::Spin) { 1 } else { 2 };
+        let wanted = match kind {
+            RequestKind::Energy | RequestKind::Spin => Some(1),
+            RequestKind::Element | RequestKind::Overlap => Some(2),
+            RequestKind::Roots => None,
+        };
         let operands: Vec<Pair<Rule>> = inner.collect();
-        if operands.len() != wanted {
+        if let Some(wanted) = wanted.filter(|&w| w != operands.len()) {
             return Err(Error::at(
                 ErrorKind::RequestArity { kind: kind.keyword().into(), wanted, got: operands.len() },
                 &span,
             ));
         }
-        let mut states = vec![];
+        let mut states: Vec<(Linear, String)> = vec![];
         for operand in operands {
             self.expand_used(&operand);
             let operand_span = self.span(&operand);
             let text = without_comment(operand.as_str());
-            match self.value(operand)? {
-                Value::State(s) => states.push((s, text)),
+            let state = match self.value(operand)? {
+                Value::State(s) => s,
                 Value::Number(_) => return Err(Error::at(ErrorKind::NumberAlone, &operand_span)),
+                Value::Free(_, c) => {
+                    return Err(Error::at(
+                        ErrorKind::FreeAlone { name: self.coefficient_name(c) },
+                        &operand_span,
+                    ));
+                }
+            };
+            if matches!(kind, RequestKind::Spin | RequestKind::Roots) && !state.parts.is_empty() {
+                return Err(Error::at(
+                    ErrorKind::FreeNotAllowed {
+                        request: kind.keyword().into(),
+                        state: text,
+                        coefficients: self.coefficient_names(&state),
+                    },
+                    &operand_span,
+                ));
             }
+            states.push((state, text));
         }
+        let text = without_comment(span.text());
         let (bra, bra_text) = states[0].clone();
         let (ket, ket_text) = states.last().cloned().expect("one or two operands");
-        self.program.requests.push(Request {
-            kind,
-            text: without_comment(span.text()),
-            bra,
-            ket,
-            bra_text,
-            ket_text,
-            span,
-        });
+        let block = match kind {
+            _ if bra.parts.is_empty() && ket.parts.is_empty() => None,
+            RequestKind::Roots => None,
+            _ => Some(Arc::new(Block::free(
+                &self.program,
+                kind,
+                &text,
+                &span,
+                (&bra, &bra_text),
+                (&ket, &ket_text),
+            ))),
+        };
+        let (bra, ket, bra_text, ket_text) = if kind == RequestKind::Roots {
+            // the whole space: every operand's symbols and electrons
+            let all = states.iter().skip(1).fold(bra.at_unit(), |acc, (s, _)| acc.joined(&s.at_unit()));
+            let labels = states.iter().map(|(_, t)| t.as_str()).collect::<Vec<_>>().join(", ");
+            self.roots.push((
+                self.program.requests.len(),
+                states.iter().map(|(s, t)| (s.at_unit(), t.clone())).collect(),
+            ));
+            (all.clone(), all, labels.clone(), labels)
+        } else {
+            (bra.at_unit(), ket.at_unit(), bra_text, ket_text)
+        };
+        self.program.requests.push(Request { kind, text, bra, ket, bra_text, ket_text, span, block });
         Ok(())
     }
 
@@ -476,6 +603,7 @@ impl Resolver {
             self.program.states.push(NamedState {
                 name: label,
                 state,
+                free: None,
                 is_determinant: false,
                 span: name_span.clone(),
             });
@@ -493,7 +621,7 @@ impl Resolver {
         let head = inner.next().expect("grammar: csf determinant");
         let label = without_comment(head.as_str());
         let mut det = match head.as_rule() {
-            Rule::inline_det => self.inline_det(head)?.terms[0].1.clone(),
+            Rule::inline_det => self.inline_det(head)?.at_unit().terms[0].1.clone(),
             _ => match self.lookup(&head)? {
                 Symbol::State(k) if self.program.states[k as usize].is_determinant => {
                     let (coefficient, det) = &self.program.states[k as usize].state.terms[0];
@@ -701,7 +829,7 @@ impl Resolver {
             if op.as_str() == "-" {
                 right = negated(right);
             }
-            total = bounded(added(total, right, &span, &term_span)?, &term_span)?;
+            total = bounded(self.added(total, right, &span, &term_span)?, &term_span)?;
         }
         Ok(total)
     }
@@ -718,7 +846,7 @@ impl Resolver {
             }
             let piece_span = self.span(&piece);
             let right = self.value(piece)?;
-            total = bounded(multiplied(total, right, divide, &piece_span)?, &piece_span)?;
+            total = bounded(self.multiplied(total, right, divide, &piece_span)?, &piece_span)?;
             divide = false;
         }
         Ok(total)
@@ -741,6 +869,76 @@ impl Resolver {
                 })
             }
             Value::State(_) => Err(why("the square root of a state")),
+            Value::Free(_, c) => Err(bad(ErrorKind::FreeUnderRoot { name: self.coefficient_name(c) })),
+        }
+    }
+
+    /// `left + right` (right already negated for `-`): states add, numbers add when the sum
+    /// stays one exact coefficient; a free coefficient must multiply a state.
+    fn added(&self, left: Value, right: Value, span: &Span, right_span: &Span) -> Result<Value> {
+        match (left, right) {
+            (Value::State(a), Value::State(b)) => Ok(Value::State(a.joined(&b))),
+            (Value::Number(a), Value::Number(b)) => {
+                let total = &a + &b;
+                if total.as_monomial().is_none() {
+                    return Err(Error::at(
+                        ErrorKind::BadCoefficient {
+                            why: format!("{total} is a sum of different square roots"),
+                        },
+                        span,
+                    ));
+                }
+                Ok(Value::Number(total))
+            }
+            (Value::Free(_, c), _) => {
+                Err(Error::at(ErrorKind::FreeAlone { name: self.coefficient_name(c) }, span))
+            }
+            (_, Value::Free(_, c)) => {
+                Err(Error::at(ErrorKind::FreeAlone { name: self.coefficient_name(c) }, right_span))
+            }
+            _ => Err(Error::at(ErrorKind::NumberAlone, right_span)),
+        }
+    }
+
+    /// `left * right` or `left / right`. A state stays linear in its free coefficients: a free
+    /// coefficient multiplies a fixed state, never another free coefficient, and never divides.
+    fn multiplied(&self, left: Value, right: Value, divide: bool, right_span: &Span) -> Result<Value> {
+        let divisor = |x: &Exact| -> Result<Exact> {
+            if x.is_zero() {
+                return Err(Error::at(ErrorKind::DivisionByZero, right_span));
+            }
+            Ok(x.inverse().expect("non-zero numbers have inverses"))
+        };
+        let at = |kind: ErrorKind| Err(Error::at(kind, right_span));
+        let name = |c: u32| self.coefficient_name(c);
+        // the first free coefficient of a state, if it has one
+        let free_of = |s: &Linear| s.parts.first().map(|&(c, _)| c);
+        match (left, right) {
+            (Value::Number(a), Value::Number(b)) => {
+                Ok(Value::Number(if divide { &a * &divisor(&b)? } else { &a * &b }))
+            }
+            (Value::Free(a, c), Value::Number(b)) => {
+                Ok(Value::Free(if divide { &a * &divisor(&b)? } else { &a * &b }, c))
+            }
+            (_, Value::Free(_, c)) if divide => at(ErrorKind::FreeDivisor { name: name(c) }),
+            (Value::Number(a), Value::Free(b, c)) => Ok(Value::Free(&a * &b, c)),
+            (Value::Free(_, a), Value::Free(_, b)) => {
+                at(ErrorKind::FreeProduct { first: name(a), second: name(b) })
+            }
+            (Value::State(s), Value::Number(b)) => {
+                Ok(Value::State(s.scaled(&if divide { divisor(&b)? } else { b })))
+            }
+            (Value::Number(_) | Value::Free(..), Value::State(_)) if divide => at(ErrorKind::DivisionByState),
+            (Value::Number(a), Value::State(s)) => Ok(Value::State(s.scaled(&a))),
+            (Value::Free(a, c), Value::State(s)) | (Value::State(s), Value::Free(a, c)) => match s.as_fixed()
+            {
+                Some(fixed) => Ok(Value::State(Linear::part(c, fixed.clone().scaled(&a)))),
+                None => at(ErrorKind::FreeProduct {
+                    first: name(c),
+                    second: name(free_of(&s).expect("a state that is not fixed has a free part")),
+                }),
+            },
+            (Value::State(_), Value::State(_)) => at(ErrorKind::StateTimesState),
         }
     }
 
@@ -752,7 +950,19 @@ impl Resolver {
         let state = match head.as_rule() {
             Rule::inline_det => self.inline_det(head)?,
             _ => match self.lookup(&head)? {
-                Symbol::State(k) => self.program.states[k as usize].state.clone(),
+                Symbol::State(k) => {
+                    let named = &self.program.states[k as usize];
+                    named.free.clone().unwrap_or_else(|| Linear::fixed(named.state.clone()))
+                }
+                Symbol::Coefficient(c) => {
+                    if let Some(excitation) = inner.next() {
+                        return Err(Error::at(
+                            ErrorKind::FreeAlone { name: self.coefficient_name(c) },
+                            &self.span(&excitation),
+                        ));
+                    }
+                    return Ok(Value::Free(Exact::one(), c));
+                }
                 Symbol::Family(count) => {
                     return Err(Error::at(
                         ErrorKind::WrongKind {
@@ -781,6 +991,9 @@ impl Resolver {
             value = match value {
                 Value::State(s) => Value::State(s.excited(&excitation)),
                 Value::Number(_) => return Err(Error::at(ErrorKind::NumberAlone, span)),
+                Value::Free(_, c) => {
+                    return Err(Error::at(ErrorKind::FreeAlone { name: self.coefficient_name(c) }, span));
+                }
             };
         }
         Ok(value)
@@ -834,7 +1047,7 @@ impl Resolver {
         }
     }
 
-    fn inline_det(&self, pair: Pair<Rule>) -> Result<State> {
+    fn inline_det(&self, pair: Pair<Rule>) -> Result<Linear> {
         let mut occupants = vec![];
         for occupant in pair.into_inner() {
             let span = self.span(&occupant);
@@ -871,7 +1084,7 @@ impl Resolver {
                 occupants.push(occupant);
             }
         }
-        Ok(State::new(vec![(Exact::one(), DetSpec { occupants, excitations: vec![] })]))
+        Ok(Linear::fixed(State::new(vec![(Exact::one(), DetSpec { occupants, excitations: vec![] })])))
     }
 }
 
@@ -924,8 +1137,10 @@ pub const MAX_COEFFICIENT_BITS: u64 = 2048;
 /// numbers past it grows without bound (a product of many numbers, a sum of many fractions).
 fn bounded(value: Value, span: &Span) -> Result<Value> {
     let bits = match &value {
-        Value::Number(x) => x.bits(),
-        Value::State(s) => s.terms.iter().map(|(c, _)| c.bits()).max().unwrap_or(0),
+        Value::Number(x) | Value::Free(x, _) => x.bits(),
+        Value::State(s) => {
+            s.functions().flat_map(|(_, f)| f.terms.iter()).map(|(c, _)| c.bits()).max().unwrap_or(0)
+        }
     };
     if bits <= MAX_COEFFICIENT_BITS {
         return Ok(value);
@@ -950,43 +1165,7 @@ fn bounded(value: Value, span: &Span) -> Result<Value> {
 fn negated(value: Value) -> Value {
     match value {
         Value::Number(x) => Value::Number(-x),
+        Value::Free(x, c) => Value::Free(-x, c),
         Value::State(s) => Value::State(s.scaled(&Exact::integer(-1))),
-    }
-}
-
-fn added(left: Value, right: Value, span: &Span, right_span: &Span) -> Result<Value> {
-    match (left, right) {
-        (Value::State(a), Value::State(b)) => Ok(Value::State(a.joined(&b))),
-        (Value::Number(a), Value::Number(b)) => {
-            let total = &a + &b;
-            if total.as_monomial().is_none() {
-                return Err(Error::at(
-                    ErrorKind::BadCoefficient { why: format!("{total} is a sum of different square roots") },
-                    span,
-                ));
-            }
-            Ok(Value::Number(total))
-        }
-        _ => Err(Error::at(ErrorKind::NumberAlone, right_span)),
-    }
-}
-
-fn multiplied(left: Value, right: Value, divide: bool, right_span: &Span) -> Result<Value> {
-    let divisor = |x: &Exact| -> Result<Exact> {
-        if x.is_zero() {
-            return Err(Error::at(ErrorKind::DivisionByZero, right_span));
-        }
-        Ok(x.inverse().expect("non-zero numbers have inverses"))
-    };
-    match (left, right) {
-        (Value::Number(a), Value::Number(b)) => {
-            Ok(Value::Number(if divide { &a * &divisor(&b)? } else { &a * &b }))
-        }
-        (Value::State(s), Value::Number(b)) => {
-            Ok(Value::State(s.scaled(&if divide { divisor(&b)? } else { b })))
-        }
-        (Value::Number(a), Value::State(s)) if !divide => Ok(Value::State(s.scaled(&a))),
-        (Value::Number(_), Value::State(_)) => Err(Error::at(ErrorKind::DivisionByState, right_span)),
-        (Value::State(_), Value::State(_)) => Err(Error::at(ErrorKind::StateTimesState, right_span)),
     }
 }

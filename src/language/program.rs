@@ -4,6 +4,7 @@
 use crate::engine::coupling::Twice;
 use crate::engine::exact::Exact;
 use crate::error::{Source, Span};
+use crate::language::block::Block;
 use crate::language::orbital::{Orb, SpaceId, Spin, SpinOrbital};
 use num_bigint::BigUint;
 use std::collections::BTreeSet;
@@ -144,6 +145,110 @@ impl State {
     }
 }
 
+impl State {
+    /// The state with every orbital rewritten by `f` (generic indices renamed), its coupling
+    /// included.
+    pub fn with_orbs(&self, f: &impl Fn(Orb) -> Orb) -> State {
+        let so = |x: &SpinOrbital| SpinOrbital::new(f(x.orb), x.spin);
+        let det = |d: &DetSpec| DetSpec {
+            occupants: d
+                .occupants
+                .iter()
+                .map(|o| match o {
+                    Occupant::Closed(s) => Occupant::Closed(*s),
+                    Occupant::Electron(x) => Occupant::Electron(so(x)),
+                })
+                .collect(),
+            excitations: d
+                .excitations
+                .iter()
+                .map(|e| Excitation {
+                    from: e.from.iter().map(so).collect(),
+                    to: e.to.iter().map(so).collect(),
+                })
+                .collect(),
+        };
+        State {
+            terms: Arc::new(self.terms.iter().map(|(c, d)| (c.clone(), det(d))).collect()),
+            coupling: self.coupling.as_ref().map(|c| {
+                Arc::new(Coupling {
+                    open: c.open.iter().map(|&o| f(o)).collect(),
+                    reference: det(&c.reference),
+                    ..(**c).clone()
+                })
+            }),
+        }
+    }
+}
+
+/// A state linear in free coefficients: a fixed part plus Σ_c c·part_c, one part per free
+/// coefficient. Each part is an ordinary fixed state, so everything derived from it is.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Linear {
+    /// The terms no free coefficient multiplies, if there are any.
+    pub fixed: Option<State>,
+    /// (coefficient, the part it multiplies), ordered by the coefficients' declaration.
+    pub parts: Vec<(u32, State)>,
+}
+
+impl Linear {
+    pub fn fixed(state: State) -> Linear {
+        Linear { fixed: Some(state), parts: vec![] }
+    }
+
+    /// `coefficient` times a fixed state.
+    pub fn part(coefficient: u32, state: State) -> Linear {
+        Linear { fixed: None, parts: vec![(coefficient, state)] }
+    }
+
+    /// The fixed state, if no free coefficient multiplies any term.
+    pub fn as_fixed(&self) -> Option<&State> {
+        if self.parts.is_empty() { self.fixed.as_ref() } else { None }
+    }
+
+    /// The fixed part (None) and the parts (their coefficients), in order.
+    pub fn functions(&self) -> impl Iterator<Item = (Option<u32>, &State)> {
+        self.fixed.iter().map(|s| (None, s)).chain(self.parts.iter().map(|(c, s)| (Some(*c), s)))
+    }
+
+    /// Every term with each free coefficient taken as 1: the determinants, symbols and electrons
+    /// the state is written with.
+    pub fn at_unit(&self) -> State {
+        let mut states = self.functions().map(|(_, s)| s);
+        let first = states.next().cloned().unwrap_or_else(|| State::new(vec![]));
+        states.fold(first, |acc, s| acc.joined(s))
+    }
+
+    fn map(self, f: impl Fn(State) -> State) -> Linear {
+        Linear { fixed: self.fixed.map(&f), parts: self.parts.into_iter().map(|(c, s)| (c, f(s))).collect() }
+    }
+
+    pub fn scaled(self, factor: &Exact) -> Linear {
+        self.map(|s| s.scaled(factor))
+    }
+
+    pub fn excited(self, excitation: &Excitation) -> Linear {
+        self.map(|s| s.excited(excitation))
+    }
+
+    /// The sum of two: fixed parts joined, parts of one coefficient joined.
+    pub fn joined(self, other: &Linear) -> Linear {
+        let fixed = match (self.fixed, &other.fixed) {
+            (Some(a), Some(b)) => Some(a.joined(b)),
+            (a, b) => a.or_else(|| b.clone()),
+        };
+        let mut parts = self.parts;
+        for (c, s) in &other.parts {
+            match parts.iter_mut().find(|(d, _)| d == c) {
+                Some((_, mine)) => *mine = mine.clone().joined(s),
+                None => parts.push((*c, s.clone())),
+            }
+        }
+        parts.sort_by_key(|(c, _)| *c);
+        Linear { fixed, parts }
+    }
+}
+
 /// The symbols some states mention.
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct Symbols {
@@ -183,10 +288,21 @@ impl Symbols {
     }
 }
 
+/// A free real coefficient, declared by `coefficients`.
+#[derive(Clone, Debug)]
+pub struct Coefficient {
+    pub name: String,
+    pub span: Span,
+}
+
 #[derive(Clone, Debug)]
 pub struct NamedState {
     pub name: String,
+    /// The state; for one with free coefficients, every term with each coefficient taken as 1
+    /// (see `Linear::at_unit`), and `free` holds its parts.
     pub state: State,
+    /// For a state with free coefficients: its fixed part and the parts they multiply.
+    pub free: Option<Linear>,
     pub is_determinant: bool,
     pub span: Span,
 }
@@ -198,6 +314,8 @@ pub enum RequestKind {
     Element,
     Overlap,
     Spin,
+    /// The roots of H in the space of its operands' members.
+    Roots,
 }
 
 impl RequestKind {
@@ -207,21 +325,28 @@ impl RequestKind {
             RequestKind::Element => "element",
             RequestKind::Overlap => "overlap",
             RequestKind::Spin => "spin",
+            RequestKind::Roots => "roots",
         }
     }
 }
 
-/// One request: `energy X` (<X|H|X>/<X|X>), `element X Y` (<X|H|Y>) or `overlap X Y`.
+/// One request: `energy X` (<X|H|X>/<X|X>), `element X Y` (<X|H|Y>), `overlap X Y`, `spin X`
+/// or `roots X Y ...`.
 #[derive(Clone, Debug)]
 pub struct Request {
     pub kind: RequestKind,
     /// The request as written, without its comment.
     pub text: String,
+    /// The states; for a request on a block, the row (bra) and column (ket) functions with each
+    /// free coefficient taken as 1: what the symbols and electrons of the request are read from.
     pub bra: State,
     pub ket: State,
     pub bra_text: String,
     pub ket_text: String,
     pub span: Span,
+    /// For states with free coefficients and for `roots`: the pairs of functions the request
+    /// is made of, each an ordinary request.
+    pub block: Option<Arc<Block>>,
 }
 
 #[derive(Clone, Debug)]
@@ -230,6 +355,7 @@ pub struct Program {
     pub orbitals: Vec<Orbital>,
     pub spaces: Vec<Space>,
     pub indices: Vec<Index>,
+    pub coefficients: Vec<Coefficient>,
     pub states: Vec<NamedState>,
     pub requests: Vec<Request>,
 }
@@ -268,6 +394,7 @@ impl Program {
             .map(|o| o.name.as_str())
             .chain(self.indices.iter().map(|i| i.name.as_str()))
             .chain(self.spaces.iter().map(|s| s.name.as_str()))
+            .chain(self.coefficients.iter().map(|c| c.name.as_str()))
             .chain(self.states.iter().map(|s| s.name.as_str()))
     }
 }

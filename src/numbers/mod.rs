@@ -2,11 +2,13 @@
 //! to orbitals, and the evaluation of derived expressions with them, row by row.
 
 pub mod bind;
+pub mod block_values;
 pub mod compiled;
 pub mod davidson;
 pub mod eigen;
 pub mod evaluate;
 pub mod fcidump;
 pub mod integrals;
+pub mod settings;
 pub mod space;
 pub mod tabulate;

@@ -17,6 +17,9 @@ pub struct Entry {
     /// index name → 1-based orbital number
     pub indices: Vec<(String, usize)>,
     pub value: f64,
+    /// For a request with free coefficients: their values (as set, or where the energy is
+    /// stationary), by name; empty otherwise.
+    pub coefficients: Vec<(String, f64)>,
 }
 
 /// Rows of a table left out for one reason.
@@ -43,11 +46,54 @@ pub struct Evaluated {
     pub tabulated: bool,
     /// The number of electrons of the request's states under the bindings.
     pub electrons: usize,
+    /// What kind of value a request with free coefficients has; None for others.
+    pub free: Option<FreeValue>,
+    /// For `roots`: the space and its lowest roots (`entries` then hold the root values, by
+    /// their number as the index `root`).
+    pub roots: Option<RootsOut>,
+    /// What the user should know about these values, in words.
+    pub warnings: Vec<String>,
+}
+
+/// How the free coefficients of a request got their values.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum FreeValue {
+    /// Given with --set.
+    Set,
+    /// Where the energy is stationary: the lowest root over the span of the state's parts.
+    Stationary,
+}
+
+/// The roots of a `roots` space, as printed.
+#[derive(Clone, Debug, PartialEq)]
+pub struct RootsOut {
+    /// Functions kept after vanishing members and linear dependence are removed.
+    pub dimension: usize,
+    /// Functions dropped for linear dependence.
+    pub dropped: usize,
+    /// Members that vanish for their index values, left out.
+    pub vanishing: usize,
+    /// The lowest roots, ascending, each with every non-zero component by |coefficient|.
+    pub roots: Vec<RootValue>,
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub struct RootValue {
+    pub value: f64,
+    pub vector: Vec<ComponentValue>,
+}
+
+/// One member's coefficient: its operand as written and its index values (1-based).
+#[derive(Clone, Debug, PartialEq)]
+pub struct ComponentValue {
+    pub operand: String,
+    pub indices: Vec<(String, usize)>,
+    pub coefficient: f64,
 }
 
 /// Why an assignment has no value.
 #[derive(Clone, Copy, Debug, PartialEq)]
-enum Exclusion<'a> {
+pub enum Exclusion<'a> {
     /// The derivation assumed different letters are different orbitals.
     Distinct,
     /// A state has no determinant left in this coincidence.
@@ -65,7 +111,7 @@ impl Exclusion<'_> {
 
 /// The blocks of the request's generic indices that stand on one orbital, each ascending,
 /// ordered by their smallest index: the coincidence case of an assignment.
-fn equal_blocks(indices: &[u32], binding: &Binding) -> Vec<Vec<u32>> {
+pub fn equal_blocks(indices: &[u32], binding: &Binding) -> Vec<Vec<u32>> {
     let mut by_orbital: BTreeMap<usize, Vec<u32>> = BTreeMap::new();
     for &k in indices {
         let orbital = binding.indices[k as usize].expect("every index of the request is assigned");
@@ -114,6 +160,30 @@ pub fn tabulate(
     bindings: &Bindings,
     ints: &dyn Integrals,
 ) -> Result<Evaluated> {
+    let value = |b: &Binding| {
+        let constant = d.constant_factor().map_or(0.0, |s| ints.constant() * evaluate(s, b, ints));
+        Ok((evaluate(&d.value, b, ints) + constant, vec![]))
+    };
+    table(program, request, d, bindings, &|equal, _| exclusion(d, equal), &value)
+}
+
+/// The value of a row and, for free coefficients, their values there.
+pub type RowValue = (f64, Vec<(String, f64)>);
+
+/// Why a row has no value, from the blocks of equal indices and the row's binding.
+pub type Excluded<'d> = dyn Fn(&[Vec<u32>], &Binding) -> Option<Exclusion<'d>> + 'd;
+
+/// A request's values over every assignment of its unbound indices: `excluded` says why a
+/// row has none (given the blocks of equal indices among `d.free_indices` and the row's
+/// binding), `value` gives it.
+pub fn table<'d>(
+    program: &Program,
+    request: &Request,
+    d: &'d Derivation,
+    bindings: &Bindings,
+    excluded: &Excluded<'d>,
+    value: &dyn Fn(&Binding) -> Result<RowValue>,
+) -> Result<Evaluated> {
     let (binding, unbound) = bindings.for_request(program, request)?;
     let name = |k: u32| program.indices[k as usize].name.clone();
     let names = |blocks: &[Vec<u32>]| -> Vec<Vec<String>> {
@@ -137,7 +207,7 @@ pub fn tabulate(
             b.indices[k as usize] = Some(m);
         }
         let equal = equal_blocks(&d.free_indices, &b);
-        if let Some(why) = exclusion(d, &equal) {
+        if let Some(why) = excluded(&equal, &b) {
             // the bindings alone fix this coincidence: the user asked for a value that has none
             if equal.iter().flatten().all(|k| !unbound.contains(k)) {
                 let bindings = equal
@@ -154,9 +224,9 @@ pub fn tabulate(
             }
             continue;
         }
-        let constant = d.constant_factor().map_or(0.0, |s| ints.constant() * evaluate(s, &b, ints));
+        let (value, coefficients) = value(&b)?;
         // adding +0.0 turns a negative zero into zero
-        let value = evaluate(&d.value, &b, ints) + constant + 0.0;
+        let value = value + 0.0;
         let indices: Vec<(String, usize)> = row.iter().map(|&(k, m)| (name(k), m + 1)).collect();
         if !value.is_finite() {
             let row = indices.iter().map(|(n, m)| format!("{n}={m}")).join(", ");
@@ -166,7 +236,7 @@ pub fn tabulate(
                 row: if row.is_empty() { row } else { format!(" at {row}") },
             }));
         }
-        entries.push(Entry { indices, value });
+        entries.push(Entry { indices, value, coefficients });
     }
     Ok(Evaluated {
         request: d.text.clone(),
@@ -176,5 +246,8 @@ pub fn tabulate(
         omitted,
         tabulated: !unbound.is_empty(),
         electrons: electrons(request, &binding),
+        free: None,
+        roots: None,
+        warnings: vec![],
     })
 }

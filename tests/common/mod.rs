@@ -3,6 +3,7 @@
 
 #![allow(dead_code)]
 
+pub mod blocks;
 pub mod space;
 
 use spinfold::{Format, Options, Program, derive_checked, render};

@@ -151,7 +151,10 @@ fn the_stationary_energy_is_the_lowest_root_of_the_two_by_two_problem() {
         let ncore = if dump.starts_with("h2") { "0" } else { "4" };
         let (g, u) = if dump.starts_with("h2") { ("1", "2") } else { ("5", "6") };
         if let Some(reference) = numpy_reference(dump, &["pair", ncore, g, u, "1", "0"]) {
-            assert!((energy - number(&reference, "/lowest")).abs() < 1e-10, "{dump}: {energy} vs {reference}");
+            assert!(
+                (energy - number(&reference, "/lowest")).abs() < 1e-10,
+                "{dump}: {energy} vs {reference}"
+            );
             assert!((cg - number(&reference, "/vector/0")).abs() < 1e-8, "{dump}: {cg} vs {reference}");
             assert!((cu - number(&reference, "/vector/1")).abs() < 1e-8, "{dump}: {cu} vs {reference}");
         }
@@ -159,7 +162,8 @@ fn the_stationary_energy_is_the_lowest_root_of_the_two_by_two_problem() {
     // PySCF FCI of H2 in a minimal basis, where the singles do not couple, so the pair function
     // spans the ground state (tests/fixtures/pyscf_reference.json)
     let fci = common::recorded(&common::pyscf_reference(), "/cases/h2_sto3g_rhf/energies/fci/value");
-    let (energy, cg, cu) = value_and_coefficients(&eval(PAIR, H2, "h2_sto3g_rhf.fcidump", &["--json"]).json());
+    let (energy, cg, cu) =
+        value_and_coefficients(&eval(PAIR, H2, "h2_sto3g_rhf.fcidump", &["--json"]).json());
     assert!((energy - fci).abs() < 1e-10, "{energy} vs PySCF FCI {fci}");
     assert!((cg - 0.99).abs() < 0.01 && (cu + 0.11).abs() < 0.01, "{cg}, {cu}");
     let text = eval(PAIR, H2, "h2_sto3g_rhf.fcidump", &[]).text().to_string();
@@ -175,7 +179,9 @@ fn set_values_equal_the_quadratic_form_evaluated_directly() {
     assert_eq!((cg, cu), (0.98, -0.2), "the coefficients as set");
     assert_eq!(out["results"][0]["stationary"], false);
     // numpy: c·Hc / c·c with the 2x2 Hamiltonian of the textbook formulas
-    if let Some(reference) = numpy_reference("water_sto3g_rhf.fcidump", &["pair", "4", "5", "6", "0.98", "-0.2"]) {
+    if let Some(reference) =
+        numpy_reference("water_sto3g_rhf.fcidump", &["pair", "4", "5", "6", "0.98", "-0.2"])
+    {
         assert!((energy - number(&reference, "/at")).abs() < 1e-10, "{energy} vs {reference}");
     }
     // the same with the coefficients scaled: the energy is a ratio of quadratic forms
@@ -222,7 +228,11 @@ overlap P Q
     assert!(text.contains("+ cg ch (K_gu) +"), "{text}");
     let unset = eval(input, WATER, "water_sto3g_rhf.fcidump", &[]);
     assert_eq!(unset.code, Some(2), "{}", unset.stderr);
-    assert!(unset.stderr.contains("`element P Q` has free coefficients without a value: cg, cu, ch"), "{}", unset.stderr);
+    assert!(
+        unset.stderr.contains("`element P Q` has free coefficients without a value: cg, cu, ch"),
+        "{}",
+        unset.stderr
+    );
     assert!(unset.stderr.contains("--set"), "{}", unset.stderr);
     let set = ["--json", "--set", "cg=0.9", "--set", "cu=-0.3", "--set", "ch=0.25"];
     let out = eval(input, WATER, "water_sto3g_rhf.fcidump", &set).json();
@@ -234,7 +244,8 @@ overlap P Q
     if let Some(r) = numpy_reference("water_sto3g_rhf.fcidump", &["pair", "4", "5", "6", "1", "0"]) {
         let h = |i: usize, j: usize| number(&r, &format!("/H/{i}/{j}"));
         let (c, d) = ([0.9, -0.3], [1.0, 0.25]);
-        let expected: f64 = (0..2).flat_map(|i| (0..2).map(move |j| (i, j))).map(|(i, j)| c[i] * h(i, j) * d[j]).sum();
+        let expected: f64 =
+            (0..2).flat_map(|i| (0..2).map(move |j| (i, j))).map(|(i, j)| c[i] * h(i, j) * d[j]).sum();
         assert!((element - expected).abs() < 1e-10, "{element} vs {expected}");
     }
 }
@@ -246,7 +257,10 @@ fn set_options_are_checked() {
         assert_eq!(run.code, Some(2), "{extra:?}: {}", run.stderr);
         assert!(run.stderr.contains(message), "{extra:?}: {}", run.stderr);
     };
-    wrong(&["--set", "cx=1"], "`cx` is not a free coefficient of the input; its free coefficients are cg, cu");
+    wrong(
+        &["--set", "cx=1"],
+        "`cx` is not a free coefficient of the input; its free coefficients are cg, cu",
+    );
     wrong(&["--set", "cg=1", "--set", "cg=2"], "`cg` is given twice");
     wrong(&["--set", "cg"], "write NAME=VALUE");
     wrong(&["--set", "cg=nan"], "`nan` is not a finite number");
@@ -291,7 +305,8 @@ overlap P Q
     std::fs::write(dir.path().join("forms.spinfold"), input).unwrap();
     let run = |program: &str, args: &[&str]| {
         let out = std::process::Command::new(program).args(args).current_dir(dir.path()).output().unwrap();
-        let text = format!("{}{}", String::from_utf8_lossy(&out.stdout), String::from_utf8_lossy(&out.stderr));
+        let text =
+            format!("{}{}", String::from_utf8_lossy(&out.stdout), String::from_utf8_lossy(&out.stderr));
         assert!(out.status.success(), "{program} {args:?}:\n{text}");
         text
     };

@@ -55,7 +55,8 @@ pub fn spinfold(command: &str, input: &str, args: &[&str]) -> Run {
 /// `python3 tests/numpy/reference.py DUMP ARGS...` as JSON. Outside CI, without python3 and
 /// numpy, None (the caller skips its check with a message); under CI they must be there.
 pub fn numpy_reference(dump: &str, args: &[&str]) -> Option<serde_json::Value> {
-    let ready = Command::new("python3").args(["-c", "import numpy"]).output().is_ok_and(|o| o.status.success());
+    let ready =
+        Command::new("python3").args(["-c", "import numpy"]).output().is_ok_and(|o| o.status.success());
     if !ready {
         assert!(std::env::var_os("CI").is_none(), "python3 with numpy is required under CI");
         eprintln!("skipping a numpy reference: python3 with numpy not found");
@@ -73,5 +74,8 @@ pub fn numpy_reference(dump: &str, args: &[&str]) -> Option<serde_json::Value> {
 
 /// The number at a JSON pointer.
 pub fn number(value: &serde_json::Value, pointer: &str) -> f64 {
-    value.pointer(pointer).and_then(|v| v.as_f64()).unwrap_or_else(|| panic!("a number at {pointer} in {value}"))
+    value
+        .pointer(pointer)
+        .and_then(|v| v.as_f64())
+        .unwrap_or_else(|| panic!("a number at {pointer} in {value}"))
 }

@@ -315,6 +315,28 @@ pub fn test_vectors(
     Ok(out)
 }
 
+/// The two functions of a pair as generated names read them, joined by `joint`: a `roots`
+/// operand by its position from 1, a part by its free coefficient, the fixed part as `fixed`.
+pub fn pair_label(
+    program: &Program,
+    kind: crate::language::program::RequestKind,
+    block: &crate::language::block::Block,
+    pair: &crate::language::block::Pair,
+    joint: &str,
+) -> String {
+    use crate::language::program::RequestKind;
+    let label = |f: &crate::language::block::Function, k: usize| match (kind, f.coefficient) {
+        (RequestKind::Roots, _) => (k + 1).to_string(),
+        (_, Some(c)) => program.coefficients[c as usize].name.clone(),
+        (_, None) => "fixed".into(),
+    };
+    format!(
+        "{}{joint}{}",
+        label(&block.rows[pair.row], pair.row),
+        label(&block.columns[pair.column], pair.column)
+    )
+}
+
 /// The overlap <f|g> of a pair as a request and derivation of its own (an `overlap` pair
 /// already is one), so that it is emitted and tested like any overlap.
 pub fn overlap_of(

@@ -490,16 +490,7 @@ fn emitted(
     };
     let mut units = vec![];
     for (pair, pd) in block.block.pairs.iter().zip(&block.pairs) {
-        let label = |f: &crate::language::block::Function, k: usize| match (d.kind, f.coefficient) {
-            (RequestKind::Roots, _) => (k + 1).to_string(),
-            (_, Some(c)) => program.coefficients[c as usize].name.clone(),
-            (_, None) => "fixed".into(),
-        };
-        let which = format!(
-            "{} {}",
-            label(&block.block.rows[pair.row], pair.row),
-            label(&block.block.columns[pair.column], pair.column)
-        );
+        let which = super::pair_label(program, d.kind, &block.block, pair, " ");
         if pd.kind == RequestKind::Element {
             let name = names.fresh(&format!("{base} h {which}"));
             let h = (pd.clone(), None);

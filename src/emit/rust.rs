@@ -318,16 +318,7 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
         };
         let mut callees = vec![];
         for (pair, pd) in block.block.pairs.iter().zip(&block.pairs) {
-            let label = |f: &crate::language::block::Function, k: usize| match (d.kind, f.coefficient) {
-                (RequestKind::Roots, _) => (k + 1).to_string(),
-                (_, Some(c)) => program.coefficients[c as usize].name.clone(),
-                (_, None) => "fixed".into(),
-            };
-            let which = format!(
-                "{}_{}",
-                label(&block.block.rows[pair.row], pair.row),
-                label(&block.block.columns[pair.column], pair.column)
-            );
+            let which = super::pair_label(program, d.kind, &block.block, pair, "_");
             let h = (pd.kind == RequestKind::Element)
                 .then(|| {
                     function(

@@ -3,8 +3,8 @@
 //! space gets orbitals of the integral file, generic indices sometimes a member; and `--set`
 //! values for the free coefficients, `--roots` counts.
 
-use rand::seq::{IndexedRandom, SliceRandom};
 use crate::plan::Evaluation;
+use rand::seq::{IndexedRandom, SliceRandom};
 use rand::{Rng, RngExt};
 
 /// The names an input declares: orbitals, and spaces with their generic indices.

@@ -608,7 +608,9 @@ impl<R: Rng> Gen<'_, R> {
         };
         let mut holes: Vec<Orb> = occ.electrons.iter().map(|&(orb, _)| orb).collect();
         holes.dedup();
-        holes.extend((0..self.indices.len()).filter(|&k| occ.closed.contains(&self.indices[k].1)).map(Orb::Index));
+        holes.extend(
+            (0..self.indices.len()).filter(|&k| occ.closed.contains(&self.indices[k].1)).map(Orb::Index),
+        );
         let mut particles: Vec<Orb> = self
             .free_orbitals(&occ.closed)
             .into_iter()

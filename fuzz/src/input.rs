@@ -124,7 +124,8 @@ pub fn make(seed: u64, index: u64, examples: &[String]) -> Input {
     let steps = match &text {
         Some(text) => {
             // wide spaces make big roots spaces, probing their limits
-            let wide = text.contains("roots") && rng.random_bool(if category == Category::Large { 0.5 } else { 0.1 });
+            let wide = text.contains("roots")
+                && rng.random_bool(if category == Category::Large { 0.5 } else { 0.1 });
             let b = binds(text, NORB, if wide { 6 } else { 3 }, &mut rng);
             let e = evaluation(text, &mut rng);
             plan::full(seed_option, b, e, rng.random_bool(0.5))

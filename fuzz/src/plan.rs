@@ -65,10 +65,20 @@ impl Emit {
 /// One command of the binary.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub enum Step {
-    Derive { variant: Variant, emit: Emit },
-    States { json: bool },
+    Derive {
+        variant: Variant,
+        emit: Emit,
+    },
+    States {
+        json: bool,
+    },
     /// `eval` with bindings, free-coefficient values (`--set`) and `--roots N`.
-    Eval { variant: Variant, binds: Vec<String>, evaluation: Evaluation, json: bool },
+    Eval {
+        variant: Variant,
+        binds: Vec<String>,
+        evaluation: Evaluation,
+        json: bool,
+    },
 }
 
 /// What `eval` is told besides the bindings: values of free coefficients and how many roots.

@@ -6,8 +6,8 @@ use crate::plan::{Emit, INPUT_FILE, Step, Variant};
 use serde::{Deserialize, Serialize};
 use spinfold::{
     Bindings, Checked, DEFAULT_SEED, Error, Evaluated, Format, FreeValue, IntegralDump, Limits, Options,
-    Program, RequestKind, Settings, derive_checked, eval_warnings, evaluate_with, parse_with, read_dump, render,
-    render_states, results_json, results_text,
+    Program, RequestKind, Settings, derive_checked, eval_warnings, evaluate_with, parse_with, read_dump,
+    render, render_states, results_json, results_text,
 };
 use std::collections::HashMap;
 use std::io::{BufRead, Write};

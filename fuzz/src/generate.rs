@@ -528,7 +528,7 @@ impl<R: Rng> Gen<'_, R> {
                     2 => format!("{op}/{c}"),
                     3 => format!("sqrt({c}) {op}"),
                     4 => format!("{c} + {op}"),
-                    _ => format!("{c}"),
+                    _ => c.clone(),
                 }
             } else {
                 match self.rng.random_range(0..8) {

@@ -317,3 +317,21 @@ overlap P Q
     let report = run("python3", &["-m", "pytest", "-q", "-p", "no:cacheprovider", "forms.py"]);
     assert!(report.contains("4 passed"), "{report}");
 }
+
+/// Each pair of parts of a state with free coefficients is a derivation of its own: a state of
+/// more than 100 parts is refused at the operand of the request that uses it.
+#[test]
+fn a_state_of_too_many_free_parts_is_refused_in_its_request() {
+    let names: Vec<String> = (0..101).map(|k| format!("c{k}")).collect();
+    let sum: Vec<String> = names.iter().map(|c| format!("{c} | core^2 g^2 |")).collect();
+    let input = format!(
+        "orbitals g u\nspace core\ncoefficients {}\nstate W = {}\nenergy W\n",
+        names.join(" "),
+        sum.join(" + ")
+    );
+    let run = spinfold("derive", &input, &[]);
+    assert_eq!(run.code, Some(2), "{}", run.stderr);
+    assert!(run.stderr.contains("input.spinfold:5:8: `W` is a sum of 101 parts"), "{}", run.stderr);
+    assert!(run.stderr.contains("exceeds the limit of 100 parts"), "{}", run.stderr);
+    assert!(!run.stderr.contains("panicked"), "{}", run.stderr);
+}

@@ -259,3 +259,20 @@ fn an_index_neither_run_over_nor_bound_is_refused() {
     let e = solve_space(&s.program, &operands, &s.elements(), &binding, &ints, 1, &|_| {}).unwrap_err();
     assert!(e.message().contains("the index `a`") && e.message().contains("--bind a="), "{}", e.message());
 }
+
+/// Every pair of operands is derived and verified on its own, so a `roots` request may list at
+/// most 100 operands; past that it is refused at the first operand beyond the limit.
+#[test]
+fn a_roots_request_of_too_many_operands_is_refused_where_it_passes_the_limit() {
+    let head = "orbitals a b\nspace core\ndet ab = | core^2 a b' |\n";
+    let at_limit = format!("{head}roots{}\n", " ab".repeat(100));
+    spinfold::parse("space.spinfold", &at_limit).expect("100 operands are allowed");
+    let past = format!("{head}roots{}\n", " ab".repeat(150));
+    let error = spinfold::parse("space.spinfold", &past).unwrap_err();
+    assert!(matches!(error.kind, ErrorKind::TooLarge { .. }), "{error:?}");
+    let report = error.render();
+    // `roots` and 100 operands of ` ab` put the 101st at column 6 + 3 * 100 + 1
+    assert!(report.contains("space.spinfold:4:307: this `roots` request lists 150 operands"), "{report}");
+    assert!(report.contains("exceeds the limit of 100 operands"), "{report}");
+    assert!(report.contains("let generic indices stand for the members"), "{report}");
+}

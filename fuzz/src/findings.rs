@@ -98,6 +98,7 @@ pub fn classify(input: &Input, result: &WorkerResult, binary: &[BinaryResult]) -
                         Problem::NotAscii(d) => ("not-ascii", d),
                         Problem::NotFinite(d) => ("not-finite", d),
                         Problem::EvalMismatch(d) => ("eval-mismatch", d),
+                        Problem::ClaimBroken(d) => ("claim-broken", d),
                     };
                     (category, step_kind(step), detail.clone())
                 } else {

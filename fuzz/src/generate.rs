@@ -1,6 +1,8 @@
 //! Random valid programs from the grammar of the input language: orbitals, spaces with generic
-//! indices, determinants, states with exact coefficients, csf/csfs, excitations and requests.
-//! Occupations are tracked so that excitations remove occupied and add empty spin orbitals.
+//! indices, free coefficients, determinants, states with exact and free coefficients, csf/csfs of
+//! open shells and of excitations, excitations and requests (with `roots`), and consistency
+//! claims between requests for the worker to check. Occupations are tracked so that excitations
+//! remove occupied and add empty spin orbitals.
 
 use rand::seq::{IndexedRandom, SliceRandom};
 use rand::{Rng, RngExt};
@@ -65,11 +67,35 @@ struct Gen<'r, R: Rng> {
     /// most requests compare determinants of one electron count
     closed: BTreeSet<usize>,
     electrons: usize,
+    /// the declared free coefficients
+    coefficients: Vec<String>,
+    /// states with free coefficients, kept apart from `named`: they may not stand in other
+    /// states, `spin` or `roots`
+    free: Vec<(String, Vec<Occ>)>,
+    /// (energy request, roots request) pairs whose values the worker compares
+    claims: Vec<(String, String)>,
     out: Vec<String>,
 }
 
-const KEYWORDS: [&str; 11] =
-    ["orbitals", "space", "det", "state", "csf", "csfs", "energy", "element", "overlap", "spin", "sqrt"];
+/// The comment that states a claim: the lowest root of the `roots` request equals the energy
+/// request's value where that is one number, and lies at or below each of its values otherwise.
+pub const CLAIM: &str = "# claim: ";
+
+const KEYWORDS: [&str; 13] = [
+    "orbitals",
+    "space",
+    "coefficients",
+    "det",
+    "state",
+    "csf",
+    "csfs",
+    "energy",
+    "element",
+    "overlap",
+    "spin",
+    "roots",
+    "sqrt",
+];
 
 impl<R: Rng> Gen<'_, R> {
     fn name(&mut self, usual: &[&str]) -> String {
@@ -140,6 +166,13 @@ impl<R: Rng> Gen<'_, R> {
             };
             self.out.push(line);
             self.spaces.push((name, idx));
+        }
+        if self.rng.random_bool(0.35) {
+            for _ in 0..self.rng.random_range(1..=3) {
+                let name = self.name(&["cg", "cu", "ch", "c1", "c2", "w", "t"]);
+                self.coefficients.push(name);
+            }
+            self.out.push(format!("coefficients {}", self.coefficients.join(" ")));
         }
     }
 
@@ -441,22 +474,241 @@ impl<R: Rng> Gen<'_, R> {
         }
     }
 
-    fn request(&mut self) {
-        let kind = *["energy", "energy", "element", "overlap", "spin"].choose(self.rng).expect("kinds");
-        let (bra, bra_dets) = self.operand(1);
-        let line = if kind == "energy" || kind == "spin" {
-            format!("{kind} {bra}")
-        } else {
-            let mut ket = self.operand(1);
-            for _ in 0..4 {
-                if ket.1[0].signature() == bra_dets[0].signature() {
-                    break;
-                }
-                ket = self.operand(1);
+    /// An operand with the electron signature `signature` where one is found in a few tries.
+    fn operand_like(&mut self, signature: &(BTreeSet<usize>, usize)) -> (String, Vec<Occ>) {
+        let mut candidate = self.operand(1);
+        for _ in 0..4 {
+            if candidate.1.iter().all(|d| &d.signature() == signature) || self.rng.random_bool(0.05) {
+                break;
             }
-            format!("{kind} {bra} {}", ket.0)
+            candidate = self.operand(1);
+        }
+        candidate
+    }
+
+    /// A state linear in free coefficients: `cg X + sqrt(2) cu Y - ch/2 Z`, sometimes with a
+    /// fixed part, now and then with a coefficient misused (a product of two, a divisor, under a
+    /// root, alone). Where each part has a coefficient of its own and there is no fixed part, the
+    /// energy's stationary value is the lowest root over the parts: a claim for the worker.
+    fn define_free_state(&mut self) {
+        if self.coefficients.is_empty() {
+            return self.define_state();
+        }
+        let name = self.name(&["P", "Q", "pair", "F", "mixed", "Phi"]);
+        let mut pieces: Vec<String> = Vec::new();
+        let mut parts: Vec<String> = Vec::new();
+        let mut dets: Vec<Occ> = Vec::new();
+        let mut unused = self.coefficients.clone();
+        unused.shuffle(self.rng);
+        let mut exact = true;
+        if self.rng.random_bool(0.25) {
+            exact = false;
+            let (t, d) = self.operand(1);
+            pieces.push(self.scaled(&t));
+            dets.extend(d);
+        }
+        for _ in 0..self.rng.random_range(1..=3) {
+            let (op, d) = match dets.first().map(Occ::signature) {
+                Some(signature) => self.operand_like(&signature),
+                None => self.operand(1),
+            };
+            let c = match unused.pop() {
+                Some(c) => c,
+                None => {
+                    exact = false;
+                    self.coefficients.choose(self.rng).expect("coefficients").clone()
+                }
+            };
+            let other = self.coefficients.choose(self.rng).expect("coefficients").clone();
+            let piece = if self.rng.random_bool(0.04) {
+                exact = false;
+                match self.rng.random_range(0..6) {
+                    0 => format!("{c} {other} {op}"),
+                    1 => format!("{c}*{other}*{op}"),
+                    2 => format!("{op}/{c}"),
+                    3 => format!("sqrt({c}) {op}"),
+                    4 => format!("{c} + {op}"),
+                    _ => c.clone(),
+                }
+            } else {
+                match self.rng.random_range(0..8) {
+                    0..=2 => format!("{c} {op}"),
+                    3 => format!("{c}*{op}"),
+                    4 => {
+                        let number = ["2", "sqrt(2)", "1/2", "0.6", "sqrt(3)/2", "3"]
+                            .choose(self.rng)
+                            .expect("numbers");
+                        format!("{number} {c} {op}")
+                    }
+                    5 => format!("{c}/{} {op}", ["2", "3", "sqrt(2)"].choose(self.rng).expect("divisors")),
+                    6 => format!("({c}/2) {op}"),
+                    _ => format!("{op} {c}"),
+                }
+            };
+            pieces.push(piece);
+            parts.push(op);
+            dets.extend(d);
+        }
+        let mut text = String::new();
+        for (k, piece) in pieces.iter().enumerate() {
+            let minus = self.rng.random_bool(0.3);
+            text.push_str(match (k, minus) {
+                (0, false) => "",
+                (0, true) => "-",
+                (_, false) => " + ",
+                (_, true) => " - ",
+            });
+            text.push_str(piece);
+        }
+        self.out.push(format!("state {name} = {text}"));
+        if exact && self.rng.random_bool(0.6) {
+            self.claims.push((format!("energy {name}"), format!("roots {}", parts.join(" "))));
+        }
+        self.free.push((name, dets));
+    }
+
+    /// A csf of an excitation of a closed-shell determinant: `ref[i -> a] S=0`, `S=1 M=...`, or
+    /// a double with four open shells (a csfs family, or a path); holes come from doubly
+    /// occupied orbitals and closed spaces, particles from empty orbitals and open spaces.
+    fn define_csf_excitation(&mut self) {
+        let closed_shell = |o: &Occ| {
+            o.open.is_empty()
+                && o.holes.is_empty()
+                && o.electrons.iter().all(|&(orb, beta)| o.electrons.contains(&(orb, !beta)))
+        };
+        let known: Vec<(String, Occ)> = self
+            .dets
+            .iter()
+            .filter(|(_, o)| closed_shell(&o[0]))
+            .map(|(n, o)| (n.clone(), o[0].clone()))
+            .collect();
+        let (reference, occ) = match known.choose(self.rng) {
+            Some(found) if self.rng.random_bool(0.7) => found.clone(),
+            _ => {
+                let mut occ = Occ { closed: self.closed_spaces(), ..Occ::default() };
+                let mut parts: Vec<String> =
+                    occ.closed.iter().map(|&s| format!("{}^2", self.spaces[s].0)).collect();
+                let mut free = self.free_orbitals(&occ.closed);
+                free.shuffle(self.rng);
+                for orb in free.into_iter().take(self.rng.random_range(0..=2)) {
+                    occ.electrons.extend([(orb, false), (orb, true)]);
+                    parts.push(format!("{}^2", self.orb_name(orb)));
+                }
+                let det = format!("| {} |", parts.join(" "));
+                if self.rng.random_bool(0.5) {
+                    (det, occ)
+                } else {
+                    let name = self.name(&["ref", "R0", "closed", "G"]);
+                    self.out.push(format!("det {name} = {det}"));
+                    self.dets.push((name.clone(), vec![occ.clone()]));
+                    self.named.push((name.clone(), vec![occ.clone()]));
+                    (name, occ)
+                }
+            }
+        };
+        let mut holes: Vec<Orb> = occ.electrons.iter().map(|&(orb, _)| orb).collect();
+        holes.dedup();
+        holes.extend(
+            (0..self.indices.len()).filter(|&k| occ.closed.contains(&self.indices[k].1)).map(Orb::Index),
+        );
+        let mut particles: Vec<Orb> = self
+            .free_orbitals(&occ.closed)
+            .into_iter()
+            .filter(|&orb| !occ.electrons.contains(&(orb, false)))
+            .collect();
+        holes.shuffle(self.rng);
+        particles.shuffle(self.rng);
+        let rank = if self.rng.random_bool(0.7) { 1 } else { 2 };
+        if holes.len() < rank || particles.len() < rank {
+            return;
+        }
+        let (from, to) = (&holes[..rank], &particles[..rank]);
+        let prime = if self.rng.random_bool(0.02) { "'" } else { "" };
+        let names = |orbs: &[Orb]| orbs.iter().map(|&o| self.orb_name(o)).collect::<Vec<_>>().join(" ");
+        let operand = format!("{reference}[{}{prime} -> {}]", names(from), names(to));
+        let mut after = occ.clone();
+        for &orb in from {
+            if !after.electrons.remove(&(orb, false)) {
+                after.holes.extend([(orb, false), (orb, true)]);
+            }
+            after.electrons.remove(&(orb, true));
+            after.open.insert(orb);
+        }
+        after.open.extend(to.iter().copied());
+        let shells = 2 * rank;
+        let s2 = if self.rng.random_bool(0.03) { 1 } else { 2 * self.rng.random_range(0..=rank as i64) };
+        let spin = |t: i64| if t % 2 == 0 { (t / 2).to_string() } else { format!("{t}/2") };
+        let mut options = vec![format!("S={}", spin(s2))];
+        if s2 > 0 && self.rng.random_bool(0.5) {
+            let m = s2 - 2 * self.rng.random_range(0..=s2);
+            options.push(format!("M={}", spin(m)));
+        }
+        let paths = count_paths(shells, s2);
+        let family = rank == 2 && self.rng.random_bool(0.5);
+        if !family && paths > 1 {
+            // a random path of twice-spins ending at s2: walk up or down while the end stays reachable
+            let mut path = vec![1i64];
+            for k in 1..shells {
+                let last = *path.last().expect("a start");
+                let left = (shells - k - 1) as i64;
+                let up_ok = (last + 1 - s2).abs() <= left;
+                let down_ok = last > 0 && (last - 1 - s2).abs() <= left;
+                path.push(if up_ok && (!down_ok || self.rng.random_bool(0.5)) { last + 1 } else { last - 1 });
+            }
+            options.push(format!("path={}", path.iter().map(|&t| spin(t)).collect::<Vec<_>>().join(",")));
+        }
+        options.shuffle(self.rng);
+        let name = self.name(&["S1", "T1", "Sx", "Tx", "D1", "Q2", "single", "double"]);
+        let keyword = if family { "csfs" } else { "csf" };
+        self.out.push(format!("{keyword} {name} = {operand} {}", options.join(" ")));
+        if family {
+            for k in 1..=paths.min(3) {
+                self.named.push((format!("{name}.{k}"), vec![after.clone()]));
+            }
+        } else {
+            self.named.push((name, vec![after]));
+        }
+    }
+
+    fn request(&mut self) {
+        let kinds = ["energy", "energy", "element", "overlap", "spin", "roots", "roots"];
+        let kind = *kinds.choose(self.rng).expect("kinds");
+        // a state with free coefficients in energy, element and overlap, and now and then in
+        // `spin` or `roots`, which refuse it
+        let free = match self.free.choose(self.rng) {
+            Some(f) if self.rng.random_bool(if matches!(kind, "spin" | "roots") { 0.03 } else { 0.4 }) => {
+                Some(f.clone())
+            }
+            _ => None,
+        };
+        let (bra, bra_dets) = free.unwrap_or_else(|| self.operand(1));
+        let signature = bra_dets[0].signature();
+        let line = match kind {
+            "energy" | "spin" => format!("{kind} {bra}"),
+            "roots" => {
+                let mut line = format!("roots {bra}");
+                for _ in 0..self.rng.random_range(0..=3) {
+                    let (other, _) = self.operand_like(&signature);
+                    line.push(' ');
+                    line.push_str(&other);
+                }
+                line
+            }
+            _ => {
+                let ket = match self.free.choose(self.rng) {
+                    Some(f) if self.rng.random_bool(0.3) => f.0.clone(),
+                    _ => self.operand_like(&signature).0,
+                };
+                format!("{kind} {bra} {ket}")
+            }
         };
         self.out.push(line);
+    }
+
+    /// `energy X` and `roots X` of a fixed operand: equal where X is one function.
+    fn fixed_claim(&mut self) {
+        let (x, _) = self.operand(1);
+        self.claims.push((format!("energy {x}"), format!("roots {x}")));
     }
 }
 
@@ -492,20 +744,32 @@ pub fn program(rng: &mut impl Rng, size: Size) -> String {
         dets: Vec::new(),
         closed: BTreeSet::new(),
         electrons: 0,
+        coefficients: Vec::new(),
+        free: Vec::new(),
+        claims: Vec::new(),
         out: Vec::new(),
     };
     g.declare();
     g.closed = (0..g.spaces.len()).filter(|_| g.rng.random_bool(0.5)).collect();
     g.electrons = g.rng.random_range(0..=g.size.open_shells + 1);
     for _ in 0..g.rng.random_range(0..=3) {
-        match g.rng.random_range(0..4) {
+        match g.rng.random_range(0..7) {
             0 | 1 => g.define_det(),
             2 => g.define_state(),
-            _ => g.define_csf(),
+            3 => g.define_csf(),
+            4 => g.define_csf_excitation(),
+            _ => g.define_free_state(),
         }
     }
     for _ in 0..g.rng.random_range(1..=g.size.requests) {
         g.request();
+    }
+    if g.rng.random_bool(0.15) {
+        g.fixed_claim();
+    }
+    let claims = std::mem::take(&mut g.claims);
+    for (energy, roots) in &claims {
+        g.out.extend([energy.clone(), roots.clone()]);
     }
     let mut text = String::new();
     for line in &g.out {
@@ -520,6 +784,9 @@ pub fn program(rng: &mut impl Rng, size: Size) -> String {
             text.push_str("    # trailing comment");
         }
         text.push('\n');
+    }
+    for (energy, roots) in &claims {
+        text.push_str(&format!("{CLAIM}{energy} == {roots}\n"));
     }
     text
 }

@@ -1,7 +1,7 @@
 //! Input number k of a seeded run: its category, its bytes, the steps a worker runs on it and
 //! the commands of the real binary run on it. The same seed and k always give the same input.
 
-use crate::binding::binds;
+use crate::binding::{binds, evaluation};
 use crate::generate;
 use crate::integrals::{self, NORB};
 use crate::mutate;
@@ -107,8 +107,11 @@ pub fn make(seed: u64, index: u64, examples: &[String]) -> Input {
             .iter()
             .map(|s| s.to_string())
             .collect();
-        for b in binds(&text, norb, &mut rng) {
+        for b in binds(&text, norb, 3, &mut rng) {
             argv.extend(["--bind".into(), b]);
+        }
+        for s in evaluation(&text, &mut rng).sets {
+            argv.extend(["--set".into(), s]);
         }
         if rng.random_bool(0.5) {
             argv.push("--json".into());
@@ -120,8 +123,12 @@ pub fn make(seed: u64, index: u64, examples: &[String]) -> Input {
     let seed_option = rng.random_bool(0.2).then(|| rng.random_range(0..1_000_000));
     let steps = match &text {
         Some(text) => {
-            let b = binds(text, NORB, &mut rng);
-            plan::full(seed_option, b, rng.random_bool(0.5))
+            // wide spaces make big roots spaces, probing their limits
+            let wide = text.contains("roots")
+                && rng.random_bool(if category == Category::Large { 0.5 } else { 0.1 });
+            let b = binds(text, NORB, if wide { 6 } else { 3 }, &mut rng);
+            let e = evaluation(text, &mut rng);
+            plan::full(seed_option, b, e, rng.random_bool(0.5))
         }
         None => Vec::new(),
     };

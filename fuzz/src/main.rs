@@ -145,7 +145,8 @@ fn slot(shared: Arc<Shared>, events: Sender<Event>) {
             WorkerResult::Skipped
         } else {
             let text = String::from_utf8(input.bytes.clone()).expect("inputs with steps are text");
-            let job = worker::Job { id: k, input: text, steps: input.steps.clone() };
+            let claims = matches!(input.category, Category::Generated | Category::Large);
+            let job = worker::Job { id: k, input: text, steps: input.steps.clone(), claims };
             worker.run(&job, shared.limits.timeout)
         };
         if matches!(result, WorkerResult::Died { .. } | WorkerResult::TimedOut { .. }) {

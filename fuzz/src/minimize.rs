@@ -40,7 +40,13 @@ impl Probe<'_> {
         let (result, binary) = if by_worker {
             let integrals = self.dir.join(INTEGRALS_FILE);
             let worker = self.worker.get_or_insert_with(|| Worker::spawn(&integrals, self.limits));
-            let job = Job { id: self.tries, input: text.expect("checked above"), steps: input.steps.clone() };
+            let job = Job {
+                id: self.tries,
+                input: text.expect("checked above"),
+                steps: input.steps.clone(),
+                // a broken claim is replayed with the claims it broke
+                claims: self.replay.signature.starts_with("claim-broken"),
+            };
             let result = worker.run(&job, self.limits.timeout);
             if matches!(result, WorkerResult::Died { .. } | WorkerResult::TimedOut { .. }) {
                 self.worker = None;

@@ -1,5 +1,6 @@
 //! Mutations of existing inputs: line and token edits with tokens of the language, splices of
-//! two inputs, odd numbers and csf options, deep nesting and very long lines (text level), and
+//! two inputs, odd numbers, csf options and free coefficients, `roots` lines of many operands,
+//! deep nesting and very long lines (text level), and
 //! random bytes, control characters, non-UTF-8, a byte-order mark and line-ending changes
 //! (byte level).
 
@@ -7,7 +8,7 @@ use rand::seq::IndexedRandom;
 use rand::{Rng, RngExt};
 
 /// Tokens of the language and its edges, inserted or substituted at random.
-const TOKENS: [&str; 71] = [
+const TOKENS: [&str; 82] = [
     "|",
     "| ",
     "'",
@@ -62,6 +63,17 @@ const TOKENS: [&str; 71] = [
     "element",
     "overlap",
     "spin",
+    "roots",
+    "coefficients",
+    "coefficients cg cu",
+    "cg",
+    "cu",
+    "cg cu",
+    "cu/2",
+    "sqrt(cg)",
+    "[i -> a]",
+    "[i j' -> a b']",
+    "[i n -> a d]",
     "S=",
     "M=",
     "path=",
@@ -147,7 +159,7 @@ fn edit(rng: &mut impl Rng, text: &str, other: &str) -> String {
     let mut toks = tokens(text);
     let words: Vec<String> =
         toks.iter().filter(|t| t.chars().all(|c| c.is_ascii_alphanumeric() || c == '_')).cloned().collect();
-    match rng.random_range(0..16) {
+    match rng.random_range(0..17) {
         0 => {
             lines.remove(below(rng, n));
         }
@@ -265,7 +277,28 @@ fn edit(rng: &mut impl Rng, text: &str, other: &str) -> String {
             match (0..n).filter(|&k| lines[k].trim_start().starts_with("csf")).collect::<Vec<_>>().choose(rng)
             {
                 Some(&k) => lines[k] = format!("{} {option}", lines[k]),
-                None => lines.insert(below(rng, n + 1), format!("csf zz = | x y z | {option}")),
+                None => {
+                    let operand = ["| x y z |", "ref[i -> a]", "ref[i j -> a b]", "| core^2 |[x -> y]"]
+                        .choose(rng)
+                        .expect("operands");
+                    lines.insert(below(rng, n + 1), format!("csf zz = {operand} {option}"))
+                }
+            }
+        }
+        15 => {
+            // a request turned into `roots`, its operands repeated: a space of many members
+            let requests: Vec<usize> = (0..n)
+                .filter(|&k| {
+                    ["energy ", "element ", "overlap ", "spin ", "roots "]
+                        .iter()
+                        .any(|w| lines[k].trim_start().starts_with(w))
+                })
+                .collect();
+            if let Some(&k) = requests.choose(rng) {
+                let line = lines[k].split('#').next().unwrap_or("").trim().to_string();
+                let operands = line.split_once(' ').map(|(_, rest)| rest).unwrap_or("");
+                let times = *[1, 2, 10, 200].choose(rng).expect("counts");
+                lines[k] = format!("roots {}", vec![operands; times].join(" "));
             }
         }
         _ => {

@@ -65,9 +65,27 @@ impl Emit {
 /// One command of the binary.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub enum Step {
-    Derive { variant: Variant, emit: Emit },
-    States { json: bool },
-    Eval { variant: Variant, binds: Vec<String>, json: bool },
+    Derive {
+        variant: Variant,
+        emit: Emit,
+    },
+    States {
+        json: bool,
+    },
+    /// `eval` with bindings, free-coefficient values (`--set`) and `--roots N`.
+    Eval {
+        variant: Variant,
+        binds: Vec<String>,
+        evaluation: Evaluation,
+        json: bool,
+    },
+}
+
+/// What `eval` is told besides the bindings: values of free coefficients and how many roots.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct Evaluation {
+    pub sets: Vec<String>,
+    pub roots: Option<u64>,
 }
 
 impl Step {
@@ -86,11 +104,17 @@ impl Step {
                     out.push("--json".into());
                 }
             }
-            Step::Eval { variant, binds, json } => {
+            Step::Eval { variant, binds, evaluation, json } => {
                 out.extend(["eval".into(), INPUT_FILE.into(), "--integrals".into(), INTEGRALS_FILE.into()]);
                 out.extend(variant.args());
                 for b in binds {
                     out.extend(["--bind".into(), b.clone()]);
+                }
+                for s in &evaluation.sets {
+                    out.extend(["--set".into(), s.clone()]);
+                }
+                if let Some(n) = evaluation.roots {
+                    out.extend(["--roots".into(), n.to_string()]);
                 }
                 if *json {
                     out.push("--json".into());
@@ -103,8 +127,8 @@ impl Step {
 
 /// Every step for one input: every emitter with and without `--fock` and `--distinct`, both
 /// state listings, and evaluation in the plain, Fock and distinct forms with one set of bindings
-/// (so that their numbers can be compared).
-pub fn full(seed: Option<u64>, binds: Vec<String>, json: bool) -> Vec<Step> {
+/// and settings (so that their numbers can be compared).
+pub fn full(seed: Option<u64>, binds: Vec<String>, evaluation: Evaluation, json: bool) -> Vec<Step> {
     let variants: Vec<Variant> = [(false, false), (true, false), (false, true), (true, true)]
         .into_iter()
         .map(|(fock, distinct)| Variant { fock, distinct, seed })
@@ -114,7 +138,12 @@ pub fn full(seed: Option<u64>, binds: Vec<String>, json: bool) -> Vec<Step> {
         .flat_map(|&variant| Emit::ALL.into_iter().map(move |emit| Step::Derive { variant, emit }))
         .collect();
     steps.extend([Step::States { json: false }, Step::States { json: true }]);
-    steps.extend(variants[..3].iter().map(|&variant| Step::Eval { variant, binds: binds.clone(), json }));
+    steps.extend(variants[..3].iter().map(|&variant| Step::Eval {
+        variant,
+        binds: binds.clone(),
+        evaluation: evaluation.clone(),
+        json,
+    }));
     steps
 }
 

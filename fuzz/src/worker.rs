@@ -1,12 +1,13 @@
 //! A worker subprocess: takes inputs from the parent one at a time, runs each step through the
 //! library as the binary would, catches panics, checks the outputs, and reports every outcome.
 
+use crate::generate::CLAIM;
 use crate::plan::{Emit, INPUT_FILE, Step, Variant};
 use serde::{Deserialize, Serialize};
 use spinfold::{
-    Bindings, Checked, DEFAULT_SEED, Error, Evaluated, Format, IntegralDump, Limits, Options, Program,
-    derive_checked, eval_warnings, evaluate_all, parse_with, read_dump, render, render_states, results_json,
-    results_text,
+    Bindings, Checked, DEFAULT_SEED, Error, Evaluated, Format, FreeValue, IntegralDump, Limits, Options,
+    Program, RequestKind, Settings, derive_checked, eval_warnings, evaluate_with, parse_with, read_dump,
+    render, render_states, results_json, results_text,
 };
 use std::collections::HashMap;
 use std::io::{BufRead, Write};
@@ -23,6 +24,9 @@ pub struct Job {
     pub id: u64,
     pub input: String,
     pub steps: Vec<Step>,
+    /// Check the claims the generator wrote into the input (only an unmutated generated
+    /// program's claims hold).
+    pub claims: bool,
 }
 
 /// What a worker says: the step it is about to start, then the outcomes of the whole job.
@@ -51,6 +55,9 @@ pub enum Problem {
     NotFinite(String),
     /// Two forms of one evaluation (plain and Fock, plain and distinct) disagree.
     EvalMismatch(String),
+    /// A claim of the generator does not hold: the lowest root of a `roots` request is not the
+    /// energy of the one function it spans, or lies above an energy of a function in its span.
+    ClaimBroken(String),
 }
 
 type Failure = (i32, String);
@@ -66,6 +73,8 @@ struct Session<'a> {
     program: Option<Result<Program, Failure>>,
     derived: HashMap<Variant, Result<Vec<Checked>, Failure>>,
     evaluated: Vec<(Variant, Vec<Evaluated>)>,
+    /// (energy request, roots request) as written
+    claims: Vec<(String, String)>,
 }
 
 impl Session<'_> {
@@ -113,16 +122,21 @@ impl Session<'_> {
                 let out = render_states(&program, *json);
                 Ok(if *json { json_problem(&out) } else { None })
             }
-            Step::Eval { variant, binds, json } => {
+            Step::Eval { variant, binds, evaluation, json } => {
                 let (program, derived) = self.derived(*variant)?;
                 let bindings = Bindings::parse(&program, binds, self.dump.header.norb).map_err(failure)?;
+                // as the binary takes --roots N
+                let roots = evaluation.roots.map(|n| usize::try_from(n).unwrap_or(usize::MAX));
+                let settings = Settings::parse(&program, &evaluation.sets, roots).map_err(failure)?;
                 let results =
-                    evaluate_all(&program, &derived, &bindings, &self.dump.integrals).map_err(failure)?;
+                    evaluate_with(&program, &derived, &bindings, &self.dump.integrals, &settings, &|_| {})
+                        .map_err(failure)?;
                 let warnings = eval_warnings(self.dump, &results);
                 let out = if *json { results_json(&results, &warnings) } else { results_text(&results) };
                 let problem = if *json { json_problem(&out) } else { None }
                     .or_else(|| not_finite(&results))
-                    .or_else(|| self.disagreement(&program, binds, *variant, &results));
+                    .or_else(|| self.disagreement(&program, binds, *variant, &results))
+                    .or_else(|| self.broken_claim(&results));
                 self.evaluated.push((*variant, results));
                 Ok(problem)
             }
@@ -149,6 +163,10 @@ impl Session<'_> {
                 continue;
             }
             for (mine, their) in results.iter().zip(theirs) {
+                // --distinct leaves members with coinciding indices out of a roots space
+                if mine.kind == RequestKind::Roots && (other.distinct || variant.distinct) {
+                    continue;
+                }
                 // rows left out differ between forms, so rows are matched by their indices
                 let pairs = mine
                     .entries
@@ -175,16 +193,62 @@ impl Session<'_> {
     }
 }
 
+impl Session<'_> {
+    /// The generator's claims on these results: where the energy request has one value (at
+    /// the stationary point or of a fixed state), the lowest root of the roots request over the
+    /// same functions equals it; where it has a table, the lowest root lies at or below every
+    /// value of the table (each is the energy of a function in the roots space).
+    fn broken_claim(&self, results: &[Evaluated]) -> Option<Problem> {
+        let find = |text: &str| results.iter().find(|r| r.request.trim() == text);
+        for (energy, roots) in &self.claims {
+            let (Some(e), Some(r)) = (find(energy), find(roots)) else { continue };
+            let Some(lowest) = r.roots.as_ref().and_then(|o| o.roots.first()).map(|v| v.value) else {
+                continue;
+            };
+            if e.kind != RequestKind::Energy || e.free == Some(FreeValue::Set) || e.entries.is_empty() {
+                continue;
+            }
+            let values: Vec<f64> = e.entries.iter().map(|x| x.value).collect();
+            let least = values.iter().copied().fold(f64::INFINITY, f64::min);
+            let tolerance = 1e-8 * 1f64.max(least.abs());
+            let one = values.len() == 1 && e.omitted.is_empty();
+            let broken = if one { (lowest - least).abs() > tolerance } else { lowest > least + tolerance };
+            if broken {
+                return Some(Problem::ClaimBroken(format!(
+                    "`{roots}` has the lowest root {lowest}, `{energy}` {} {least}",
+                    if one { "is" } else { "has the least value" }
+                )));
+            }
+        }
+        None
+    }
+}
+
+/// The claims written into an input by the generator.
+fn claims(text: &str) -> Vec<(String, String)> {
+    text.lines()
+        .filter_map(|l| l.strip_prefix(CLAIM)?.split_once(" == "))
+        .map(|(e, r)| (e.trim().to_string(), r.trim().to_string()))
+        .collect()
+}
+
 fn json_problem(out: &str) -> Option<Problem> {
     serde_json::from_str::<serde_json::Value>(out).err().map(|e| Problem::InvalidJson(e.to_string()))
 }
 
+/// The first number of the results that is not finite: a value, a coefficient where an energy
+/// is stationary or set, or a component of a root.
 fn not_finite(results: &[Evaluated]) -> Option<Problem> {
     results.iter().find_map(|r| {
-        r.entries
-            .iter()
-            .find(|e| !e.value.is_finite())
-            .map(|e| Problem::NotFinite(format!("{} at {:?}: {}", r.request, e.indices, e.value)))
+        let entry = r.entries.iter().find_map(|e| {
+            let bad = !e.value.is_finite() || e.coefficients.iter().any(|(_, c)| !c.is_finite());
+            bad.then(|| format!("{} at {:?}: {} {:?}", r.request, e.indices, e.value, e.coefficients))
+        });
+        let root = r.roots.iter().flat_map(|o| &o.roots).find_map(|root| {
+            let bad = !root.value.is_finite() || root.vector.iter().any(|c| !c.coefficient.is_finite());
+            bad.then(|| format!("{}: a root {} or its vector is not finite", r.request, root.value))
+        });
+        entry.or(root).map(Problem::NotFinite)
     })
 }
 
@@ -220,6 +284,7 @@ pub fn serve(integrals: &str, memory_mb: u64) -> ! {
             program: None,
             derived: HashMap::new(),
             evaluated: Vec::new(),
+            claims: if job.claims { claims(&job.input) } else { Vec::new() },
         };
         let mut outcomes = Vec::new();
         for (k, step) in job.steps.iter().enumerate() {

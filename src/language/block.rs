@@ -2,10 +2,45 @@
 //! coefficients (pairs of their parts), and the matrix elements of a `roots` space (pairs of its operands).
 
 use crate::engine::exact::Exact;
-use crate::error::Span;
+use crate::error::{Change, Error, ErrorKind, Limit, Span};
 use crate::language::orbital::Orb;
 use crate::language::program::{Index, Linear, Program, Request, RequestKind, State, Symbols};
 use std::collections::{BTreeMap, BTreeSet};
+
+/// The most functions one block may have: operands of a `roots` request, or parts of a state
+/// with free coefficients in a request. Every pair of them is derived and verified on its own,
+/// so the work grows as the square of their number.
+pub const MAX_FUNCTIONS: usize = 100;
+
+/// The error for a block of `count` functions past `MAX_FUNCTIONS`, at `span`: `what` says what
+/// holds them ("this `roots` request lists"), `unit` what they are ("operands").
+pub fn too_many_functions(what: String, count: usize, unit: &'static str, span: &Span) -> Error {
+    Error::at(
+        ErrorKind::TooLarge {
+            what,
+            count: count.to_string(),
+            limit: Box::new(Limit {
+                value: MAX_FUNCTIONS as u128,
+                unit,
+                change: Change::Fixed(
+                    "every pair of them is derived and verified on its own, so the work grows as the square of their number; let generic indices stand for the members of a space instead of listing them (`ref[i -> a]` is every single excitation of `ref`), and give free coefficients to fewer, larger parts".into(),
+                ),
+            }),
+        },
+        span,
+    )
+}
+
+/// The request's text as the prefix of a pair's: whole up to 80 characters, else cut with `...`,
+/// so that the pairs of a long request do not each carry a copy of all of it.
+fn prefix(text: &str) -> String {
+    const LONGEST: usize = 80;
+    if text.chars().count() <= LONGEST {
+        text.to_string()
+    } else {
+        format!("{}...", text.chars().take(LONGEST - 3).collect::<String>())
+    }
+}
 
 /// One function of a block: a part of a state with free coefficients, or an operand of `roots`.
 #[derive(Clone, Debug)]
@@ -163,7 +198,7 @@ fn pair_request(
     };
     Request {
         kind,
-        text: format!("{text}: {bracket}{note}"),
+        text: format!("{}: {bracket}{note}", prefix(text)),
         bra: row.state.clone(),
         ket,
         bra_text: row.label.clone(),

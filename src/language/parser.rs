@@ -7,7 +7,7 @@ use crate::engine::derive::{Options, derive};
 use crate::engine::exact::Exact;
 use crate::engine::spin_adapted_excitation::excited_shells;
 use crate::error::{Change, Error, ErrorKind, Limit, Result, STATEMENTS, Source, Span};
-use crate::language::block::Block;
+use crate::language::block::{Block, MAX_FUNCTIONS, too_many_functions};
 use crate::language::orbital::{Orb, Spin, SpinOrbital};
 use crate::language::program::{
     Coefficient, Coupling, DetSpec, Excitation, Index, Linear, NamedState, Occupant, Orbital, Program,
@@ -445,6 +445,12 @@ impl Resolver {
                 &span,
             ));
         }
+        if operands.len() > MAX_FUNCTIONS {
+            // at the first operand past the limit
+            let past = self.span(&operands[MAX_FUNCTIONS]);
+            let what = "this `roots` request lists".to_string();
+            return Err(too_many_functions(what, operands.len(), "operands", &past));
+        }
         let mut states: Vec<(Linear, String)> = vec![];
         for operand in operands {
             self.expand_used(&operand);
@@ -469,6 +475,11 @@ impl Resolver {
                     },
                     &operand_span,
                 ));
+            }
+            let parts = state.functions().count();
+            if !state.parts.is_empty() && parts > MAX_FUNCTIONS {
+                let what = format!("`{text}` is a sum of");
+                return Err(too_many_functions(what, parts, "parts", &operand_span));
             }
             states.push((state, text));
         }

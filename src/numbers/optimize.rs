@@ -106,7 +106,7 @@ pub struct Outcome {
 const MAX_STEP: f64 = 0.5;
 
 /// Pairs of steps and gradient changes L-BFGS remembers.
-const MEMORY: usize = 10;
+const MEMORY: usize = 20;
 
 /// The smallest diagonal Hessian guess: near-degenerate or negative estimates would make the
 /// first steps huge.

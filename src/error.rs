@@ -268,6 +268,28 @@ pub enum ErrorKind {
         request: String,
         report: String,
     },
+    /// Generic indices `optimize` needs bound: it optimizes one state, not a table of them.
+    UnboundIndices {
+        request: String,
+        names: String,
+    },
+    /// The energy of a state's densities differs from its derived energy expression, with the
+    /// same integrals: an internal error.
+    DensityMismatch {
+        request: String,
+        density: f64,
+        expression: f64,
+    },
+    /// An orbital optimization that stopped before its gradient fell below the tolerance:
+    /// at the iteration limit, or (`stalled`) where no lower energy was found along the step.
+    NotConverged {
+        request: String,
+        iterations: usize,
+        energy: f64,
+        gradient_norm: f64,
+        tolerance: f64,
+        stalled: bool,
+    },
 }
 
 /// A bound that keeps a run within time and memory: its value, what it counts, and either the
@@ -310,7 +332,9 @@ impl Error {
     /// The process exit code: 1 for a failed verification, 2 for bad input or usage.
     pub fn exit_code(&self) -> i32 {
         match self.kind {
-            ErrorKind::VerificationFailed { .. } => 1,
+            ErrorKind::VerificationFailed { .. }
+            | ErrorKind::DensityMismatch { .. }
+            | ErrorKind::NotConverged { .. } => 1,
             _ => 2,
         }
     }
@@ -445,6 +469,22 @@ impl Error {
             VerificationFailed { request, report } => {
                 format!("verification failed for `{request}`: {report}")
             }
+            UnboundIndices { request, names } => format!(
+                "`{request}` has generic indices that are not bound ({names}): optimize needs one state, with every index on an orbital"
+            ),
+            DensityMismatch { request, density, expression } => format!(
+                "internal error: the densities of `{request}` give the energy {density:.12}, but its derived expression gives {expression:.12} with the same integrals"
+            ),
+            NotConverged { request, iterations, energy, gradient_norm, tolerance, stalled } => {
+                let why = if *stalled {
+                    format!("after {iterations} iterations the line search found no lower energy")
+                } else {
+                    format!("it reached the limit of {iterations} iterations")
+                };
+                format!(
+                    "the orbitals of `{request}` did not converge: {why}, at energy {energy:.12} with gradient norm {gradient_norm:.3e} (tolerance {tolerance:.1e})"
+                )
+            }
         }
     }
 
@@ -504,6 +544,10 @@ impl Error {
             DistinctCoincide { .. } => "drop --distinct: without it the expression holds for every assignment, equal indices included".into(),
             NonFinite { .. } => "check the values of the integral file".into(),
             IntegralFile { .. } => "the integral file must be in the integral-dump text format described in README.md".into(),
+            UnboundIndices { names, .. } => format!("bind each with --bind, e.g. --bind {}=N", names.split(", ").next().unwrap_or("i")),
+            DensityMismatch { .. } => "please report this input and integral file; run eval for the energy meanwhile".into(),
+            NotConverged { stalled: false, .. } => "raise --max-iter, or start from orbitals closer to the state's (e.g. converged for a similar state); a looser --gradient-tol stops earlier".into(),
+            NotConverged { stalled: true, .. } => "the energy no longer changes visibly: loosen --gradient-tol, or start from other orbitals".into(),
             _ => return None,
         })
     }

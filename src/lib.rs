@@ -45,17 +45,23 @@ pub use language::orbital::{Orb, SpaceId, SpaceSet, Spin, SpinOrbital};
 pub use language::parser::{Limits, MAX_NESTING, parse, parse_with};
 pub use language::program::{Coupling, Program, Request, RequestKind, State};
 pub use numbers::bind::Bindings;
+pub use numbers::density::{Densities, densities};
 pub use numbers::evaluate::{Binding, evaluate};
-pub use numbers::fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump};
+pub use numbers::fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump, write_dump};
 pub use numbers::integrals::{IntegralTable, Integrals, TABLE_BUDGET_BYTES};
+pub use numbers::optimize::Controls;
+pub use numbers::optimize_request::{Optimized, Prepared, orbitals_text, prepare};
+pub use numbers::rotation::exp_antisymmetric;
 pub use numbers::settings::{DEFAULT_ROOTS, Settings};
 pub use numbers::space::{
     Component, DEPENDENCE_THRESHOLD, MEMBER_LIMIT, Operand, PairElement, Root, SpaceRoots, Timing,
     solve_space,
 };
 pub use numbers::tabulate::{ComponentValue, Entry, Evaluated, FreeValue, Omitted, RootValue, RootsOut};
+pub use numbers::transform::rotate_all;
 pub use output::{remove_temporaries_on_signal, write_files, write_output};
 pub use pipeline::{
-    DEFAULT_SEED, Format, derive_checked, eval_warnings, evaluate_all, evaluate_with, render, render_each,
-    render_states, results_json, results_text,
+    DEFAULT_SEED, Format, derive_checked, eval_warnings, evaluate_all, evaluate_with, optimize_all,
+    optimized_dump, optimized_json, optimized_text, render, render_each, render_states, results_json,
+    results_text,
 };

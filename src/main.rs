@@ -1,10 +1,12 @@
-//! The `spinfold` command: `derive` writes checked closed formulas, `eval` evaluates them
-//! with the integrals of a real molecule. Exit codes: 0 ok, 1 verification mismatch, 2 bad input.
+//! The `spinfold` command: `derive` writes checked closed formulas, `eval` evaluates them with the
+//! integrals of a real molecule, `optimize` optimizes orbitals for an energy. Exit codes: 0 ok, 1 a
+//! verification mismatch or an optimization that did not converge, 2 bad input.
 
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
-    Bindings, Checked, DEFAULT_SEED, Error, ErrorKind, Format, Limits, MAX_CASES, Options, Program, Result,
-    Route, Settings, Source, Span, derive_checked, eval_warnings, evaluate_with, parse_with, read_dump,
+    Bindings, Checked, Controls, DEFAULT_SEED, Error, ErrorKind, Format, Limits, MAX_CASES, Options, Program,
+    Result, Route, Settings, Source, Span, derive_checked, eval_warnings, evaluate_with, optimize_all,
+    optimized_dump, optimized_json, optimized_text, orbitals_text, parse_with, read_dump,
     remove_temporaries_on_signal, render, render_each, render_states, results_json, results_text,
     write_files, write_output,
 };
@@ -141,6 +143,47 @@ enum Command {
         #[arg(short, long)]
         output: Option<String>,
     },
+    /// Optimize the orbitals for every `energy` request of FILE: its total energy minimized over
+    /// rotations of the integral file's orbitals (and its free coefficients), from the file's orbitals.
+    Optimize {
+        #[command(flatten)]
+        common: Derivation,
+        /// Integral file in the common integral-dump text format (chemists' notation, 1-based).
+        #[arg(long)]
+        integrals: String,
+        /// Bind an orbital, space or generic index to 1-based orbitals: a=6, core=1-5, i=3. Every
+        /// generic index of an optimized state must be bound.
+        #[arg(long = "bind", value_name = "NAME=SPEC")]
+        bind: Vec<String>,
+        /// Print {"results": [...], "warnings": [...]} as JSON.
+        #[arg(long)]
+        json: bool,
+        /// Converged when the Euclidean norm of the orbital gradient falls below this.
+        #[arg(long, default_value_t = 1e-6, value_parser = positive, allow_negative_numbers = true)]
+        gradient_tol: f64,
+        /// Most quasi-Newton iterations per request; reaching it is an error (exit status 1).
+        #[arg(long, default_value_t = 200, value_parser = clap::value_parser!(u64).range(1..))]
+        max_iter: u64,
+        /// Write the integrals in the optimized orbitals to this integral-dump file (one energy
+        /// request only).
+        #[arg(long, value_name = "OUT")]
+        write_integrals: Option<String>,
+        /// Write the optimized orbitals (columns over the file's orbitals) to this text file
+        /// (one energy request only).
+        #[arg(long, value_name = "OUT")]
+        write_orbitals: Option<String>,
+        /// Write the results to this file instead of standard output.
+        #[arg(short, long)]
+        output: Option<String>,
+    },
+}
+
+/// A positive finite number.
+fn positive(text: &str) -> std::result::Result<f64, String> {
+    match text.parse::<f64>() {
+        Ok(x) if x.is_finite() && x > 0.0 => Ok(x),
+        _ => Err(format!("`{text}` is not a positive number (e.g. 1e-6)")),
+    }
 }
 
 /// The input text and the name it is reported under. A leading byte-order mark is dropped, so
@@ -236,6 +279,69 @@ fn run(cli: Cli) -> Result<()> {
             }
             let text = if json { results_json(&results, &warnings) } else { results_text(&results) };
             write_output(output.as_deref(), &text)
+        }
+        Command::Optimize {
+            common,
+            integrals,
+            bind,
+            json,
+            gradient_tol,
+            max_iter,
+            write_integrals,
+            write_orbitals,
+            output,
+        } => {
+            let dump = read_dump(&integrals)?;
+            let (program, checked) = derived(&common)?;
+            let bindings = Bindings::parse(&program, &bind, dump.header.norb)?;
+            let energies: Vec<&str> = program
+                .requests
+                .iter()
+                .filter(|r| r.kind == spinfold::RequestKind::Energy)
+                .map(|r| r.text.as_str())
+                .collect();
+            for (option, given) in
+                [("--write-integrals", &write_integrals), ("--write-orbitals", &write_orbitals)]
+            {
+                if given.is_some() && energies.len() != 1 {
+                    let listed = if energies.is_empty() {
+                        "none".to_string()
+                    } else {
+                        energies.iter().map(|e| format!("`{e}`")).collect::<Vec<_>>().join(", ")
+                    };
+                    return Err(Error::new(ErrorKind::Usage {
+                        why: format!(
+                            "{option} writes the orbitals of one state, so FILE must have exactly one `energy` request; it has {}: {listed}. Keep the one to write in a file of its own",
+                            energies.len()
+                        ),
+                    }));
+                }
+            }
+            let controls =
+                Controls { gradient_tol, max_iter: usize::try_from(max_iter).unwrap_or(usize::MAX) };
+            let (results, warnings) = optimize_all(
+                &program,
+                &checked,
+                &bindings,
+                &dump,
+                controls,
+                common.max_determinants,
+                &|line| {
+                    let _ = writeln!(std::io::stderr(), "{line}");
+                },
+            )?;
+            for warning in &warnings {
+                eprintln!("warning: {warning}");
+            }
+            let text = if json { optimized_json(&results, &warnings) } else { optimized_text(&results) };
+            write_output(output.as_deref(), &text)?;
+            if let (Some(path), Some(result)) = (&write_integrals, results.first()) {
+                write_output(Some(path), &optimized_dump(&dump, result))?;
+            }
+            if let (Some(path), Some(result)) = (&write_orbitals, results.first()) {
+                write_output(Some(path), &orbitals_text(result))?;
+            }
+            Ok(())
         }
     }
 }

@@ -9,10 +9,13 @@ use crate::language::program::Program;
 use crate::language::program::RequestKind;
 use crate::numbers::bind::Bindings;
 use crate::numbers::block_values::evaluate_block;
-use crate::numbers::fcidump::IntegralDump;
+use crate::numbers::fcidump::{IntegralDump, write_dump};
 use crate::numbers::integrals::Integrals;
+use crate::numbers::optimize::Controls;
+use crate::numbers::optimize_request::{Optimized, optimize_request};
 use crate::numbers::settings::Settings;
 use crate::numbers::tabulate::{Evaluated, FreeValue, RootsOut, equal_text, tabulate};
+use crate::numbers::transform::rotate_all;
 use itertools::Itertools;
 
 /// The seed of the random integrals used by verification unless another is asked for.
@@ -122,11 +125,133 @@ pub fn evaluate_with(
         .requests
         .iter()
         .zip(derivations)
-        .map(|(request, (d, _))| match &d.block {
-            Some(block) => evaluate_block(program, request, d, block, bindings, ints, settings, progress),
-            None => tabulate(program, request, d, bindings, ints),
+        .map(|(request, checked)| {
+            evaluate_request(program, request, checked, bindings, ints, settings, progress)
         })
         .collect()
+}
+
+fn evaluate_request(
+    program: &Program,
+    request: &crate::language::program::Request,
+    (d, _): &Checked,
+    bindings: &Bindings,
+    ints: &dyn Integrals,
+    settings: &Settings,
+    progress: &dyn Fn(&str),
+) -> Result<Evaluated> {
+    match &d.block {
+        Some(block) => evaluate_block(program, request, d, block, bindings, ints, settings, progress),
+        None => tabulate(program, request, d, bindings, ints),
+    }
+}
+
+/// Optimizes the orbitals for every `energy` request separately, each from the file's
+/// orbitals (see `numbers::optimize`); other requests are skipped with a warning. Before its
+/// optimization, the energy of each state's densities in the file's orbitals is checked against
+/// its derived expression evaluated as `eval` does. `progress` hears each iteration, with the
+/// request it belongs to. Returns the results and the warnings for the user.
+pub fn optimize_all(
+    program: &Program,
+    derivations: &[Checked],
+    bindings: &Bindings,
+    dump: &IntegralDump,
+    controls: Controls,
+    max_determinants: usize,
+    progress: &dyn Fn(&str),
+) -> Result<(Vec<Optimized>, Vec<String>)> {
+    let mut warnings = dump.warnings.clone();
+    let mut results = vec![];
+    for (request, checked) in program.requests.iter().zip(derivations) {
+        if request.kind != RequestKind::Energy {
+            warnings.push(format!("`{}` is not an energy: optimize skips it", request.text));
+            continue;
+        }
+        let expression = || -> Result<f64> {
+            let value = evaluate_request(
+                program,
+                request,
+                checked,
+                bindings,
+                &dump.integrals,
+                &Settings::default(),
+                &|_| {},
+            )?;
+            Ok(value.entries.first().map_or(f64::NAN, |e| e.value))
+        };
+        let report = |line: &str| progress(&format!("{}: {line}", request.text));
+        let result = optimize_request(
+            program,
+            request,
+            bindings,
+            dump,
+            &expression,
+            max_determinants,
+            controls,
+            &report,
+        )?;
+        if let Some(nelec) = dump.header.nelec
+            && result.electrons != nelec
+        {
+            warnings.push(format!(
+                "`{}` has {} electrons under the bindings, but the integral file was made for NELEC={nelec}",
+                result.request, result.electrons
+            ));
+        }
+        warnings.extend(result.warnings.iter().cloned());
+        results.push(result);
+    }
+    Ok((results, warnings))
+}
+
+/// The integral file in the optimized orbitals of one result: every integral transformed,
+/// the header (ORBSYM, NELEC, MS2) and the constant kept.
+pub fn optimized_dump(dump: &IntegralDump, result: &Optimized) -> String {
+    write_dump(&dump.header, &rotate_all(&dump.integrals, result.orbitals.as_ref()))
+}
+
+/// Optimization results as text: per request its energy, the iterations and final gradient
+/// norm, and the free coefficients where the state has any.
+pub fn optimized_text(results: &[Optimized]) -> String {
+    let mut out = String::new();
+    for r in results {
+        out.push_str(&format!(
+            "{:<32} {:>22}  ({} iterations, gradient norm {:.1e})",
+            r.request,
+            fixed(r.value),
+            r.iterations,
+            r.gradient_norm
+        ));
+        if let Some(c) = &r.coefficients {
+            out.push_str(&format!(
+                "  at {}",
+                c.iter().map(|(n, x)| format!("{n} = {}", fixed(*x))).join(", ")
+            ));
+        }
+        out.push('\n');
+    }
+    out
+}
+
+/// Optimization results as JSON: `{"results": [{"request", "value", "iterations",
+/// "gradient_norm", "coefficients" (only for states with free ones)}], "warnings": [...]}`.
+pub fn optimized_json(results: &[Optimized], warnings: &[String]) -> String {
+    let list: Vec<serde_json::Value> = results
+        .iter()
+        .map(|r| {
+            let mut v = serde_json::json!({"request": r.request, "value": r.value, "iterations": r.iterations,
+                "gradient_norm": r.gradient_norm});
+            if let Some(c) = &r.coefficients {
+                let map: serde_json::Map<String, serde_json::Value> =
+                    c.iter().map(|(n, x)| (n.clone(), serde_json::json!(x))).collect();
+                v["coefficients"] = map.into();
+            }
+            v
+        })
+        .collect();
+    serde_json::to_string_pretty(&serde_json::json!({ "results": list, "warnings": warnings }))
+        .expect("plain data serializes")
+        + "\n"
 }
 
 /// What the user should know about an evaluation: what the integral reader assumed, and

@@ -85,21 +85,8 @@ pub fn evaluate_block(
         for component in &root.vector {
             c[component.operand] = component.coefficient;
         }
-        let functions = &block.block.rows;
-        let scale = match functions.iter().position(|f| f.coefficient.is_none()) {
-            Some(k) if c[k].abs() > FIXED_WEIGHT_FLOOR => 1.0 / c[k],
-            fixed => {
-                if fixed.is_some() {
-                    warnings.borrow_mut().push(format!(
-                        "`{}`: the state where the energy is stationary has no fixed part, so its written weight cannot be kept; its coefficients are given normalized",
-                        d.text
-                    ));
-                }
-                let largest = c.iter().copied().fold(0.0f64, |a, x| if x.abs() > a.abs() { x } else { a });
-                largest.signum()
-            }
-        };
-        let coefficients = coefficient_values(program, functions, &c, scale);
+        let (coefficients, warning) = stationary_coefficients(program, &d.text, &block.block.rows, &c);
+        warnings.borrow_mut().extend(warning);
         Ok((root.value, coefficients))
     };
     let mut out = table(program, request, d, bindings, &excluded, &value)?;
@@ -107,6 +94,32 @@ pub fn evaluate_block(
     out.warnings = warnings.into_inner();
     out.warnings.dedup();
     Ok(out)
+}
+
+/// (name, value) of every free coefficient of a stationary state whose functions have the
+/// coefficients `c`: rescaled so that the fixed part keeps its written weight 1, or, without a
+/// fixed part (or where it has no weight, which a warning then says), with the largest
+/// coefficient positive.
+pub(crate) fn stationary_coefficients(
+    program: &Program,
+    request: &str,
+    functions: &[Function],
+    c: &[f64],
+) -> (Vec<(String, f64)>, Option<String>) {
+    let mut warning = None;
+    let scale = match functions.iter().position(|f| f.coefficient.is_none()) {
+        Some(k) if c[k].abs() > FIXED_WEIGHT_FLOOR => 1.0 / c[k],
+        fixed => {
+            if fixed.is_some() {
+                warning = Some(format!(
+                    "`{request}`: the state where the energy is stationary has no fixed part, so its written weight cannot be kept; its coefficients are given normalized"
+                ));
+            }
+            let largest = c.iter().copied().fold(0.0f64, |a, x| if x.abs() > a.abs() { x } else { a });
+            largest.signum()
+        }
+    };
+    (coefficient_values(program, functions, c, scale), warning)
 }
 
 /// (name, value) of every free coefficient of the functions, their coefficients in the

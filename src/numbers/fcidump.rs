@@ -2,7 +2,9 @@
 //! then lines `value i j k l` in chemists' notation, 1-based, unique 8-fold entries only.
 
 use crate::error::{Error, ErrorKind, Result};
-use crate::numbers::integrals::{Class, IntegralTable, TABLE_BUDGET_BYTES, TableFull, eri_classes};
+use crate::numbers::integrals::{
+    Class, IntegralTable, Integrals, TABLE_BUDGET_BYTES, TableFull, eri_classes,
+};
 use std::io::BufRead;
 
 /// The header facts of an integral file.
@@ -11,6 +13,10 @@ pub struct DumpHeader {
     pub norb: usize,
     pub nelec: Option<usize>,
     pub ms2: Option<i64>,
+    /// The irreducible representation of each orbital (one label per orbital), when given.
+    pub orbsym: Option<Vec<u32>>,
+    /// The symmetry of the state the file was made for, when given.
+    pub isym: Option<i64>,
 }
 
 /// An integral file read into memory.
@@ -100,8 +106,8 @@ fn namelist(header: &[(usize, String)]) -> (bool, Vec<Item>) {
     (opened, items)
 }
 
-/// The header facts, every key at most once.
-fn header_facts(path: &str, header: &[(usize, String)]) -> Result<DumpHeader> {
+/// The header facts, every key at most once, and a warning when ORBSYM cannot be used.
+fn header_facts(path: &str, header: &[(usize, String)]) -> Result<(DumpHeader, Option<String>)> {
     let first = At { line: header[0].0, column: 1 };
     let (opened, items) = namelist(header);
     if !opened {
@@ -142,11 +148,30 @@ fn header_facts(path: &str, header: &[(usize, String)]) -> Result<DumpHeader> {
             format!("NORB={norb} is too large: its two-electron integrals cannot be numbered in 64 bits"),
         ));
     }
-    Ok(DumpHeader {
+    let orbsym = find("ORBSYM").map(|item| orbital_symmetries(item, norb)).transpose();
+    let (orbsym, unusable) = match orbsym {
+        Ok(labels) => (labels, None),
+        Err(why) => (None, Some(format!("{path}: {why}, so orbital symmetries are not used"))),
+    };
+    let header = DumpHeader {
         norb,
         nelec: find("NELEC").map(|i| whole(path, i)).transpose()?,
         ms2: find("MS2").map(|i| whole(path, i)).transpose()?,
-    })
+        orbsym,
+        isym: find("ISYM").map(|i| whole(path, i)).transpose()?,
+    };
+    Ok((header, unusable))
+}
+
+/// ORBSYM: one whole-number label per orbital; otherwise why it cannot be used.
+fn orbital_symmetries(item: &Item, norb: usize) -> std::result::Result<Vec<u32>, String> {
+    if item.values.len() != norb {
+        return Err(format!("ORBSYM has {} labels for NORB={norb}", item.values.len()));
+    }
+    item.values
+        .iter()
+        .map(|(_, text)| text.parse().map_err(|_| format!("ORBSYM label `{text}` is not a whole number")))
+        .collect()
 }
 
 /// One data line: its value, where the value stands, and the class of integral it gives
@@ -297,7 +322,7 @@ where
         ));
     }
     let header_lines = header.len();
-    let facts = header_facts(path, &header)?;
+    let (facts, unusable) = header_facts(path, &header)?;
     let norb = facts.norb;
     let mut integrals = IntegralTable::within(norb, budget_bytes).expect("NORB was checked against 64 bits");
     for line in lines {
@@ -325,7 +350,7 @@ where
             }
         }
     }
-    let mut warnings = vec![];
+    let mut warnings: Vec<String> = unusable.into_iter().collect();
     if !integrals.has_constant() {
         warnings.push(format!(
             "{path} has no constant line (`value 0 0 0 0`): the constant is taken as 0, so energies are electronic only"
@@ -349,10 +374,105 @@ pub fn read_dump(path: &str) -> Result<IntegralDump> {
     read_from(path, open, TABLE_BUDGET_BYTES)
 }
 
+/// Entries smaller in magnitude than this are left out of a written file, as symmetry zeros.
+pub const WRITTEN_FLOOR: f64 = 1e-14;
+
+/// An integral file as text: the header (NORB, and NELEC, MS2, ORBSYM, ISYM where `header`
+/// has them), then the unique entries under the 8-fold symmetry, (pq|rs) with p ≥ q, r ≥ s
+/// and pq ≥ rs, then h_pq with p ≥ q (1-based), then the constant; values of magnitude below
+/// `WRITTEN_FLOOR` are left out, and every value has 17 significant digits, so that it reads
+/// back exactly.
+pub fn write_dump(header: &DumpHeader, ints: &dyn Integrals) -> String {
+    let n = header.norb;
+    let mut out = format!(" &FCI NORB={n:>4},");
+    if let Some(nelec) = header.nelec {
+        out.push_str(&format!("NELEC={nelec},"));
+    }
+    if let Some(ms2) = header.ms2 {
+        out.push_str(&format!("MS2={ms2},"));
+    }
+    out.push('\n');
+    if let Some(orbsym) = &header.orbsym {
+        let labels: Vec<String> = orbsym.iter().map(|x| x.to_string()).collect();
+        out.push_str(&format!("  ORBSYM={},\n", labels.join(",")));
+    }
+    if let Some(isym) = header.isym {
+        out.push_str(&format!("  ISYM={isym},\n"));
+    }
+    out.push_str(" &END\n");
+    let mut line = |value: f64, idx: [usize; 4]| {
+        if value.abs() >= WRITTEN_FLOOR {
+            out.push_str(&format!(
+                "{value:>25.16e} {:>4} {:>4} {:>4} {:>4}\n",
+                idx[0], idx[1], idx[2], idx[3]
+            ));
+        }
+    };
+    for p in 0..n {
+        for q in 0..=p {
+            for r in 0..=p {
+                let last = if r == p { q } else { r };
+                for s in 0..=last {
+                    line(ints.eri(p, q, r, s), [p + 1, q + 1, r + 1, s + 1]);
+                }
+            }
+        }
+    }
+    for p in 0..n {
+        for q in 0..=p {
+            line(ints.h(p, q), [p + 1, q + 1, 0, 0]);
+        }
+    }
+    // the constant is written even when it is zero: a reader then knows it was not forgotten
+    out.push_str(&format!("{:>25.16e} {:>4} {:>4} {:>4} {:>4}\n", ints.constant(), 0, 0, 0, 0));
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::numbers::integrals::Integrals;
+
+    /// A written file reads back to the same integrals, header facts and constant.
+    #[test]
+    fn a_written_file_reads_back_exactly() {
+        let mut table = IntegralTable::random(4, 9);
+        table.set_constant(-1.5);
+        table.set_eri(0, 1, 2, 3, 1e-16);
+        let header = DumpHeader {
+            norb: 4,
+            nelec: Some(3),
+            ms2: Some(1),
+            orbsym: Some(vec![1, 2, 1, 3]),
+            isym: Some(2),
+        };
+        let back = parse_dump("written", &write_dump(&header, &table)).unwrap();
+        assert_eq!(back.header, header);
+        assert_eq!(back.integrals.constant(), -1.5);
+        assert_eq!(back.integrals.eri(3, 2, 1, 0), 0.0);
+        for p in 0..4 {
+            for q in 0..4 {
+                assert_eq!(back.integrals.h(p, q), table.h(p, q));
+                for r in 0..4 {
+                    for s in 0..4 {
+                        let written = table.eri(p, q, r, s);
+                        let expected = if written.abs() < WRITTEN_FLOOR { 0.0 } else { written };
+                        assert_eq!(back.integrals.eri(p, q, r, s), expected);
+                    }
+                }
+            }
+        }
+        assert!(back.warnings.is_empty());
+    }
+
+    #[test]
+    fn orbsym_without_one_label_per_orbital_is_not_used() {
+        let dump = parse_dump("s", "&FCI NORB=3, ORBSYM=1,2 &END\n 0.0 0 0 0 0\n").unwrap();
+        assert_eq!(dump.header.orbsym, None);
+        assert_eq!(
+            dump.warnings,
+            vec!["s: ORBSYM has 2 labels for NORB=3, so orbital symmetries are not used"]
+        );
+    }
 
     fn parse_within(text: &str, budget_bytes: u64) -> Result<IntegralDump> {
         read_from("t", || Ok(text.lines().map(|l| Ok(l.to_string()))), budget_bytes)
@@ -362,7 +482,10 @@ mod tests {
     fn reads_header_and_symmetric_entries() {
         let text = " &FCI NORB=   2,NELEC=2,MS2=0,\n  ORBSYM=1,1\n  ISYM=1,\n &END\n 0.5 1 2 1 2\n -1.25 1 1 0 0\n 0.7 0 0 0 0\n";
         let dump = parse_dump("t", text).unwrap();
-        assert_eq!(dump.header, DumpHeader { norb: 2, nelec: Some(2), ms2: Some(0) });
+        assert_eq!(
+            dump.header,
+            DumpHeader { norb: 2, nelec: Some(2), ms2: Some(0), orbsym: Some(vec![1, 1]), isym: Some(1) }
+        );
         assert_eq!(dump.integrals.eri(1, 0, 0, 1), 0.5);
         assert_eq!(dump.integrals.h(0, 0), -1.25);
         assert_eq!(dump.integrals.constant(), 0.7);

@@ -45,6 +45,7 @@ pub use language::orbital::{Orb, SpaceId, SpaceSet, Spin, SpinOrbital};
 pub use language::parser::{Limits, MAX_NESTING, parse, parse_with};
 pub use language::program::{Coupling, Program, Request, RequestKind, State};
 pub use numbers::bind::Bindings;
+pub use numbers::density::{Densities, densities};
 pub use numbers::evaluate::{Binding, evaluate};
 pub use numbers::fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump};
 pub use numbers::integrals::{IntegralTable, Integrals, TABLE_BUDGET_BYTES};

@@ -40,7 +40,7 @@ fn annihilate(det: u128, b: u32) -> Option<(f64, u128)> {
 }
 
 /// Applies a string of operators, rightmost first: `true` creates, `false` annihilates.
-fn apply(det: u128, operators: &[(bool, u32)]) -> Option<(f64, u128)> {
+pub(crate) fn apply(det: u128, operators: &[(bool, u32)]) -> Option<(f64, u128)> {
     let mut sign = 1.0;
     let mut d = det;
     for &(is_creation, b) in operators.iter().rev() {
@@ -85,7 +85,7 @@ pub fn dot(a: &Vector, b: &Vector) -> f64 {
 }
 
 /// The set bits of a string, lowest first.
-fn bits(det: u128) -> impl Iterator<Item = u32> {
+pub(crate) fn bits(det: u128) -> impl Iterator<Item = u32> {
     let mut rest = det;
     std::iter::from_fn(move || {
         (rest != 0).then(|| {

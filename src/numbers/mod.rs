@@ -5,6 +5,7 @@ pub mod bind;
 pub mod block_values;
 pub mod compiled;
 pub mod davidson;
+pub mod density;
 pub mod eigen;
 pub mod evaluate;
 pub mod fcidump;

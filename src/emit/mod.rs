@@ -35,6 +35,21 @@ pub fn notes(d: &crate::engine::derive::Derivation) -> Vec<String> {
     out
 }
 
+/// Generated code computes numbers from integrals; densities and open-shell forms are not
+/// written as code yet, so a request for them stops the whole module with a clear error.
+pub fn refuse_uncoded(derivations: &[crate::check::verify::Checked], format: &str) -> crate::error::Result<()> {
+    use crate::language::program::RequestKind;
+    match derivations.iter().find(|(d, _)| {
+        matches!(d.kind, RequestKind::Density | RequestKind::TransitionDensity | RequestKind::Shells)
+    }) {
+        Some((d, _)) => Err(crate::error::Error::new(crate::error::ErrorKind::NoCodeFor {
+            request: d.text.clone(),
+            format: format.into(),
+        })),
+        None => Ok(()),
+    }
+}
+
 /// One summand of a quadratic (or bilinear) form in the free coefficients as it is written:
 /// `number × coefficients × (expression)`; an expression that is a plain number is folded into
 /// `number` and leaves `expr` empty.
@@ -124,8 +139,8 @@ pub fn integral_parts(factor: &Factor, namer: &Namer, summed: &[String]) -> (Int
         (Factor::One | Factor::RefEnergy(_), _) => vec![],
         (Factor::Eri(p, _, r, _), IntegralKind::Coulomb) => vec![o(p), o(r)],
         (Factor::Eri(p, q, _, _), IntegralKind::Exchange) => vec![o(p), o(q)],
-        (Factor::H(p, q) | Factor::Fock(p, q, _), _) => vec![o(p), o(q)],
-        (Factor::Eri(p, q, r, s), _) => vec![o(p), o(q), o(r), o(s)],
+        (Factor::H(p, q) | Factor::Fock(p, q, _) | Factor::Gamma1(p, q), _) => vec![o(p), o(q)],
+        (Factor::Eri(p, q, r, s) | Factor::Gamma2(p, q, r, s), _) => vec![o(p), o(q), o(r), o(s)],
     };
     (factor.kind(), names)
 }

@@ -283,6 +283,9 @@ impl<'a> BodyWriter<'a> {
             Factor::One => None,
             Factor::H(p, q) => Some(self.gather("h", &[p, q], summed, rank)),
             Factor::Eri(p, q, r, s) => Some(self.gather("eri", &[p, q, r, s], summed, rank)),
+            Factor::Gamma1(..) | Factor::Gamma2(..) => {
+                unreachable!("density requests are refused before code is written (emit::refuse_uncoded)")
+            }
             Factor::Fock(p, q, c) => {
                 if matches!(p, Orb::Summed(_)) || matches!(q, Orb::Summed(_)) {
                     return Err(unsupported("f_pq with a summation index"));
@@ -439,8 +442,14 @@ impl<'a> BodyWriter<'a> {
 fn function_name(d: &Derivation, number: usize) -> String {
     let simple = |label: &str| label.chars().all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '.');
     let operands = match d.kind {
-        RequestKind::Energy | RequestKind::Spin | RequestKind::Roots => vec![d.bra.as_str()],
-        RequestKind::Element | RequestKind::Overlap => vec![d.bra.as_str(), d.ket.as_str()],
+        RequestKind::Energy
+        | RequestKind::Spin
+        | RequestKind::Roots
+        | RequestKind::Density
+        | RequestKind::Shells => vec![d.bra.as_str()],
+        RequestKind::Element | RequestKind::Overlap | RequestKind::TransitionDensity => {
+            vec![d.bra.as_str(), d.ket.as_str()]
+        }
     };
     if operands.iter().all(|o| simple(o)) {
         format!("{} {}", d.kind.keyword(), operands.join(" "))
@@ -657,6 +666,9 @@ fn function(
         }
         RequestKind::Overlap => format!("The overlap {meaning}, for `{request}`."),
         RequestKind::Spin => format!("{meaning} as the pair (<S^2>, <S_z>), for `{request}`."),
+        RequestKind::Density | RequestKind::TransitionDensity | RequestKind::Shells => {
+            format!("{meaning}, for `{request}`.")
+        }
     };
     let _ = writeln!(code, "    \"\"\"{summary}\n");
     match d.kind {
@@ -1018,6 +1030,7 @@ import numpy as np
 
 /// The Python module for every derivation of the program, in request order.
 pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
+    super::refuse_uncoded(derivations, "Python")?;
     let symbols = Symbols::new(program);
     let mut names = Identifiers::new(KEYWORDS, RESERVED);
     let mut needs = Needs::default();

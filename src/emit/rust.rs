@@ -156,6 +156,9 @@ fn integral(factor: &Factor, sig: &Signature, summed: &[String]) -> String {
         Factor::Eri(p, q, r, s) => format!("ints.eri({}, {}, {}, {})", o(p), o(q), o(r), o(s)),
         Factor::Fock(p, q, c) => format!("fock(ints, {}, {}, {})", o(p), o(q), closed_argument(sig, c)),
         Factor::RefEnergy(c) => format!("reference_energy(ints, {})", closed_argument(sig, c)),
+        Factor::Gamma1(..) | Factor::Gamma2(..) => {
+            unreachable!("density requests are refused before code is written (emit::refuse_uncoded)")
+        }
     }
 }
 
@@ -284,6 +287,7 @@ fn function_name(kind: RequestKind, operands: &[&str], number: usize) -> String 
 }
 
 pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
+    super::refuse_uncoded(derivations, "Rust")?;
     let mut out = format!(
         "//! Closed formulas derived by spinfold from `{}`, verified against brute-force\n//! determinant algebra. Regenerate rather than edit.\n\n",
         program.source.name.replace(['\n', '\r'], " ")
@@ -504,5 +508,7 @@ fn meaning(kind: RequestKind) -> &'static str {
         }
         RequestKind::Overlap => "the overlap <X|Y>",
         RequestKind::Spin => "the expectation value <S^2>",
+        RequestKind::Density | RequestKind::TransitionDensity => "the density matrices",
+        RequestKind::Shells => "the energy <X|H|X>/<X|X> in open shells",
     }
 }

@@ -283,32 +283,24 @@ fn shell_lines(form: &ShellForm, namer: &Namer, style: &Style) -> String {
     };
     let (sum, member) = (style.sigma(), style.member());
     let mut out = format!(
-        "  E = {sum}_s f_s h_ss + {sum}_{{s,t}} (a_st J_st + b_st K_st) over ordered pairs of shells; a closed space is one shell, its members summed\n"
+        "  in open shells: E = {sum}_s f_s h_ss + {sum}_{{s,t}} (a_st J_st + b_st K_st), over ordered pairs of shells\n"
     );
-    let spaces: Vec<String> = form
-        .shells
-        .iter()
-        .filter_map(|s| match s {
-            Shell::Space(space) => Some(format!("h_{0}{0} = {sum}_{{k{member}{0}}} h_kk, J_{0}t = {sum}_{{k{member}{0}}} J_kt", namer.space(*space))),
-            Shell::Orbital(_) => None,
-        })
-        .collect();
-    if !spaces.is_empty() {
-        out.push_str(&format!("  where {}\n", spaces.join("; ")));
+    if form.shells.iter().any(|s| matches!(s, Shell::Space(_))) {
+        out.push_str(&format!(
+            "  a closed space S is one shell: h_SS = {sum}_{{k{member}S}} h_kk, J_St = {sum}_{{k{member}S}} J_kt, J_SS = {sum}_{{k,l{member}S}} J_kl (K alike)\n"
+        ));
     }
-    let width = names.iter().chain(form.f.iter().map(number).collect::<Vec<_>>().iter()).map(|n| n.chars().count()).max().unwrap_or(1).max(
-        form.a.iter().chain(&form.b).flatten().map(|c| number(c).chars().count()).max().unwrap_or(1),
-    ) + 2;
-    let pad = |text: &str| format!("{text:>width$}");
-    out.push_str(&format!("  {}{}\n", pad("shell"), names.iter().map(|n| pad(n)).collect::<String>()));
-    out.push_str(&format!("  {}{}\n", pad("f"), form.f.iter().map(|c| pad(&number(c))).collect::<String>()));
-    for (label, table) in [("a", &form.a), ("b", &form.b)] {
-        for (row, name) in table.iter().zip(&names) {
-            out.push_str(&format!(
-                "  {}{}\n",
-                pad(&format!("{label} {name}")),
-                row.iter().map(|c| pad(&number(c))).collect::<String>()
-            ));
+    let cells: Vec<String> = form.f.iter().chain(form.a.iter().chain(&form.b).flatten()).map(number).collect();
+    let width = names.iter().chain(&cells).map(|n| n.chars().count()).max().unwrap_or(1) + 2;
+    let label = names.iter().map(|n| n.chars().count()).max().unwrap_or(1).max(5);
+    let row = |head: &str, name: &str, values: &mut dyn Iterator<Item = String>| {
+        format!("  {head:<5} {name:<label$}{}\n", values.map(|v| format!("{v:>width$}")).collect::<String>())
+    };
+    out.push_str(&row("", "", &mut names.iter().cloned()));
+    out.push_str(&row("f_s", "", &mut form.f.iter().map(number)));
+    for (head, table) in [("a_st", &form.a), ("b_st", &form.b)] {
+        for (k, (values, name)) in table.iter().zip(&names).enumerate() {
+            out.push_str(&row(if k == 0 { head } else { "" }, name, &mut values.iter().map(number)));
         }
     }
     out
@@ -339,7 +331,7 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], a
             out.push_str(&density_lines(d, symmetry, &namer, &style));
         } else if let Some(form) = &d.shells {
             for line in expression_lines(&d.value, &namer, &style) {
-                out.push_str(&format!("  E {line}\n"));
+                out.push_str(&format!("  {line}\n"));
             }
             out.push_str(&shell_lines(form, &namer, &style));
         } else if d.kind == RequestKind::Spin {

@@ -248,7 +248,9 @@ pub fn compare(
             (brute_force::matrix_element(&bra, &ket, ints), Some(("overlap", overlap, &derivation.overlap)))
         }
         RequestKind::Energy | RequestKind::Shells if vanishes => return Ok(None),
-        RequestKind::Energy | RequestKind::Shells => (brute_force::matrix_element(&bra, &bra, ints) / norm, None),
+        RequestKind::Energy | RequestKind::Shells => {
+            (brute_force::matrix_element(&bra, &bra, ints) / norm, None)
+        }
         RequestKind::Spin if vanishes => return Ok(None),
         RequestKind::Spin => (
             brute_force::dot(&bra, &brute_force::apply_s_squared(&bra)) / norm,
@@ -269,7 +271,12 @@ pub fn compare(
     }];
     if let Some((what, brute_force, expr)) = second {
         let scale = if request.kind == RequestKind::Spin { 1.0 } else { scale };
-        out.push(Comparison { what: what.into(), brute_force, derived: evaluate(expr, binding, ints), scale });
+        out.push(Comparison {
+            what: what.into(),
+            brute_force,
+            derived: evaluate(expr, binding, ints),
+            scale,
+        });
     }
     Ok(Some(out))
 }

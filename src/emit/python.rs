@@ -1030,7 +1030,6 @@ import numpy as np
 
 /// The Python module for every derivation of the program, in request order.
 pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
-    super::refuse_uncoded(derivations, "Python")?;
     let symbols = Symbols::new(program);
     let mut names = Identifiers::new(KEYWORDS, RESERVED);
     let mut needs = Needs::default();

@@ -178,11 +178,6 @@ pub enum ErrorKind {
         term: String,
         why: String,
     },
-    /// A request kind that an output format cannot write yet.
-    NoCodeFor {
-        request: String,
-        format: String,
-    },
     RequestArity {
         kind: String,
         /// How many operands it takes, in words ("1", "1 or 2").
@@ -404,7 +399,6 @@ impl Error {
             OutsideShellForm { request, term, why } => format!(
                 "`{request}`: the energy has the term {term}, which has no place in the open-shell form Σ f h + Σ (a J + b K): {why}"
             ),
-            NoCodeFor { request, format } => format!("`{request}` cannot be written as {format} code yet"),
             RequestArity { kind, wanted, got } => {
                 format!(
                     "`{kind}` takes {wanted} state(s), but {got} {} given",
@@ -498,7 +492,6 @@ impl Error {
             ElectronCount { .. } => "the Hamiltonian conserves the number of electrons: every determinant of the bra and the ket must have the same count".into(),
             ClosedSpaces { .. } => "write the same closed spaces in every determinant of the bra and the ket; their sizes are unknown".into(),
             OutsideShellForm { .. } => "ask for `energy X` (any energy) or `density X` (its densities) instead".into(),
-            NoCodeFor { .. } => "use --to text, latex or json for this request, or put it in an input of its own".into(),
             RequestArity { .. } => "write `energy X`, `spin X`, `element X Y`, `overlap X Y`, `roots X Y ...`, `density X`, `density X Y` or `shells X`".into(),
             Coupling { .. } => "write `csf X = | core^2 p q r | S=1/2 path=1/2,0,1/2`: the intermediate spin after each open shell, ending at S".into(),
             ClosedShellNeeded { .. } => "write every orbital of the determinant doubly occupied (`p^2`): the excitation makes the open shells".into(),

@@ -2,6 +2,8 @@
 //! distinct indices, must pass its own tests under pytest and when run directly; names from the
 //! input that are Python keywords or builtins, and hostile file names, must not break it.
 
+mod common;
+
 use spinfold::{DEFAULT_SEED, Format, Options, derive_checked, parse, render};
 use std::path::{Path, PathBuf};
 use std::process::Command;
@@ -60,6 +62,7 @@ fn examples() -> Vec<PathBuf> {
         .unwrap()
         .map(|e| e.unwrap().path())
         .filter(|p| p.extension().is_some_and(|x| x == "spinfold"))
+        .filter(|p| common::has_code(&std::fs::read_to_string(p).unwrap()))
         .collect();
     out.sort();
     out

@@ -124,7 +124,9 @@ pub fn evaluate_with(
         .iter()
         .zip(derivations)
         .map(|(request, (d, _))| match (&d.block, d.density_symmetry()) {
-            (Some(block), _) => evaluate_block(program, request, d, block, bindings, ints, settings, progress),
+            (Some(block), _) => {
+                evaluate_block(program, request, d, block, bindings, ints, settings, progress)
+            }
             (None, Some(symmetry)) => density_values(program, request, d, symmetry, bindings),
             (None, None) => tabulate(program, request, d, bindings, ints),
         })
@@ -224,7 +226,10 @@ pub fn results_text(results: &[Evaluated]) -> String {
 /// The listed elements of a density: its symmetry, then `γ p q value` and `Γ p q r s value`
 /// lines, orbitals 1-based.
 fn density_text(request: &str, density: &DensityValues) -> String {
-    let mut out = format!("{request}\n  symmetry {}: one element of each related set is listed\n", density.symmetry.text());
+    let mut out = format!(
+        "{request}\n  symmetry {}: one element of each related set is listed\n",
+        density.symmetry.text()
+    );
     for (name, elements) in [("γ", &density.one), ("Γ", &density.two)] {
         for e in elements {
             out.push_str(&format!(

@@ -66,7 +66,8 @@ fn a_closed_shell_has_two_on_each_occupied_orbital_and_pair_density_four_minus_t
     assert_eq!(d.one.iter().filter(|(k, _)| k[0] == k[1]).map(|(_, v)| v).sum::<f64>(), 6.0);
     assert_eq!(d.two.iter().filter(|(k, _)| k[0] == k[1] && k[2] == k[3]).map(|(_, v)| v).sum::<f64>(), 30.0);
     let text = listing("density closed\n");
-    for line in ["for k in core: g_kk += 2", "for k,l in core: G_kkll += 4", "for k,l in core: G_kllk += -2"] {
+    for line in ["for k in core: g_kk += 2", "for k,l in core: G_kkll += 4", "for k,l in core: G_kllk += -2"]
+    {
         assert!(text.contains(line), "{line} in\n{text}");
     }
 }
@@ -75,7 +76,8 @@ fn a_closed_shell_has_two_on_each_occupied_orbital_and_pair_density_four_minus_t
 fn triplet_and_singlet_differ_in_the_sign_of_the_exchange_element_alone() {
     // common practice: two open shells a, b give Γ_aabb = 1 and Γ_abba = −1 when parallel
     // (triplet) and +1 in the open-shell singlet; the energies J − K and J + K follow
-    let [triplet, singlet] = <[DensityElements; 2]>::try_from(elements("density triplet\ndensity singlet\n")).unwrap();
+    let [triplet, singlet] =
+        <[DensityElements; 2]>::try_from(elements("density triplet\ndensity singlet\n")).unwrap();
     for d in [&triplet, &singlet] {
         assert_eq!((one(d, 0, 0), one(d, 1, 1)), (1.0, 1.0));
         assert_eq!(two(d, [0, 0, 1, 1]), 1.0);
@@ -111,7 +113,8 @@ fn the_energy_rebuilt_from_every_example_density_is_the_derived_energy() {
             }
             let energy = derive(&program, r, &Options::default()).unwrap();
             let density =
-                derive(&program, &Request { kind: RequestKind::Density, ..r.clone() }, &Options::default()).unwrap();
+                derive(&program, &Request { kind: RequestKind::Density, ..r.clone() }, &Options::default())
+                    .unwrap();
             assert_eq!(density_energy(&density.value), energy.value, "{stem}: {}", r.text);
             // listing one element per related set loses nothing
             let listed = representatives(&density.value, Symmetry::Expectation);
@@ -148,7 +151,11 @@ fn verification_catches_a_wrong_density() {
 }
 
 fn spinfold(args: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_spinfold")).current_dir(env!("CARGO_MANIFEST_DIR")).args(args).output().unwrap()
+    Command::new(env!("CARGO_BIN_EXE_spinfold"))
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .args(args)
+        .output()
+        .unwrap()
 }
 
 #[test]
@@ -171,7 +178,12 @@ fn eval_lists_each_non_zero_element_once_with_real_integrals() {
     let triplet = &json["results"][1];
     assert_eq!(triplet["request"], "density triplet");
     let value = |list: &str, orbitals: &[u64]| -> Option<f64> {
-        triplet[list].as_array().unwrap().iter().find(|e| e["orbitals"] == serde_json::json!(orbitals)).map(|e| e["value"].as_f64().unwrap())
+        triplet[list]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|e| e["orbitals"] == serde_json::json!(orbitals))
+            .map(|e| e["value"].as_f64().unwrap())
     };
     // core 1-4 doubly occupied, a = 5 and b = 6 singly (common practice)
     assert_eq!(value("gamma", &[1, 1]), Some(2.0));

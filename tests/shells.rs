@@ -73,7 +73,11 @@ fn an_energy_outside_the_form_is_refused_naming_its_first_such_term() {
 fn eval_of_the_form_gives_the_energy() {
     let dir = tempfile::tempdir().unwrap();
     let input = dir.path().join("s.spinfold");
-    std::fs::write(&input, format!("{STATES}energy singlet\nshells singlet\nenergy triplet\nshells triplet\n")).unwrap();
+    std::fs::write(
+        &input,
+        format!("{STATES}energy singlet\nshells singlet\nenergy triplet\nshells triplet\n"),
+    )
+    .unwrap();
     let out = Command::new(env!("CARGO_BIN_EXE_spinfold"))
         .current_dir(env!("CARGO_MANIFEST_DIR"))
         .args(["eval", input.to_str().unwrap(), "--integrals", "tests/fixtures/water_sto3g_rhf.fcidump"])

@@ -69,8 +69,8 @@ struct Gen<'r, R: Rng> {
 }
 
 const KEYWORDS: [&str; 13] = [
-    "orbitals", "space", "det", "state", "csf", "csfs", "energy", "element", "overlap", "spin", "density", "shells",
-    "sqrt",
+    "orbitals", "space", "det", "state", "csf", "csfs", "energy", "element", "overlap", "spin", "density",
+    "shells", "sqrt",
 ];
 
 impl<R: Rng> Gen<'_, R> {
@@ -447,7 +447,9 @@ impl<R: Rng> Gen<'_, R> {
         let kinds = ["energy", "energy", "element", "overlap", "spin", "density", "shells"];
         let kind = *kinds.choose(self.rng).expect("kinds");
         let (bra, bra_dets) = self.operand(1);
-        let line = if ["energy", "spin", "shells"].contains(&kind) || (kind == "density" && self.rng.random_bool(0.5)) {
+        let line = if ["energy", "spin", "shells"].contains(&kind)
+            || (kind == "density" && self.rng.random_bool(0.5))
+        {
             format!("{kind} {bra}")
         } else {
             let mut ket = self.operand(1);

@@ -248,7 +248,9 @@ pub fn compare(
             (brute_force::matrix_element(&bra, &ket, ints), Some(("overlap", overlap, &derivation.overlap)))
         }
         RequestKind::Energy | RequestKind::Shells if vanishes => return Ok(None),
-        RequestKind::Energy | RequestKind::Shells => (brute_force::matrix_element(&bra, &bra, ints) / norm, None),
+        RequestKind::Energy | RequestKind::Shells => {
+            (brute_force::matrix_element(&bra, &bra, ints) / norm, None)
+        }
         RequestKind::Spin if vanishes => return Ok(None),
         RequestKind::Spin => (
             brute_force::dot(&bra, &brute_force::apply_s_squared(&bra)) / norm,
@@ -269,7 +271,12 @@ pub fn compare(
     }];
     if let Some((what, brute_force, expr)) = second {
         let scale = if request.kind == RequestKind::Spin { 1.0 } else { scale };
-        out.push(Comparison { what: what.into(), brute_force, derived: evaluate(expr, binding, ints), scale });
+        out.push(Comparison {
+            what: what.into(),
+            brute_force,
+            derived: evaluate(expr, binding, ints),
+            scale,
+        });
     }
     Ok(Some(out))
 }
@@ -329,10 +336,10 @@ fn verify_exact(program: &Program, request: &Request, derivation: &Derivation) -
     let failed = |report: String| {
         Error::at(ErrorKind::VerificationFailed { request: request.text.clone(), report }, &request.span)
     };
-    if let Some(form) = &derivation.shells {
-        if form.energy() != derivation.value {
-            return Err(failed("the open-shell form does not give back the energy it was read from".into()));
-        }
+    if let Some(form) = &derivation.shells
+        && form.energy() != derivation.value
+    {
+        return Err(failed("the open-shell form does not give back the energy it was read from".into()));
     }
     let Some(symmetry) = derivation.density_symmetry() else { return Ok(()) };
     if shown::complete(&shown::representatives(&derivation.value, symmetry), symmetry) != derivation.value {

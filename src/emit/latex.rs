@@ -952,7 +952,11 @@ fn block_environments(
 fn signed(c: &Exact) -> String {
     if c.is_zero() {
         "0".into()
-    } else if c.is_negative() { format!("-{}", magnitude(c)) } else { magnitude(c) }
+    } else if c.is_negative() {
+        format!("-{}", magnitude(c))
+    } else {
+        magnitude(c)
+    }
 }
 
 /// The symmetry of a density in TeX.
@@ -986,7 +990,8 @@ fn density_environment(d: &Derivation, symmetry: Symmetry, namer: &Namer) -> Str
         .map(|t| {
             let summed = namer.summed_names(&t.sums);
             let o = |x| name(&namer.orb(x, &summed));
-            let mut conditions: Vec<String> = t.deltas.iter().map(|&(a, b)| format!("{} = {}", o(a), o(b))).collect();
+            let mut conditions: Vec<String> =
+                t.deltas.iter().map(|&(a, b)| format!("{} = {}", o(a), o(b))).collect();
             let mut j = 0;
             while j < t.sums.len() {
                 let mut names = vec![name(&summed[j])];
@@ -997,9 +1002,16 @@ fn density_environment(d: &Derivation, symmetry: Symmetry, namer: &Namer) -> Str
                 conditions.push(format!(r"{} \in {}", names.join(","), upright(namer.space(t.sums[j]))));
                 j += 1;
             }
-            let condition =
-                if conditions.is_empty() { String::new() } else { format!(" && {}", conditions.join(r",\ ")) };
-            format!(r"  {} &\mathrel{{+}}= {}{condition}", factor(&t.factor, namer, &summed), signed(&t.coeff))
+            let condition = if conditions.is_empty() {
+                String::new()
+            } else {
+                format!(" && {}", conditions.join(r",\ "))
+            };
+            format!(
+                r"  {} &\mathrel{{+}}= {}{condition}",
+                factor(&t.factor, namer, &summed),
+                signed(&t.coeff)
+            )
         })
         .collect();
     if rows.is_empty() {
@@ -1025,7 +1037,9 @@ fn shell_tables(form: &ShellForm, namer: &Namer) -> String {
     let table = |corner: &str, rows: Vec<(String, &Vec<Exact>)>| {
         let body: Vec<String> = rows
             .iter()
-            .map(|(label, row)| format!("{label} & {}", row.iter().map(signed).collect::<Vec<_>>().join(" & ")))
+            .map(|(label, row)| {
+                format!("{label} & {}", row.iter().map(signed).collect::<Vec<_>>().join(" & "))
+            })
             .collect();
         format!(
             "\\begin{{array}}{{c|{columns}}}\n{corner}{head} \\\\ \\hline\n{}\n\\end{{array}}",

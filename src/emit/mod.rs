@@ -37,7 +37,10 @@ pub fn notes(d: &crate::engine::derive::Derivation) -> Vec<String> {
 
 /// Generated code computes numbers from integrals; densities and open-shell forms are not
 /// written as code yet, so a request for them stops the whole module with a clear error.
-pub fn refuse_uncoded(derivations: &[crate::check::verify::Checked], format: &str) -> crate::error::Result<()> {
+pub fn refuse_uncoded(
+    derivations: &[crate::check::verify::Checked],
+    format: &str,
+) -> crate::error::Result<()> {
     use crate::language::program::RequestKind;
     match derivations.iter().find(|(d, _)| {
         matches!(d.kind, RequestKind::Density | RequestKind::TransitionDensity | RequestKind::Shells)

@@ -7,9 +7,9 @@ use super::{
 };
 use crate::check::verify::Report;
 use crate::engine::block_derivation::BlockDerivation;
+use crate::engine::density::{Symmetry, representatives};
 use crate::engine::derive::Derivation;
 use crate::engine::exact::{Exact, ExactDisplay};
-use crate::engine::density::{Symmetry, representatives};
 use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
 use crate::engine::shells::{Shell, ShellForm};
 use crate::language::block::renaming_text;
@@ -290,7 +290,8 @@ fn shell_lines(form: &ShellForm, namer: &Namer, style: &Style) -> String {
             "  a closed space S is one shell: h_SS = {sum}_{{k{member}S}} h_kk, J_St = {sum}_{{k{member}S}} J_kt, J_SS = {sum}_{{k,l{member}S}} J_kl (K alike)\n"
         ));
     }
-    let cells: Vec<String> = form.f.iter().chain(form.a.iter().chain(&form.b).flatten()).map(number).collect();
+    let cells: Vec<String> =
+        form.f.iter().chain(form.a.iter().chain(&form.b).flatten()).map(number).collect();
     let width = names.iter().chain(&cells).map(|n| n.chars().count()).max().unwrap_or(1) + 2;
     let label = names.iter().map(|n| n.chars().count()).max().unwrap_or(1).max(5);
     let row = |head: &str, name: &str, values: &mut dyn Iterator<Item = String>| {

@@ -118,7 +118,9 @@ pub fn energy(density: &Expr) -> Expr {
     let half = Exact::fraction(1, 2);
     Expr::from_terms(density.terms.iter().map(|t| match t.factor {
         Factor::Gamma1(p, q) => Term { factor: Factor::H(p, q), ..t.clone() },
-        Factor::Gamma2(p, q, r, s) => Term { coeff: &t.coeff * &half, factor: Factor::Eri(p, q, r, s), ..t.clone() },
+        Factor::Gamma2(p, q, r, s) => {
+            Term { coeff: &t.coeff * &half, factor: Factor::Eri(p, q, r, s), ..t.clone() }
+        }
         _ => t.clone(),
     }))
 }

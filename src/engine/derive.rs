@@ -372,28 +372,36 @@ fn case_channels(
         // a `roots` request reaches here only through its pairs, which are elements
         RequestKind::Element | RequestKind::Roots | RequestKind::TransitionDensity => {
             let operator = operator(request.kind);
-            [Some(slater_condon::hamiltonian(&bra_bits, ket_bits, &universe, &closed, operator)), Some(s), None]
-        }
-        // a `shells` request is derived as the energy it reads
-        RequestKind::Energy | RequestKind::Density | RequestKind::Shells => match slater_condon::overlap(
-            &bra_bits, &bra_bits,
-        )
-        .inverse()
-        {
-            Some(inverse) => [
-                Some(
-                    slater_condon::hamiltonian(&bra_bits, &bra_bits, &universe, &closed, operator(request.kind))
-                        .scaled(&inverse),
-                ),
+            [
+                Some(slater_condon::hamiltonian(&bra_bits, ket_bits, &universe, &closed, operator)),
                 Some(s),
                 None,
-            ],
-            None if finest => return Err(zero_norm()),
-            None => {
-                vanishes();
-                [None, Some(s), None]
+            ]
+        }
+        // a `shells` request is derived as the energy it reads
+        RequestKind::Energy | RequestKind::Density | RequestKind::Shells => {
+            match slater_condon::overlap(&bra_bits, &bra_bits).inverse() {
+                Some(inverse) => [
+                    Some(
+                        slater_condon::hamiltonian(
+                            &bra_bits,
+                            &bra_bits,
+                            &universe,
+                            &closed,
+                            operator(request.kind),
+                        )
+                        .scaled(&inverse),
+                    ),
+                    Some(s),
+                    None,
+                ],
+                None if finest => return Err(zero_norm()),
+                None => {
+                    vanishes();
+                    [None, Some(s), None]
+                }
             }
-        },
+        }
         RequestKind::Spin => match spin_values(bra) {
             Some(v) => {
                 notes.extend(spin_warning(program, request, case, finest, &v));
@@ -422,7 +430,10 @@ fn derive_shells(program: &Program, request: &Request, options: &Options) -> Res
     let mut d = derive(program, &energy, &Options { fock: false, ..options.clone() })?;
     let form = shell_form(&d.value).map_err(|outside| {
         let term = crate::emit::text::term_text(program, &outside.term);
-        Error::at(ErrorKind::OutsideShellForm { request: request.text.clone(), term, why: outside.why.into() }, &request.span)
+        Error::at(
+            ErrorKind::OutsideShellForm { request: request.text.clone(), term, why: outside.why.into() },
+            &request.span,
+        )
     })?;
     d.kind = RequestKind::Shells;
     d.text = request.text.clone();

@@ -30,7 +30,7 @@ pub struct ShellForm {
 #[derive(Clone, Debug, PartialEq)]
 pub struct Outside {
     /// The offending term, in canonical form (for the error to write out).
-    pub term: Term,
+    pub term: Box<Term>,
     pub why: &'static str,
 }
 
@@ -50,22 +50,29 @@ enum Piece {
 
 fn piece(t: &Term) -> Result<Piece, &'static str> {
     if !t.deltas.is_empty() {
-        return Err("a Kronecker delta between generic indices has no place in the form; declare the indices in different spaces, or derive with --distinct");
+        return Err(
+            "a Kronecker delta between generic indices has no place in the form; declare the indices in different spaces, or derive with --distinct",
+        );
     }
     let (orbs, kind) = match (t.factor, t.kind()) {
         (Factor::H(p, q), _) if p == q => (vec![p], None),
         (Factor::H(..), _) => return Err("an off-diagonal one-electron integral is outside the form"),
         (Factor::Eri(p, _, r, _), IntegralKind::Coulomb) => (vec![p, r], Some(false)),
         (Factor::Eri(p, q, _, _), IntegralKind::Exchange) => (vec![p, q], Some(true)),
-        (Factor::Eri(..), _) => return Err("a general two-electron integral (neither J nor K) is outside the form"),
+        (Factor::Eri(..), _) => {
+            return Err("a general two-electron integral (neither J nor K) is outside the form");
+        }
         (Factor::One, _) => return Err("a constant is outside the form"),
         _ => return Err("only h, J and K integrals make the form"),
     };
     // every summation index must run over its space alone, once per shell it stands for
-    let summed: Vec<u8> = orbs.iter().filter_map(|o| if let Orb::Summed(d) = o { Some(*d) } else { None }).collect();
+    let summed: Vec<u8> =
+        orbs.iter().filter_map(|o| if let Orb::Summed(d) = o { Some(*d) } else { None }).collect();
     let distinct = summed.iter().collect::<std::collections::BTreeSet<_>>().len();
     if distinct != summed.len() || distinct != t.sums.len() {
-        return Err("a closed space enters with its members not all summed alike (as a shell's members must be)");
+        return Err(
+            "a closed space enters with its members not all summed alike (as a shell's members must be)",
+        );
     }
     let shells: Vec<Shell> = orbs.iter().map(|&o| shell(o, &t.sums)).collect();
     Ok(match kind {
@@ -79,7 +86,7 @@ pub fn shell_form(energy: &Expr) -> Result<ShellForm, Outside> {
     let pieces: Vec<(Piece, &Exact)> = energy
         .terms
         .iter()
-        .map(|t| piece(t).map(|p| (p, &t.coeff)).map_err(|why| Outside { term: t.clone(), why }))
+        .map(|t| piece(t).map(|p| (p, &t.coeff)).map_err(|why| Outside { term: Box::new(t.clone()), why }))
         .collect::<Result<_, _>>()?;
     let mut shells: Vec<Shell> = pieces
         .iter()
@@ -92,8 +99,19 @@ pub fn shell_form(energy: &Expr) -> Result<ShellForm, Outside> {
     shells.sort_by_key(|s| (matches!(s, Shell::Orbital(_)), *s));
     shells.dedup();
     let n = shells.len();
-    let at = |s: Shell| shells.binary_search_by_key(&(matches!(s, Shell::Orbital(_)), s), |x| (matches!(x, Shell::Orbital(_)), *x)).expect("every shell is listed");
-    let mut form = ShellForm { f: vec![Exact::zero(); n], a: vec![vec![Exact::zero(); n]; n], b: vec![vec![Exact::zero(); n]; n], shells: shells.clone() };
+    let at = |s: Shell| {
+        shells
+            .binary_search_by_key(&(matches!(s, Shell::Orbital(_)), s), |x| {
+                (matches!(x, Shell::Orbital(_)), *x)
+            })
+            .expect("every shell is listed")
+    };
+    let mut form = ShellForm {
+        f: vec![Exact::zero(); n],
+        a: vec![vec![Exact::zero(); n]; n],
+        b: vec![vec![Exact::zero(); n]; n],
+        shells: shells.clone(),
+    };
     let half = Exact::fraction(1, 2);
     for (p, c) in pieces {
         match p {
@@ -125,13 +143,28 @@ impl ShellForm {
         let mut terms = vec![];
         for (i, &s) in self.shells.iter().enumerate() {
             let (p, space) = place(s, 0);
-            terms.push(Term { coeff: self.f[i].clone(), deltas: vec![], sums: space.into_iter().collect(), factor: Factor::H(p, p) });
+            terms.push(Term {
+                coeff: self.f[i].clone(),
+                deltas: vec![],
+                sums: space.into_iter().collect(),
+                factor: Factor::H(p, p),
+            });
             for (j, &t) in self.shells.iter().enumerate() {
                 let (p, first) = place(s, 0);
                 let (q, second) = place(t, first.map_or(0, |_| 1));
                 let sums: Vec<SpaceId> = first.into_iter().chain(second).collect();
-                terms.push(Term { coeff: self.a[i][j].clone(), deltas: vec![], sums: sums.clone(), factor: Factor::Eri(p, p, q, q) });
-                terms.push(Term { coeff: self.b[i][j].clone(), deltas: vec![], sums, factor: Factor::Eri(p, q, q, p) });
+                terms.push(Term {
+                    coeff: self.a[i][j].clone(),
+                    deltas: vec![],
+                    sums: sums.clone(),
+                    factor: Factor::Eri(p, p, q, q),
+                });
+                terms.push(Term {
+                    coeff: self.b[i][j].clone(),
+                    deltas: vec![],
+                    sums,
+                    factor: Factor::Eri(p, q, q, p),
+                });
             }
         }
         Expr::from_terms(terms)
@@ -148,19 +181,35 @@ mod tests {
         let (k, l) = (Orb::Summed(0), Orb::Summed(1));
         let energy = Expr::from_terms([
             Term { coeff: Exact::integer(2), deltas: vec![], sums: vec![0], factor: Factor::H(k, k) },
-            Term { coeff: Exact::integer(2), deltas: vec![], sums: vec![0, 0], factor: Factor::Eri(k, k, l, l) },
-            Term { coeff: Exact::integer(-1), deltas: vec![], sums: vec![0, 0], factor: Factor::Eri(k, l, l, k) },
+            Term {
+                coeff: Exact::integer(2),
+                deltas: vec![],
+                sums: vec![0, 0],
+                factor: Factor::Eri(k, k, l, l),
+            },
+            Term {
+                coeff: Exact::integer(-1),
+                deltas: vec![],
+                sums: vec![0, 0],
+                factor: Factor::Eri(k, l, l, k),
+            },
         ]);
         let form = shell_form(&energy).expect("in the form");
         assert_eq!(form.shells, vec![Shell::Space(0)]);
-        assert_eq!((form.f[0].clone(), form.a[0][0].clone(), form.b[0][0].clone()), (Exact::integer(2), Exact::integer(2), Exact::integer(-1)));
+        assert_eq!(
+            (form.f[0].clone(), form.a[0][0].clone(), form.b[0][0].clone()),
+            (Exact::integer(2), Exact::integer(2), Exact::integer(-1))
+        );
         assert_eq!(form.energy(), energy);
     }
 
     #[test]
     fn an_off_diagonal_h_is_named_as_outside_the_form() {
         let (a, b) = (Orb::Named(0), Orb::Named(1));
-        let energy = Expr::from_terms([Term::new(Exact::one(), Factor::H(a, a)), Term::new(Exact::one(), Factor::H(a, b))]);
+        let energy = Expr::from_terms([
+            Term::new(Exact::one(), Factor::H(a, a)),
+            Term::new(Exact::one(), Factor::H(a, b)),
+        ]);
         let outside = shell_form(&energy).expect_err("h_ab is off-diagonal");
         assert_eq!(outside.term.factor, Factor::H(a, b));
     }

@@ -469,7 +469,8 @@ impl Resolver {
                     ));
                 }
             };
-            let fixed_only = !matches!(kind, RequestKind::Energy | RequestKind::Element | RequestKind::Overlap);
+            let fixed_only =
+                !matches!(kind, RequestKind::Energy | RequestKind::Element | RequestKind::Overlap);
             if fixed_only && !state.parts.is_empty() {
                 return Err(Error::at(
                     ErrorKind::FreeNotAllowed {

@@ -68,14 +68,18 @@ pub fn density_values(
             .map(|&k| format!("--bind {}={}", name(k), binding.indices[k as usize].map_or(0, |m| m + 1)))
             .collect::<Vec<_>>()
             .join(" ");
-        let text: Vec<String> = equal.iter().map(|b| b.iter().map(|&k| name(k)).collect::<Vec<_>>().join(" = ")).collect();
+        let text: Vec<String> =
+            equal.iter().map(|b| b.iter().map(|&k| name(k)).collect::<Vec<_>>().join(" = ")).collect();
         return Err(refusal(d, why, bound, text.join(" and ")));
     }
     let elements = density_elements(&d.value, &binding);
     let listed = |map: Vec<(Vec<usize>, f64)>| -> Vec<ElementValue> {
         map.into_iter()
             .filter(|(o, v)| v.abs() > ZERO && images(symmetry, o).iter().min() == Some(o))
-            .map(|(o, value)| ElementValue { orbitals: o.iter().map(|m| m + 1).collect(), value: value + 0.0 })
+            .map(|(o, value)| ElementValue {
+                orbitals: o.iter().map(|m| m + 1).collect(),
+                value: value + 0.0,
+            })
             .collect()
     };
     let one = listed(elements.one.iter().map(|(k, &v)| (k.to_vec(), v)).collect());

@@ -30,10 +30,9 @@ pub fn examples() -> Vec<(String, String)> {
 pub fn has_code(text: &str) -> bool {
     use spinfold::RequestKind;
     let program = spinfold::parse("input.spinfold", text).expect("examples parse");
-    program
-        .requests
-        .iter()
-        .all(|r| !matches!(r.kind, RequestKind::Density | RequestKind::TransitionDensity | RequestKind::Shells))
+    program.requests.iter().all(|r| {
+        !matches!(r.kind, RequestKind::Density | RequestKind::TransitionDensity | RequestKind::Shells)
+    })
 }
 
 /// Each request's expression in ASCII on one line (`= ...`), without the request line, the

@@ -9,6 +9,7 @@ use crate::language::program::Program;
 use crate::language::program::RequestKind;
 use crate::numbers::bind::Bindings;
 use crate::numbers::block_values::evaluate_block;
+use crate::numbers::density_listing::{DensityValues, density_values};
 use crate::numbers::fcidump::IntegralDump;
 use crate::numbers::integrals::Integrals;
 use crate::numbers::settings::Settings;
@@ -122,9 +123,12 @@ pub fn evaluate_with(
         .requests
         .iter()
         .zip(derivations)
-        .map(|(request, (d, _))| match &d.block {
-            Some(block) => evaluate_block(program, request, d, block, bindings, ints, settings, progress),
-            None => tabulate(program, request, d, bindings, ints),
+        .map(|(request, (d, _))| match (&d.block, d.density_symmetry()) {
+            (Some(block), _) => {
+                evaluate_block(program, request, d, block, bindings, ints, settings, progress)
+            }
+            (None, Some(symmetry)) => density_values(program, request, d, symmetry, bindings),
+            (None, None) => tabulate(program, request, d, bindings, ints),
         })
         .collect()
 }
@@ -137,7 +141,10 @@ pub fn eval_warnings(dump: &IntegralDump, results: &[Evaluated]) -> Vec<String> 
     out.extend(results.iter().flat_map(|r| r.warnings.iter().cloned()));
     if let Some(nelec) = dump.header.nelec {
         for r in results {
-            let energies = matches!(r.kind, RequestKind::Energy | RequestKind::Element | RequestKind::Roots);
+            let energies = matches!(
+                r.kind,
+                RequestKind::Energy | RequestKind::Element | RequestKind::Roots | RequestKind::Shells
+            );
             if energies && r.electrons != nelec {
                 out.push(format!(
                     "`{}` has {} electrons under the bindings, but the integral file was made for NELEC={nelec}",
@@ -165,6 +172,10 @@ pub fn results_text(results: &[Evaluated]) -> String {
     for r in results {
         if let Some(roots) = &r.roots {
             out.push_str(&roots_text(&r.request, roots));
+            continue;
+        }
+        if let Some(density) = &r.density {
+            out.push_str(&density_text(&r.request, density));
             continue;
         }
         // the free coefficients, after the value: where the energy is stationary, or as set
@@ -208,6 +219,28 @@ pub fn results_text(results: &[Evaluated]) -> String {
                 o.reason
             ));
         }
+    }
+    out
+}
+
+/// The listed elements of a density: its symmetry, then `γ p q value` and `Γ p q r s value`
+/// lines, orbitals 1-based.
+fn density_text(request: &str, density: &DensityValues) -> String {
+    let mut out = format!(
+        "{request}\n  symmetry {}: one element of each related set is listed\n",
+        density.symmetry.text()
+    );
+    for (name, elements) in [("γ", &density.one), ("Γ", &density.two)] {
+        for e in elements {
+            out.push_str(&format!(
+                "  {name} {:<16}  {:>22}\n",
+                e.orbitals.iter().map(|m| format!("{m:>4}")).join(""),
+                fixed(e.value)
+            ));
+        }
+    }
+    if density.one.is_empty() && density.two.is_empty() {
+        out.push_str("  every element is zero\n");
     }
     out
 }
@@ -268,7 +301,10 @@ pub fn results_json(results: &[Evaluated], warnings: &[String]) -> String {
                 }
                 v
             };
-            if let Some(roots) = &r.roots {
+            if let Some(density) = &r.density {
+                serde_json::json!({"request": r.request, "symmetry": density.symmetry.text(),
+                    "gamma": density.one, "Gamma": density.two})
+            } else if let Some(roots) = &r.roots {
                 let list: Vec<serde_json::Value> = roots
                     .roots
                     .iter()

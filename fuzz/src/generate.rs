@@ -68,8 +68,10 @@ struct Gen<'r, R: Rng> {
     out: Vec<String>,
 }
 
-const KEYWORDS: [&str; 11] =
-    ["orbitals", "space", "det", "state", "csf", "csfs", "energy", "element", "overlap", "spin", "sqrt"];
+const KEYWORDS: [&str; 13] = [
+    "orbitals", "space", "det", "state", "csf", "csfs", "energy", "element", "overlap", "spin", "density",
+    "shells", "sqrt",
+];
 
 impl<R: Rng> Gen<'_, R> {
     fn name(&mut self, usual: &[&str]) -> String {
@@ -442,9 +444,12 @@ impl<R: Rng> Gen<'_, R> {
     }
 
     fn request(&mut self) {
-        let kind = *["energy", "energy", "element", "overlap", "spin"].choose(self.rng).expect("kinds");
+        let kinds = ["energy", "energy", "element", "overlap", "spin", "density", "shells"];
+        let kind = *kinds.choose(self.rng).expect("kinds");
         let (bra, bra_dets) = self.operand(1);
-        let line = if kind == "energy" || kind == "spin" {
+        let line = if ["energy", "spin", "shells"].contains(&kind)
+            || (kind == "density" && self.rng.random_bool(0.5))
+        {
             format!("{kind} {bra}")
         } else {
             let mut ket = self.operand(1);

@@ -7,7 +7,7 @@ use rand::seq::IndexedRandom;
 use rand::{Rng, RngExt};
 
 /// Tokens of the language and its edges, inserted or substituted at random.
-const TOKENS: [&str; 71] = [
+const TOKENS: [&str; 73] = [
     "|",
     "| ",
     "'",
@@ -62,6 +62,8 @@ const TOKENS: [&str; 71] = [
     "element",
     "overlap",
     "spin",
+    "density",
+    "shells",
     "S=",
     "M=",
     "path=",

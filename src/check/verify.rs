@@ -12,7 +12,7 @@ use crate::language::orbital::{Orb, SpaceId, Spin};
 use crate::language::program::{DetSpec, Occupant, Program, Request, RequestKind, State};
 use crate::numbers::bind::symbols_of;
 use crate::numbers::density;
-use crate::numbers::evaluate::{Binding, density_values, evaluate};
+use crate::numbers::evaluate::{Binding, density_elements, evaluate};
 use crate::numbers::integrals::{IntegralTable, Integrals};
 use itertools::Itertools;
 use rand::seq::IndexedRandom;
@@ -306,7 +306,7 @@ fn density_comparisons(
         }
         Symmetry::Transition => (density::densities(bra, ket, n), (norm_bra * norm_ket).sqrt()),
     };
-    let derived = density_values(&derivation.value, binding, n);
+    let derived = density_elements(&derivation.value, binding).dense(n);
     let name = |p: &[usize]| p.iter().map(|m| (m + 1).to_string()).collect::<Vec<_>>().join(",");
     let worst = |what: &str, positions: Vec<Vec<usize>>, expected: &[f64], derived: &[f64]| {
         positions
@@ -336,10 +336,10 @@ fn verify_exact(program: &Program, request: &Request, derivation: &Derivation) -
     let failed = |report: String| {
         Error::at(ErrorKind::VerificationFailed { request: request.text.clone(), report }, &request.span)
     };
-    if let Some(form) = &derivation.shells {
-        if form.energy() != derivation.value {
-            return Err(failed("the open-shell form does not give back the energy it was read from".into()));
-        }
+    if let Some(form) = &derivation.shells
+        && form.energy() != derivation.value
+    {
+        return Err(failed("the open-shell form does not give back the energy it was read from".into()));
     }
     let Some(symmetry) = derivation.density_symmetry() else { return Ok(()) };
     if shown::complete(&shown::representatives(&derivation.value, symmetry), symmetry) != derivation.value {

@@ -950,7 +950,13 @@ fn block_environments(
 
 /// A signed exact number: `-\frac{1}{2}`.
 fn signed(c: &Exact) -> String {
-    if c.is_negative() { format!("-{}", magnitude(c)) } else { magnitude(c) }
+    if c.is_zero() {
+        "0".into()
+    } else if c.is_negative() {
+        format!("-{}", magnitude(c))
+    } else {
+        magnitude(c)
+    }
 }
 
 /// The symmetry of a density in TeX.
@@ -974,7 +980,7 @@ fn density_environment(d: &Derivation, symmetry: Symmetry, namer: &Namer) -> Str
         Symmetry::Transition => format!(r"$\langle {b} \vert \cdots \vert {k} \rangle$"),
     };
     let mut out = format!(
-        "\\begin{{align*}}\n\\intertext{{Densities {of}; ${}$, one element of each related set listed; each row adds its value to the element for every value of its summation indices:}}\n",
+        "\\begin{{align*}}\n\\intertext{{The densities {of}, one element of each set related by the symmetry}}\n  &{} \\\\\n\\intertext{{is listed; each row adds its value to the element for every value of its summation indices:}}\n",
         symmetry_tex(symmetry)
     );
     let listed = representatives(&d.value, symmetry);

@@ -387,7 +387,7 @@ pub fn density_test_vectors(
                 (d, brute_force::matrix_element(&ket, &ket, &ints) / norm, "brute force")
             }
         } else {
-            let d = crate::numbers::evaluate::density_values(&derivation.value, &binding, n);
+            let d = crate::numbers::evaluate::density_elements(&derivation.value, &binding).dense(n);
             let energy = d.energy(&ints);
             (d, energy, "verified expression")
         };

@@ -291,7 +291,7 @@ impl<'a> BodyWriter<'a> {
             Factor::H(p, q) => Some(self.gather("h", &[p, q], summed, rank)),
             Factor::Eri(p, q, r, s) => Some(self.gather("eri", &[p, q, r, s], summed, rank)),
             Factor::Gamma1(..) | Factor::Gamma2(..) => {
-                unreachable!("density requests are refused before code is written (emit::refuse_uncoded)")
+                unreachable!("density functions are written by `density_body`, not read as numbers")
             }
             Factor::Fock(p, q, c) => {
                 if matches!(p, Orb::Summed(_)) || matches!(q, Orb::Summed(_)) {
@@ -1260,11 +1260,19 @@ fn densities_check(indent: &str, expected: &Densities) -> String {
     out
 }
 
-fn module_docstring(program: &Program) -> String {
+fn module_docstring(program: &Program, densities: bool) -> String {
     // the file name alone, so that the module does not depend on where it was generated
     let name = &program.source.name;
     let base = name.rsplit(['/', '\\']).next().filter(|b| !b.is_empty()).unwrap_or(name);
     let input = docstring_safe(base);
+    let densities = if densities {
+        "\n- A density function takes the number of orbitals n_orbitals and returns the densities\n  \
+         (dm1, dm2), both NumPy arrays over all n_orbitals orbitals. density_energy gives their energy\n  \
+         with h and eri, generalized_fock_and_gradient the generalized Fock matrix and the orbital\n  \
+         gradient, checked here against finite differences of the energy under rotations."
+    } else {
+        ""
+    };
     format!(
         r#""""Closed formulas derived by spinfold from {input}: one function per request, in input order.
 
@@ -1281,7 +1289,7 @@ Conventions:
   frozen core) yourself, times the overlap for matrix elements.
 - No function loops over orbitals: a sum over a space indexes views of h and eri (diagonals
   taken by np.einsum without copying), by slices where the members increase in even steps
-  and by index arrays otherwise.
+  and by index arrays otherwise.{densities}
 
 The test_ functions check every function against values computed by spinfold (brute-force
 determinant algebra) on integrals defined by a hash, _hashed_integrals; run them with
@@ -1306,7 +1314,7 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
         .map(|(k, unit)| emitted(program, &symbols, unit, &mut names, k + 1, &mut needs))
         .collect::<Result<Vec<Emitted>>>()?;
 
-    let mut out = module_docstring(program);
+    let mut out = module_docstring(program, needs.densities);
     for (needed, helper) in [
         (needs.members, MEMBERS_HELPER),
         (needs.outer, OUTER_HELPER),

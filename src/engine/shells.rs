@@ -30,7 +30,7 @@ pub struct ShellForm {
 #[derive(Clone, Debug, PartialEq)]
 pub struct Outside {
     /// The offending term, in canonical form (for the error to write out).
-    pub term: Term,
+    pub term: Box<Term>,
     pub why: &'static str,
 }
 
@@ -86,7 +86,7 @@ pub fn shell_form(energy: &Expr) -> Result<ShellForm, Outside> {
     let pieces: Vec<(Piece, &Exact)> = energy
         .terms
         .iter()
-        .map(|t| piece(t).map(|p| (p, &t.coeff)).map_err(|why| Outside { term: t.clone(), why }))
+        .map(|t| piece(t).map(|p| (p, &t.coeff)).map_err(|why| Outside { term: Box::new(t.clone()), why }))
         .collect::<Result<_, _>>()?;
     let mut shells: Vec<Shell> = pieces
         .iter()

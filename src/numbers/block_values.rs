@@ -255,6 +255,7 @@ fn roots(
             vanishing: space.vanishing,
             roots,
         }),
+        density: None,
         warnings: vec![],
     })
 }

@@ -84,30 +84,46 @@ fn for_each_summed(term: &Term, binding: &Binding, mut visit: impl FnMut(&[usize
     }
 }
 
-/// A symbolic density (engine/density.rs) as numbers over orbitals 0..n: every term adds its
-/// coefficient to its element for each value of its summation indices. Terms of other factors
-/// are not density elements and are left out.
-pub fn density_values(density: &Expr, binding: &Binding, n: usize) -> Densities {
-    let mut out = Densities::zeros(n);
+/// The elements of a symbolic density (engine/density.rs) under a binding, 0-based, zeros left
+/// out: every term adds its coefficient to its element for each value of its summation indices.
+/// Terms of other factors are not density elements and are left out.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct DensityElements {
+    pub one: BTreeMap<[usize; 2], f64>,
+    pub two: BTreeMap<[usize; 4], f64>,
+}
+
+pub fn density_elements(density: &Expr, binding: &Binding) -> DensityElements {
+    let mut out = DensityElements::default();
     let exact = specialized(density, binding);
     for term in &exact.as_ref().unwrap_or(density).terms {
         let c = term.coeff.to_f64();
         for_each_summed(term, binding, |summed| {
             let o = |x| binding.orbital(x, summed);
             match term.factor {
-                Factor::Gamma1(p, q) => {
-                    let at = out.pair(o(p), o(q));
-                    out.one[at] += c;
-                }
-                Factor::Gamma2(p, q, r, s) => {
-                    let at = out.quadruple(o(p), o(q), o(r), o(s));
-                    out.two[at] += c;
-                }
+                Factor::Gamma1(p, q) => *out.one.entry([o(p), o(q)]).or_default() += c,
+                Factor::Gamma2(p, q, r, s) => *out.two.entry([o(p), o(q), o(r), o(s)]).or_default() += c,
                 _ => {}
             }
         });
     }
     out
+}
+
+impl DensityElements {
+    /// Dense over orbitals 0..n (every element must lie below n).
+    pub fn dense(&self, n: usize) -> Densities {
+        let mut out = Densities::zeros(n);
+        for (&[p, q], &v) in &self.one {
+            let at = out.pair(p, q);
+            out.one[at] = v;
+        }
+        for (&[p, q, r, s], &v) in &self.two {
+            let at = out.quadruple(p, q, r, s);
+            out.two[at] = v;
+        }
+        out
+    }
 }
 
 /// The value of an expression. Where the binding puts generic indices of the expression on one

@@ -48,7 +48,7 @@ pub use language::parser::{Limits, MAX_NESTING, parse, parse_with};
 pub use language::program::{Coupling, Program, Request, RequestKind, State};
 pub use numbers::bind::Bindings;
 pub use numbers::density::{Densities, densities};
-pub use numbers::density_listing::{DensityValues, ElementValue};
+pub use numbers::density_listing::{DensityRow, DensityValues, ElementValue};
 pub use numbers::evaluate::{Binding, DensityElements, density_elements, evaluate};
 pub use numbers::fcidump::{DumpHeader, IntegralDump, parse_dump, read_dump};
 pub use numbers::integrals::{IntegralTable, Integrals, TABLE_BUDGET_BYTES};

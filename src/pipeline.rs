@@ -175,7 +175,7 @@ pub fn results_text(results: &[Evaluated]) -> String {
             continue;
         }
         if let Some(density) = &r.density {
-            out.push_str(&density_text(&r.request, density));
+            out.push_str(&density_text(r, density));
             continue;
         }
         // the free coefficients, after the value: where the energy is stationary, or as set
@@ -224,23 +224,41 @@ pub fn results_text(results: &[Evaluated]) -> String {
 }
 
 /// The listed elements of a density: its symmetry, then `γ p q value` and `Γ p q r s value`
-/// lines, orbitals 1-based.
-fn density_text(request: &str, density: &DensityValues) -> String {
+/// lines, orbitals 1-based; with unbound indices, a line `i=1 j=2` before each assignment's.
+fn density_text(r: &Evaluated, density: &DensityValues) -> String {
     let mut out = format!(
-        "{request}\n  symmetry {}: one element of each related set is listed\n",
+        "{}\n  symmetry {}: one element of each related set is listed\n",
+        r.request,
         density.symmetry.text()
     );
-    for (name, elements) in [("γ", &density.one), ("Γ", &density.two)] {
-        for e in elements {
-            out.push_str(&format!(
-                "  {name} {:<16}  {:>22}\n",
-                e.orbitals.iter().map(|m| format!("{m:>4}")).join(""),
-                fixed(e.value)
-            ));
+    for (entry, row) in r.entries.iter().zip(&density.rows) {
+        let indent = if r.tabulated {
+            out.push_str(&format!("  {}\n", entry.indices.iter().map(|(n, m)| format!("{n}={m}")).join(" ")));
+            "    "
+        } else {
+            "  "
+        };
+        for (name, elements) in [("γ", &row.one), ("Γ", &row.two)] {
+            for e in elements {
+                out.push_str(&format!(
+                    "{indent}{name} {:<16}  {:>22}\n",
+                    e.orbitals.iter().map(|m| format!("{m:>4}")).join(""),
+                    fixed(e.value)
+                ));
+            }
+        }
+        if row.one.is_empty() && row.two.is_empty() {
+            out.push_str(&format!("{indent}every element is zero\n"));
         }
     }
-    if density.one.is_empty() && density.two.is_empty() {
-        out.push_str("  every element is zero\n");
+    for o in &r.omitted {
+        let rows = if o.count == 1 { "row" } else { "rows" };
+        out.push_str(&format!(
+            "  left out: {} {rows} where {}: {}\n",
+            o.count,
+            equal_text(&o.equal),
+            o.reason
+        ));
     }
     out
 }
@@ -302,8 +320,18 @@ pub fn results_json(results: &[Evaluated], warnings: &[String]) -> String {
                 v
             };
             if let Some(density) = &r.density {
-                serde_json::json!({"request": r.request, "symmetry": density.symmetry.text(),
-                    "gamma": density.one, "Gamma": density.two})
+                let rows: Vec<serde_json::Value> = r
+                    .entries
+                    .iter()
+                    .zip(&density.rows)
+                    .map(|(e, row)| serde_json::json!({"indices": map(&e.indices), "gamma": row.one, "Gamma": row.two}))
+                    .collect();
+                match rows.as_slice() {
+                    [row] if !r.tabulated => serde_json::json!({"request": r.request, "symmetry": density.symmetry.text(),
+                        "gamma": row["gamma"], "Gamma": row["Gamma"]}),
+                    _ => serde_json::json!({"request": r.request, "symmetry": density.symmetry.text(),
+                        "values": rows, "omitted": r.omitted}),
+                }
             } else if let Some(roots) = &r.roots {
                 let list: Vec<serde_json::Value> = roots
                     .roots

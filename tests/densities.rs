@@ -204,3 +204,42 @@ fn density_requests_take_one_or_two_fixed_states() {
     let error = parse("x.spinfold", &format!("{STATES}density closed triplet singlet\n")).unwrap_err();
     assert!(error.to_string().contains("`density` takes 1 or 2 state(s), but 3 are given"), "{error}");
 }
+
+#[test]
+fn eval_lists_one_density_per_assignment_of_unbound_indices() {
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("g.spinfold");
+    std::fs::write(
+        &input,
+        "orbitals a\nspace core\nspace vir: i\ndet ref = | core^2 a^2 |\ndensity ref[a -> i]\n",
+    )
+    .unwrap();
+    let out = spinfold(&[
+        "eval",
+        input.to_str().unwrap(),
+        "--integrals",
+        "tests/fixtures/water_sto3g_rhf.fcidump",
+        "--bind",
+        "core=1-4",
+        "--bind",
+        "a=5",
+        "--bind",
+        "vir=6-7",
+        "--json",
+    ]);
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let values = json["results"][0]["values"].as_array().unwrap();
+    assert_eq!(values.len(), 2);
+    for (row, i) in values.iter().zip([6u64, 7]) {
+        assert_eq!(row["indices"]["i"], i);
+        // a → i moves the alpha electron of a: γ_aa = γ_ii = 1 (common practice)
+        let gamma = row["gamma"].as_array().unwrap();
+        for p in [5, i] {
+            assert!(
+                gamma.iter().any(|e| e["orbitals"] == serde_json::json!([p, p]) && e["value"] == 1.0),
+                "{row}"
+            );
+        }
+    }
+}

@@ -1,13 +1,15 @@
 //! The numbers of a symbolic density under bindings: its non-zero elements, one of each set
-//! related by the density's symmetry, with 1-based orbital numbers.
+//! related by the density's symmetry, with 1-based orbital numbers, per assignment of its
+//! unbound generic indices.
 
 use crate::engine::density::Symmetry;
 use crate::engine::derive::Derivation;
-use crate::error::{Error, ErrorKind, Result};
+use crate::error::Result;
 use crate::language::program::{Program, Request};
-use crate::numbers::bind::{Bindings, electrons};
-use crate::numbers::evaluate::density_elements;
-use crate::numbers::tabulate::{Evaluated, equal_blocks, exclusion, refusal};
+use crate::numbers::bind::Bindings;
+use crate::numbers::evaluate::{Binding, density_elements};
+use crate::numbers::tabulate::{Evaluated, exclusion, table};
+use std::cell::RefCell;
 
 /// Elements smaller than this in magnitude are zeros left by floating-point cancellation.
 const ZERO: f64 = 1e-12;
@@ -19,10 +21,16 @@ pub struct ElementValue {
     pub value: f64,
 }
 
-/// The listed elements of a density.
+/// The listed elements of a density, one row per assignment of its unbound generic indices
+/// (the rows of `Evaluated::entries`, in order, whose values are the traces Σ_p γ_pp).
 #[derive(Clone, Debug, PartialEq)]
 pub struct DensityValues {
     pub symmetry: Symmetry,
+    pub rows: Vec<DensityRow>,
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub struct DensityRow {
     pub one: Vec<ElementValue>,
     pub two: Vec<ElementValue>,
 }
@@ -39,7 +47,8 @@ fn images(symmetry: Symmetry, o: &[usize]) -> Vec<Vec<usize>> {
     }
 }
 
-/// A density request evaluated: every generic index must be bound.
+/// A density request evaluated, over every assignment of its unbound generic indices; the
+/// value of each row is the trace of γ (the number of electrons, for `density S`).
 pub fn density_values(
     program: &Program,
     request: &Request,
@@ -47,54 +56,26 @@ pub fn density_values(
     symmetry: Symmetry,
     bindings: &Bindings,
 ) -> Result<Evaluated> {
-    let (binding, unbound) = bindings.for_request(program, request)?;
-    if !unbound.is_empty() {
-        let names: Vec<String> = unbound.iter().map(|&k| program.indices[k as usize].name.clone()).collect();
-        return Err(Error::new(ErrorKind::Binding {
-            why: format!(
-                "`{}` lists density elements for one orbital of each generic index, but {} {} not bound",
-                d.text,
-                names.join(", "),
-                if names.len() == 1 { "is" } else { "are" }
-            ),
-        }));
-    }
-    let equal = equal_blocks(&d.free_indices, &binding);
-    if let Some(why) = exclusion(d, &equal) {
-        let name = |k: u32| program.indices[k as usize].name.clone();
-        let bound = equal
-            .iter()
-            .flatten()
-            .map(|&k| format!("--bind {}={}", name(k), binding.indices[k as usize].map_or(0, |m| m + 1)))
-            .collect::<Vec<_>>()
-            .join(" ");
-        let text: Vec<String> =
-            equal.iter().map(|b| b.iter().map(|&k| name(k)).collect::<Vec<_>>().join(" = ")).collect();
-        return Err(refusal(d, why, bound, text.join(" and ")));
-    }
-    let elements = density_elements(&d.value, &binding);
-    let listed = |map: Vec<(Vec<usize>, f64)>| -> Vec<ElementValue> {
-        map.into_iter()
-            .filter(|(o, v)| v.abs() > ZERO && images(symmetry, o).iter().min() == Some(o))
-            .map(|(o, value)| ElementValue {
-                orbitals: o.iter().map(|m| m + 1).collect(),
-                value: value + 0.0,
-            })
-            .collect()
+    let rows = RefCell::new(vec![]);
+    let value = |b: &Binding| {
+        let elements = density_elements(&d.value, b);
+        let trace = elements.one.iter().filter(|(k, _)| k[0] == k[1]).map(|(_, v)| v).sum();
+        let listed = |map: Vec<(Vec<usize>, f64)>| -> Vec<ElementValue> {
+            map.into_iter()
+                .filter(|(o, v)| v.abs() > ZERO && images(symmetry, o).iter().min() == Some(o))
+                .map(|(o, value)| ElementValue {
+                    orbitals: o.iter().map(|m| m + 1).collect(),
+                    value: value + 0.0,
+                })
+                .collect()
+        };
+        rows.borrow_mut().push(DensityRow {
+            one: listed(elements.one.iter().map(|(k, &v)| (k.to_vec(), v)).collect()),
+            two: listed(elements.two.iter().map(|(k, &v)| (k.to_vec(), v)).collect()),
+        });
+        Ok((trace, vec![]))
     };
-    let one = listed(elements.one.iter().map(|(k, &v)| (k.to_vec(), v)).collect());
-    let two = listed(elements.two.iter().map(|(k, &v)| (k.to_vec(), v)).collect());
-    Ok(Evaluated {
-        request: d.text.clone(),
-        kind: d.kind,
-        columns: vec![],
-        entries: vec![],
-        omitted: vec![],
-        tabulated: false,
-        electrons: electrons(request, &binding),
-        free: None,
-        roots: None,
-        density: Some(DensityValues { symmetry, one, two }),
-        warnings: vec![],
-    })
+    let mut out = table(program, request, d, bindings, &|equal, _| exclusion(d, equal), &value)?;
+    out.density = Some(DensityValues { symmetry, rows: rows.into_inner() });
+    Ok(out)
 }

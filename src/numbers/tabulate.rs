@@ -144,7 +144,7 @@ pub fn equal_text(equal: &[Vec<String>]) -> String {
 }
 
 /// The error for bindings that fix an assignment without a value.
-pub(crate) fn refusal(d: &Derivation, why: Exclusion, bindings: String, equal: String) -> Error {
+fn refusal(d: &Derivation, why: Exclusion, bindings: String, equal: String) -> Error {
     let request = d.text.clone();
     Error::new(match why {
         Exclusion::Distinct => ErrorKind::DistinctCoincide { request, bindings, equal },

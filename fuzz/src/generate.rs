@@ -444,12 +444,12 @@ impl<R: Rng> Gen<'_, R> {
     }
 
     fn request(&mut self) {
-        // `density` and `shells` are refused by `--to rust` and `--to python`, which every program
-        // goes through, and `shells` of a random state is mostly outside its form: mutations
-        // bring them in (the keywords are in KEYWORDS and the mutation tokens)
-        let kind = *["energy", "energy", "element", "overlap", "spin"].choose(self.rng).expect("kinds");
+        // `shells` of a random state is mostly outside its form: mutations bring it in (the
+        // keyword is in KEYWORDS and the mutation tokens)
+        let kinds = ["energy", "energy", "element", "overlap", "spin", "density"];
+        let kind = *kinds.choose(self.rng).expect("kinds");
         let (bra, bra_dets) = self.operand(1);
-        let line = if kind == "energy" || kind == "spin" {
+        let line = if kind == "energy" || kind == "spin" || (kind == "density" && self.rng.random_bool(0.5)) {
             format!("{kind} {bra}")
         } else {
             let mut ket = self.operand(1);

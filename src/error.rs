@@ -70,7 +70,7 @@ impl PartialEq for Span {
 }
 
 /// The statements of the input language, as the help after a syntax error lists them.
-pub const STATEMENTS: &str = "`orbitals`, `space`, `coefficients`, `det`, `state`, `csf`, `csfs`, `energy`, `element`, `overlap`, `spin`, `roots`";
+pub const STATEMENTS: &str = "`orbitals`, `space`, `coefficients`, `det`, `state`, `csf`, `csfs`, `energy`, `element`, `overlap`, `spin`, `roots`, `density`, `shells`";
 
 /// What went wrong. Each kind carries the names it is about; `Error` adds the place.
 #[derive(Clone, Debug, PartialEq)]
@@ -172,9 +172,16 @@ pub enum ErrorKind {
         bra: String,
         ket: String,
     },
+    /// `shells X` where X's energy has a term the open-shell form cannot hold.
+    OutsideShellForm {
+        request: String,
+        term: String,
+        why: String,
+    },
     RequestArity {
         kind: String,
-        wanted: usize,
+        /// How many operands it takes, in words ("1", "1 or 2").
+        wanted: String,
         got: usize,
     },
     /// `what` (a phrase ending in a verb, e.g. "`X` spans") has `count` of the limit's unit.
@@ -413,6 +420,9 @@ impl Error {
                     spaces(ket)
                 )
             }
+            OutsideShellForm { request, term, why } => format!(
+                "`{request}`: the energy has the term {term}, which has no place in the open-shell form Σ f h + Σ (a J + b K): {why}"
+            ),
             RequestArity { kind, wanted, got } => {
                 format!(
                     "`{kind}` takes {wanted} state(s), but {got} {} given",
@@ -521,7 +531,8 @@ impl Error {
             EmptyState { .. } | ZeroNorm { .. } => "check the signs and coefficients of the combination".into(),
             ElectronCount { .. } => "the Hamiltonian conserves the number of electrons: every determinant of the bra and the ket must have the same count".into(),
             ClosedSpaces { .. } => "write the same closed spaces in every determinant of the bra and the ket; their sizes are unknown".into(),
-            RequestArity { .. } => "write `energy X`, `spin X`, `element X Y`, `overlap X Y` or `roots X Y ...`".into(),
+            OutsideShellForm { .. } => "ask for `energy X` (any energy) or `density X` (its densities) instead".into(),
+            RequestArity { .. } => "write `energy X`, `spin X`, `element X Y`, `overlap X Y`, `roots X Y ...`, `density X`, `density X Y` or `shells X`".into(),
             Coupling { .. } => "write `csf X = | core^2 p q r | S=1/2 path=1/2,0,1/2`: the intermediate spin after each open shell, ending at S".into(),
             ClosedShellNeeded { .. } => "write every orbital of the determinant doubly occupied (`p^2`): the excitation makes the open shells".into(),
             ExcitedShell { .. } => "a spin-adapted excitation moves electrons out of doubly occupied orbitals into empty ones".into(),

@@ -9,6 +9,7 @@ use crate::language::program::Program;
 use crate::language::program::RequestKind;
 use crate::numbers::bind::Bindings;
 use crate::numbers::block_values::evaluate_block;
+use crate::numbers::density_listing::{DensityValues, density_values};
 use crate::numbers::fcidump::{IntegralDump, write_dump};
 use crate::numbers::integrals::Integrals;
 use crate::numbers::optimize::Controls;
@@ -140,9 +141,10 @@ fn evaluate_request(
     settings: &Settings,
     progress: &dyn Fn(&str),
 ) -> Result<Evaluated> {
-    match &d.block {
-        Some(block) => evaluate_block(program, request, d, block, bindings, ints, settings, progress),
-        None => tabulate(program, request, d, bindings, ints),
+    match (&d.block, d.density_symmetry()) {
+        (Some(block), _) => evaluate_block(program, request, d, block, bindings, ints, settings, progress),
+        (None, Some(symmetry)) => density_values(program, request, d, symmetry, bindings),
+        (None, None) => tabulate(program, request, d, bindings, ints),
     }
 }
 
@@ -262,7 +264,10 @@ pub fn eval_warnings(dump: &IntegralDump, results: &[Evaluated]) -> Vec<String> 
     out.extend(results.iter().flat_map(|r| r.warnings.iter().cloned()));
     if let Some(nelec) = dump.header.nelec {
         for r in results {
-            let energies = matches!(r.kind, RequestKind::Energy | RequestKind::Element | RequestKind::Roots);
+            let energies = matches!(
+                r.kind,
+                RequestKind::Energy | RequestKind::Element | RequestKind::Roots | RequestKind::Shells
+            );
             if energies && r.electrons != nelec {
                 out.push(format!(
                     "`{}` has {} electrons under the bindings, but the integral file was made for NELEC={nelec}",
@@ -290,6 +295,10 @@ pub fn results_text(results: &[Evaluated]) -> String {
     for r in results {
         if let Some(roots) = &r.roots {
             out.push_str(&roots_text(&r.request, roots));
+            continue;
+        }
+        if let Some(density) = &r.density {
+            out.push_str(&density_text(r, density));
             continue;
         }
         // the free coefficients, after the value: where the energy is stationary, or as set
@@ -333,6 +342,46 @@ pub fn results_text(results: &[Evaluated]) -> String {
                 o.reason
             ));
         }
+    }
+    out
+}
+
+/// The listed elements of a density: its symmetry, then `γ p q value` and `Γ p q r s value`
+/// lines, orbitals 1-based; with unbound indices, a line `i=1 j=2` before each assignment's.
+fn density_text(r: &Evaluated, density: &DensityValues) -> String {
+    let mut out = format!(
+        "{}\n  symmetry {}: one element of each related set is listed\n",
+        r.request,
+        density.symmetry.text()
+    );
+    for (entry, row) in r.entries.iter().zip(&density.rows) {
+        let indent = if r.tabulated {
+            out.push_str(&format!("  {}\n", entry.indices.iter().map(|(n, m)| format!("{n}={m}")).join(" ")));
+            "    "
+        } else {
+            "  "
+        };
+        for (name, elements) in [("γ", &row.one), ("Γ", &row.two)] {
+            for e in elements {
+                out.push_str(&format!(
+                    "{indent}{name} {:<16}  {:>22}\n",
+                    e.orbitals.iter().map(|m| format!("{m:>4}")).join(""),
+                    fixed(e.value)
+                ));
+            }
+        }
+        if row.one.is_empty() && row.two.is_empty() {
+            out.push_str(&format!("{indent}every element is zero\n"));
+        }
+    }
+    for o in &r.omitted {
+        let rows = if o.count == 1 { "row" } else { "rows" };
+        out.push_str(&format!(
+            "  left out: {} {rows} where {}: {}\n",
+            o.count,
+            equal_text(&o.equal),
+            o.reason
+        ));
     }
     out
 }
@@ -393,7 +442,20 @@ pub fn results_json(results: &[Evaluated], warnings: &[String]) -> String {
                 }
                 v
             };
-            if let Some(roots) = &r.roots {
+            if let Some(density) = &r.density {
+                let rows: Vec<serde_json::Value> = r
+                    .entries
+                    .iter()
+                    .zip(&density.rows)
+                    .map(|(e, row)| serde_json::json!({"indices": map(&e.indices), "gamma": row.one, "Gamma": row.two}))
+                    .collect();
+                match rows.as_slice() {
+                    [row] if !r.tabulated => serde_json::json!({"request": r.request, "symmetry": density.symmetry.text(),
+                        "gamma": row["gamma"], "Gamma": row["Gamma"]}),
+                    _ => serde_json::json!({"request": r.request, "symmetry": density.symmetry.text(),
+                        "values": rows, "omitted": r.omitted}),
+                }
+            } else if let Some(roots) = &r.roots {
                 let list: Vec<serde_json::Value> = roots
                     .roots
                     .iter()

@@ -81,7 +81,9 @@ struct Gen<'r, R: Rng> {
 /// request's value where that is one number, and lies at or below each of its values otherwise.
 pub const CLAIM: &str = "# claim: ";
 
-const KEYWORDS: [&str; 13] = [
+const KEYWORDS: [&str; 15] = [
+    "density",
+    "shells",
     "orbitals",
     "space",
     "coefficients",
@@ -671,12 +673,20 @@ impl<R: Rng> Gen<'_, R> {
     }
 
     fn request(&mut self) {
-        let kinds = ["energy", "energy", "element", "overlap", "spin", "roots", "roots"];
+        // `shells` of a random state is mostly outside its form: mutations bring it in (the
+        // keyword is in KEYWORDS and the mutation tokens)
+        let kinds = ["energy", "energy", "element", "overlap", "spin", "roots", "roots", "density"];
         let kind = *kinds.choose(self.rng).expect("kinds");
         // a state with free coefficients in energy, element and overlap, and now and then in
         // `spin` or `roots`, which refuse it
         let free = match self.free.choose(self.rng) {
-            Some(f) if self.rng.random_bool(if matches!(kind, "spin" | "roots") { 0.03 } else { 0.4 }) => {
+            Some(f)
+                if self.rng.random_bool(if matches!(kind, "spin" | "roots" | "density") {
+                    0.03
+                } else {
+                    0.4
+                }) =>
+            {
                 Some(f.clone())
             }
             _ => None,
@@ -685,6 +695,7 @@ impl<R: Rng> Gen<'_, R> {
         let signature = bra_dets[0].signature();
         let line = match kind {
             "energy" | "spin" => format!("{kind} {bra}"),
+            "density" if self.rng.random_bool(0.5) => format!("density {bra}"),
             "roots" => {
                 let mut line = format!("roots {bra}");
                 for _ in 0..self.rng.random_range(0..=3) {

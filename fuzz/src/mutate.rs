@@ -8,7 +8,7 @@ use rand::seq::IndexedRandom;
 use rand::{Rng, RngExt};
 
 /// Tokens of the language and its edges, inserted or substituted at random.
-const TOKENS: [&str; 82] = [
+const TOKENS: [&str; 84] = [
     "|",
     "| ",
     "'",
@@ -74,6 +74,8 @@ const TOKENS: [&str; 82] = [
     "[i -> a]",
     "[i j' -> a b']",
     "[i n -> a d]",
+    "density",
+    "shells",
     "S=",
     "M=",
     "path=",

@@ -140,6 +140,7 @@ pub fn verify_block(
                 notes: vec![],
                 vanishing: vec![],
                 block: None,
+                shells: None,
                 ..derivation.clone()
             };
             assembled.push(check(&at, &d, seed.wrapping_add(k as u64))?);

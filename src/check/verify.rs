@@ -4,13 +4,15 @@
 use crate::check::block_check::{BlockReport, verify_block};
 use crate::check::brute_force;
 use crate::engine::coincidence;
-use crate::engine::derive::{Derivation, Options, derive};
+use crate::engine::density::{self as shown, Symmetry};
+use crate::engine::derive::{Derivation, Options, Route, derive};
 use crate::engine::exact::Exact;
 use crate::error::{Error, ErrorKind, Result};
 use crate::language::orbital::{Orb, SpaceId, Spin};
 use crate::language::program::{DetSpec, Occupant, Program, Request, RequestKind, State};
 use crate::numbers::bind::symbols_of;
-use crate::numbers::evaluate::{Binding, evaluate};
+use crate::numbers::density;
+use crate::numbers::evaluate::{Binding, density_elements, evaluate};
 use crate::numbers::integrals::{IntegralTable, Integrals};
 use itertools::Itertools;
 use rand::seq::IndexedRandom;
@@ -172,10 +174,10 @@ fn all_different_within_spaces(program: &Program, assignment: &[(u32, usize)]) -
 }
 
 /// A derived number beside its brute-force value.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct Comparison {
-    /// "value" or "overlap"
-    pub what: &'static str,
+    /// "value", "overlap", or the density element compared
+    pub what: String,
     pub brute_force: f64,
     pub derived: f64,
     /// The size of the numbers the value is a sum of: the product of the norms of the bra and
@@ -233,13 +235,22 @@ pub fn compare(
     let norm = brute_force::dot(&bra, &bra);
     let vanishes = norm.abs() < 1e-12 * scale;
     let (expected, second) = match request.kind {
+        RequestKind::Density if vanishes => return Ok(None),
+        RequestKind::Density => {
+            return Ok(Some(density_comparisons(derivation, binding, (&bra, &ket), Symmetry::Expectation)));
+        }
+        RequestKind::TransitionDensity => {
+            return Ok(Some(density_comparisons(derivation, binding, (&bra, &ket), Symmetry::Transition)));
+        }
         RequestKind::Overlap => (overlap, None),
         // a `roots` request is checked through its pairs, which are elements
         RequestKind::Element | RequestKind::Roots => {
             (brute_force::matrix_element(&bra, &ket, ints), Some(("overlap", overlap, &derivation.overlap)))
         }
-        RequestKind::Energy if vanishes => return Ok(None),
-        RequestKind::Energy => (brute_force::matrix_element(&bra, &bra, ints) / norm, None),
+        RequestKind::Energy | RequestKind::Shells if vanishes => return Ok(None),
+        RequestKind::Energy | RequestKind::Shells => {
+            (brute_force::matrix_element(&bra, &bra, ints) / norm, None)
+        }
         RequestKind::Spin if vanishes => return Ok(None),
         RequestKind::Spin => (
             brute_force::dot(&bra, &brute_force::apply_s_squared(&bra)) / norm,
@@ -247,22 +258,101 @@ pub fn compare(
         ),
     };
     let scale = match request.kind {
-        RequestKind::Overlap | RequestKind::Element | RequestKind::Roots => {
+        RequestKind::Overlap | RequestKind::Element | RequestKind::Roots | RequestKind::TransitionDensity => {
             (norm * brute_force::dot(&ket, &ket)).sqrt()
         }
-        RequestKind::Energy | RequestKind::Spin => 1.0,
+        _ => 1.0,
     };
     let mut out = vec![Comparison {
-        what: "value",
+        what: "value".into(),
         brute_force: expected,
         derived: evaluate(&derivation.value, binding, ints),
         scale,
     }];
     if let Some((what, brute_force, expr)) = second {
         let scale = if request.kind == RequestKind::Spin { 1.0 } else { scale };
-        out.push(Comparison { what, brute_force, derived: evaluate(expr, binding, ints), scale });
+        out.push(Comparison {
+            what: what.into(),
+            brute_force,
+            derived: evaluate(expr, binding, ints),
+            scale,
+        });
     }
     Ok(Some(out))
+}
+
+/// The symbolic densities of a derivation beside the densities of the brute-force vectors, for
+/// one binding: for γ and for Γ, the element where they differ most.
+fn density_comparisons(
+    derivation: &Derivation,
+    binding: &Binding,
+    (bra, ket): (&brute_force::Vector, &brute_force::Vector),
+    symmetry: Symmetry,
+) -> Vec<Comparison> {
+    let n = binding
+        .orbitals
+        .iter()
+        .chain(binding.spaces.iter().flatten())
+        .chain(binding.indices.iter().flatten())
+        .max()
+        .map_or(0, |m| m + 1);
+    let (norm_bra, norm_ket) = (brute_force::dot(bra, bra), brute_force::dot(ket, ket));
+    let (expected, scale) = match symmetry {
+        // `density S` is normalized; a transition density is not
+        Symmetry::Expectation => {
+            let mut d = density::densities(ket, ket, n);
+            d.one.iter_mut().chain(d.two.iter_mut()).for_each(|x| *x /= norm_ket);
+            (d, 1.0)
+        }
+        Symmetry::Transition => (density::densities(bra, ket, n), (norm_bra * norm_ket).sqrt()),
+    };
+    let derived = density_elements(&derivation.value, binding).dense(n);
+    // the element of `rank` orbitals where derived and expected differ most, found without
+    // building its name until it is known
+    let worst = |what: &str, rank: u32, expected: &[f64], derived: &[f64]| {
+        let deviation =
+            |at: usize| (derived[at] - expected[at]).abs() / expected[at].abs().max(scale).max(1.0);
+        let at = (0..expected.len()).max_by(|&a, &b| deviation(a).total_cmp(&deviation(b)))?;
+        let orbitals: Vec<String> = (0..rank).rev().map(|k| (at / n.pow(k) % n + 1).to_string()).collect();
+        Some(Comparison {
+            what: format!("{what}({})", orbitals.join(",")),
+            brute_force: expected[at],
+            derived: derived[at],
+            scale,
+        })
+    };
+    worst("one-particle density element γ", 2, &expected.one, &derived.one)
+        .into_iter()
+        .chain(worst("two-particle density element Γ", 4, &expected.two, &derived.two))
+        .collect()
+}
+
+/// The exact checks of a density or shells request: a density has its symmetry (the listed
+/// elements give back every element) and gives the derived energy (`density S`) or <S|H|T>
+/// (`density S T`); an open-shell form gives back the energy it was read from.
+fn verify_exact(program: &Program, request: &Request, derivation: &Derivation) -> Result<()> {
+    let failed = |report: String| {
+        Error::at(ErrorKind::VerificationFailed { request: request.text.clone(), report }, &request.span)
+    };
+    if let Some(form) = &derivation.shells
+        && form.energy() != derivation.value
+    {
+        return Err(failed("the open-shell form does not give back the energy it was read from".into()));
+    }
+    let Some(symmetry) = derivation.density_symmetry() else { return Ok(()) };
+    if shown::complete(&shown::representatives(&derivation.value, symmetry), symmetry) != derivation.value {
+        return Err(failed(format!("the density does not have the symmetry {}", symmetry.text())));
+    }
+    let kind = if symmetry == Symmetry::Expectation { RequestKind::Energy } else { RequestKind::Element };
+    let options = Options { distinct: derivation.distinct, route: Route::Determinants, ..Options::default() };
+    let energy = derive(program, &Request { kind, block: None, ..request.clone() }, &options)?;
+    if shown::energy(&derivation.value) != energy.value {
+        let what = if kind == RequestKind::Energy { "energy" } else { "element <bra|H|ket>" };
+        return Err(failed(format!(
+            "Σ γ_pq h_pq + ½ Σ Γ_pqrs (pq|rs) of the densities is not the derived {what}"
+        )));
+    }
+    Ok(())
 }
 
 /// Past this many distinct determinants in bra and ket together the check samples determinant
@@ -319,7 +409,11 @@ fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, s
     for (i, j) in pairs {
         let single = |d: &DetSpec| State::new(vec![(Exact::one(), d.clone())]);
         let pair = Request {
-            kind: RequestKind::Element,
+            kind: if derivation.density_symmetry().is_some() {
+                RequestKind::TransitionDensity
+            } else {
+                RequestKind::Element
+            },
             text: format!("{} (distinct determinants {} and {})", request.text, i + 1, j + 1),
             bra: single(bras[i].1),
             ket: single(kets[j].1),
@@ -458,6 +552,7 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
         ));
         return Ok(report);
     }
+    verify_exact(program, request, derivation)?;
     // S² is cheap to apply by brute force at any size; H is not
     if !fits_whole_check(request) && request.kind != RequestKind::Spin {
         return verify_pairs(program, request, derivation, seed);
@@ -533,8 +628,8 @@ pub(super) fn verify_sized(
                 continue; // the state vanishes for this assignment; the notes say so
             };
             for comparison in pairs {
-                let Comparison { what, brute_force: expected, derived, .. } = comparison;
                 let deviation = comparison.deviation();
+                let Comparison { what, brute_force: expected, derived, .. } = comparison;
                 report.max_deviation = report.max_deviation.max(deviation);
                 report.checks += 1;
                 if deviation > TOLERANCE || !derived.is_finite() {

@@ -4,9 +4,11 @@
 use super::{Definitions, Namer, integral_parts, monomial_text};
 use crate::check::verify::Report;
 use crate::engine::block_derivation::BlockDerivation;
+use crate::engine::density::representatives;
 use crate::engine::derive::Derivation;
 use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, IntegralKind};
+use crate::engine::shells::{Shell, ShellForm};
 use crate::language::program::{Program, RequestKind};
 use serde::Serialize;
 
@@ -47,6 +49,13 @@ struct RequestOut<'a> {
     /// For `spin` requests: <S_z>; `terms` then hold <S²>.
     #[serde(skip_serializing_if = "Option::is_none")]
     s_z: Option<Vec<TermOut>>,
+    /// For `density`: the symmetry of the density; `terms` then list one element of each set
+    /// it relates, and each term adds its coefficient to its element.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    symmetry: Option<&'static str>,
+    /// For `shells`: the energy (in `terms`) in the open-shell form.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    shells: Option<ShellsOut>,
     /// The closed spaces that `fock` and `reference_energy` terms sum over.
     closed_spaces: Vec<String>,
     /// The definitions of the `fock` and `reference_energy` terms, as text, for those the
@@ -55,6 +64,40 @@ struct RequestOut<'a> {
     definitions: serde_json::Map<String, serde_json::Value>,
     notes: &'a [String],
     verification: Option<&'a Report>,
+}
+
+#[derive(Serialize)]
+struct ShellOut {
+    name: String,
+    /// "orbital" or "space" (a closed space, its members summed)
+    kind: &'static str,
+}
+
+/// E = Σ_s f[s] h_ss + Σ_{s,t} (a[s][t] J_st + b[s][t] K_st) over ordered pairs, in the order
+/// of `shells`.
+#[derive(Serialize)]
+struct ShellsOut {
+    shells: Vec<ShellOut>,
+    f: Vec<CoefficientOut>,
+    a: Vec<Vec<CoefficientOut>>,
+    b: Vec<Vec<CoefficientOut>>,
+}
+
+fn shells(form: &ShellForm, namer: &Namer) -> ShellsOut {
+    let table = |t: &Vec<Vec<Exact>>| t.iter().map(|row| row.iter().map(coefficient).collect()).collect();
+    ShellsOut {
+        shells: form
+            .shells
+            .iter()
+            .map(|&s| ShellOut {
+                name: super::text::shell_name(s, namer),
+                kind: if matches!(s, Shell::Space(_)) { "space" } else { "orbital" },
+            })
+            .collect(),
+        f: form.f.iter().map(coefficient).collect(),
+        a: table(&form.a),
+        b: table(&form.b),
+    }
 }
 
 #[derive(Serialize)]
@@ -141,6 +184,8 @@ fn json_kind(kind: IntegralKind) -> &'static str {
         IntegralKind::Coulomb => "coulomb",
         IntegralKind::Exchange => "exchange",
         IntegralKind::General => "eri",
+        IntegralKind::OneDensity => "gamma",
+        IntegralKind::TwoDensity => "Gamma",
     }
 }
 
@@ -228,7 +273,12 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)]) -
                 kind: d.kind,
                 bra: &d.bra,
                 ket: &d.ket,
-                terms: block.is_none().then(|| terms(&d.value, &namer)),
+                terms: block.is_none().then(|| match d.density_symmetry() {
+                    Some(symmetry) => terms(&representatives(&d.value, symmetry), &namer),
+                    None => terms(&d.value, &namer),
+                }),
+                symmetry: d.density_symmetry().map(|s| s.text()),
+                shells: d.shells.as_deref().map(|form| shells(form, &namer)),
                 overlap: block.is_none().then(|| terms(&d.overlap, &namer)),
                 coefficients: free.map(|b| {
                     b.block

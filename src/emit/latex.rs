@@ -7,9 +7,11 @@ use super::{
 };
 use crate::check::verify::Report;
 use crate::engine::block_derivation::BlockDerivation;
+use crate::engine::density::{Symmetry, representatives};
 use crate::engine::derive::Derivation;
 use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
+use crate::engine::shells::{Shell, ShellForm};
 use crate::language::program::{Program, RequestKind};
 use num_traits::{One, Signed};
 
@@ -110,6 +112,8 @@ fn factor(f: &Factor, namer: &Namer, summed: &[String]) -> String {
         IntegralKind::General => {
             format!(r"({}\vert {})", indices(&n[..2], r"\,"), indices(&n[2..], r"\,"))
         }
+        IntegralKind::OneDensity => format!(r"\gamma{}", subscript(&n)),
+        IntegralKind::TwoDensity => format!(r"\Gamma{}", subscript(&n)),
     }
 }
 
@@ -701,9 +705,10 @@ fn label(operand: &str) -> String {
 fn left_sides(d: &Derivation) -> Vec<String> {
     let (b, k) = (label(&d.bra), label(&d.ket));
     match d.kind {
-        RequestKind::Energy => vec![format!(
+        RequestKind::Energy | RequestKind::Shells | RequestKind::Density => vec![format!(
             r"\frac{{\langle {b} \vert \hat{{H}} \vert {b} \rangle}}{{\langle {b} \vert {b} \rangle}}"
         )],
+        RequestKind::TransitionDensity => vec![format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle")],
         RequestKind::Element | RequestKind::Roots => {
             vec![format!(r"\langle {b} \vert \hat{{H}} \vert {k} \rangle")]
         }
@@ -943,6 +948,112 @@ fn block_environments(
     out
 }
 
+/// A signed exact number: `-\frac{1}{2}`.
+fn signed(c: &Exact) -> String {
+    if c.is_zero() {
+        "0".into()
+    } else if c.is_negative() {
+        format!("-{}", magnitude(c))
+    } else {
+        magnitude(c)
+    }
+}
+
+/// The symmetry of a density in TeX.
+fn symmetry_tex(symmetry: Symmetry) -> &'static str {
+    match symmetry {
+        Symmetry::Transition => r"\Gamma_{pqrs} = \Gamma_{rspq}",
+        Symmetry::Expectation => {
+            r"\gamma_{pq} = \gamma_{qp},\ \Gamma_{pqrs} = \Gamma_{rspq} = \Gamma_{qpsr} = \Gamma_{srqp}"
+        }
+    }
+}
+
+/// A density as an `align*` of `element += value` rows, each with the summation ranges and
+/// equalities under which it applies.
+fn density_environment(d: &Derivation, symmetry: Symmetry, namer: &Namer) -> String {
+    let (b, k) = (label(&d.bra), label(&d.ket));
+    let of = match symmetry {
+        Symmetry::Expectation => {
+            format!(r"$\langle {b} \vert \cdots \vert {b} \rangle / \langle {b} \vert {b} \rangle$")
+        }
+        Symmetry::Transition => format!(r"$\langle {b} \vert \cdots \vert {k} \rangle$"),
+    };
+    let mut out = format!(
+        "\\begin{{align*}}\n\\intertext{{The densities {of}, one element of each set related by the symmetry}}\n  &{} \\\\\n\\intertext{{is listed; each row adds its value to the element for every value of its summation indices:}}\n",
+        symmetry_tex(symmetry)
+    );
+    let listed = representatives(&d.value, symmetry);
+    let rows: Vec<String> = listed
+        .terms
+        .iter()
+        .map(|t| {
+            let summed = namer.summed_names(&t.sums);
+            let o = |x| name(&namer.orb(x, &summed));
+            let mut conditions: Vec<String> =
+                t.deltas.iter().map(|&(a, b)| format!("{} = {}", o(a), o(b))).collect();
+            let mut j = 0;
+            while j < t.sums.len() {
+                let mut names = vec![name(&summed[j])];
+                while j + 1 < t.sums.len() && t.sums[j + 1] == t.sums[j] {
+                    j += 1;
+                    names.push(name(&summed[j]));
+                }
+                conditions.push(format!(r"{} \in {}", names.join(","), upright(namer.space(t.sums[j]))));
+                j += 1;
+            }
+            let condition = if conditions.is_empty() {
+                String::new()
+            } else {
+                format!(" && {}", conditions.join(r",\ "))
+            };
+            format!(
+                r"  {} &\mathrel{{+}}= {}{condition}",
+                factor(&t.factor, namer, &summed),
+                signed(&t.coeff)
+            )
+        })
+        .collect();
+    if rows.is_empty() {
+        out.push_str(r"  &\text{every element is zero}");
+    }
+    out.push_str(&rows.join(" \\\\\n"));
+    out.push_str("\n\\end{align*}\n");
+    out
+}
+
+/// The tables of an open-shell form: f_s, a_st and b_st over the shells, under the energy.
+fn shell_tables(form: &ShellForm, namer: &Namer) -> String {
+    let names: Vec<String> = form
+        .shells
+        .iter()
+        .map(|&s| match s {
+            Shell::Orbital(o) => name(&namer.orb(o, &[])),
+            Shell::Space(space) => upright(namer.space(space)),
+        })
+        .collect();
+    let columns = "c".repeat(names.len());
+    let head = format!(" & {}", names.join(" & "));
+    let table = |corner: &str, rows: Vec<(String, &Vec<Exact>)>| {
+        let body: Vec<String> = rows
+            .iter()
+            .map(|(label, row)| {
+                format!("{label} & {}", row.iter().map(signed).collect::<Vec<_>>().join(" & "))
+            })
+            .collect();
+        format!(
+            "\\begin{{array}}{{c|{columns}}}\n{corner}{head} \\\\ \\hline\n{}\n\\end{{array}}",
+            body.join(" \\\\\n")
+        )
+    };
+    let f = table("", vec![("f_s".into(), &form.f)]);
+    let a = table("a_{st}", names.iter().cloned().zip(form.a.iter()).collect());
+    let b = table("b_{st}", names.iter().cloned().zip(form.b.iter()).collect());
+    format!(
+        "\\begin{{gather*}}\n\\intertext{{In open shells, $E = \\sum_s f_s h_{{ss}} + \\sum_{{s,t}} (a_{{st}} J_{{st}} + b_{{st}} K_{{st}})$ over ordered pairs of shells (a closed space is one shell, its members summed):}}\n{f}\n\\\\\n{a} \\qquad {b}\n\\end{{gather*}}\n"
+    )
+}
+
 /// The LaTeX of every derivation; with `standalone`, a complete document that needs nothing
 /// beyond amsmath.
 pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], standalone: bool) -> String {
@@ -971,9 +1082,14 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], s
         }
         out.push_str(&format!("% {}\n", comment(&d.text)));
         out.push_str(&format!("% {}\n", comment(&verification_line(report.as_ref()))));
-        match &d.block {
-            Some(block) => out.push_str(&block_environments(program, d, block, legend)),
-            None => out.push_str(&environment(d, &namer, legend)),
+        match (&d.block, d.density_symmetry(), &d.shells) {
+            (Some(block), _, _) => out.push_str(&block_environments(program, d, block, legend)),
+            (None, Some(symmetry), _) => out.push_str(&density_environment(d, symmetry, &namer)),
+            (None, None, Some(form)) => {
+                out.push_str(&environment(d, &namer, legend));
+                out.push_str(&shell_tables(form, &namer));
+            }
+            (None, None, None) => out.push_str(&environment(d, &namer, legend)),
         }
         for note in &super::notes(d) {
             out.push_str(&format!("% note: {}\n", comment(note)));

@@ -124,8 +124,8 @@ pub fn integral_parts(factor: &Factor, namer: &Namer, summed: &[String]) -> (Int
         (Factor::One | Factor::RefEnergy(_), _) => vec![],
         (Factor::Eri(p, _, r, _), IntegralKind::Coulomb) => vec![o(p), o(r)],
         (Factor::Eri(p, q, _, _), IntegralKind::Exchange) => vec![o(p), o(q)],
-        (Factor::H(p, q) | Factor::Fock(p, q, _), _) => vec![o(p), o(q)],
-        (Factor::Eri(p, q, r, s), _) => vec![o(p), o(q), o(r), o(s)],
+        (Factor::H(p, q) | Factor::Fock(p, q, _) | Factor::Gamma1(p, q), _) => vec![o(p), o(q)],
+        (Factor::Eri(p, q, r, s) | Factor::Gamma2(p, q, r, s), _) => vec![o(p), o(q), o(r), o(s)],
     };
     (factor.kind(), names)
 }
@@ -252,16 +252,14 @@ pub struct TestVector {
 /// The seed of the integrals that generated code checks itself on.
 pub const TEST_SEED: u64 = 0x5eed_2026;
 
-/// Test vectors for one derivation: the spaces sized 2 and 3 (more where generic indices need
-/// room), generic indices at their first assignment and, where two indices share a space, also
-/// where they coincide.
-pub fn test_vectors(
+/// The bindings generated code is tested at, each with the number of orbitals of its test
+/// integrals: the spaces sized 2 and 3 (more where generic indices need room), generic indices
+/// at their first assignment and, where two indices share a space, also where they coincide.
+fn test_bindings(
     program: &Program,
-    request: &crate::language::program::Request,
     derivation: &crate::engine::derive::Derivation,
-) -> crate::error::Result<Vec<TestVector>> {
-    use crate::numbers::evaluate::{Binding, evaluate};
-    use crate::numbers::integrals::HashedIntegrals;
+) -> Vec<(crate::numbers::evaluate::Binding, usize)> {
+    use crate::numbers::evaluate::Binding;
     let mut out = vec![];
     for base in [2usize, 3] {
         let mut next = program.orbitals.len();
@@ -280,7 +278,6 @@ pub fn test_vectors(
                 (next - n..next).collect()
             })
             .collect();
-        let ints = HashedIntegrals { seed: TEST_SEED, orbitals: next };
         for coincide in [false, true] {
             if coincide && (derivation.distinct || base == 3) {
                 continue;
@@ -300,17 +297,33 @@ pub fn test_vectors(
             if coincide && used_in_space.iter().all(|&n| n < 2) {
                 continue;
             }
-            let (expected, source) = if crate::check::verify::fits_whole_check(request) {
-                match crate::check::verify::compare(program, request, derivation, &binding, &ints)? {
-                    // + 0.0: a zero is written as 0.0, never -0.0
-                    Some(c) => (c[0].brute_force + 0.0, "brute force"),
-                    None => continue,
-                }
-            } else {
-                (evaluate(&derivation.value, &binding, &ints) + 0.0, "verified expression")
-            };
-            out.push(TestVector { binding, orbitals: next, expected, source });
+            out.push((binding, next));
         }
+    }
+    out
+}
+
+/// Test vectors for one derivation, at every test binding (see `test_bindings`).
+pub fn test_vectors(
+    program: &Program,
+    request: &crate::language::program::Request,
+    derivation: &crate::engine::derive::Derivation,
+) -> crate::error::Result<Vec<TestVector>> {
+    use crate::numbers::evaluate::evaluate;
+    use crate::numbers::integrals::HashedIntegrals;
+    let mut out = vec![];
+    for (binding, orbitals) in test_bindings(program, derivation) {
+        let ints = HashedIntegrals { seed: TEST_SEED, orbitals };
+        let (expected, source) = if crate::check::verify::fits_whole_check(request) {
+            match crate::check::verify::compare(program, request, derivation, &binding, &ints)? {
+                // + 0.0: a zero is written as 0.0, never -0.0
+                Some(c) => (c[0].brute_force + 0.0, "brute force"),
+                None => continue,
+            }
+        } else {
+            (evaluate(&derivation.value, &binding, &ints) + 0.0, "verified expression")
+        };
+        out.push(TestVector { binding, orbitals, expected, source });
     }
     Ok(out)
 }
@@ -335,6 +348,75 @@ pub fn pair_label(
         label(&block.rows[pair.row], pair.row),
         label(&block.columns[pair.column], pair.column)
     )
+}
+
+/// One self-check of a generated density function: the test vector's `expected` is the energy
+/// Σ γ_pq h_pq + ½ Σ Γ_pqrs (pq|rs) at the test integrals (for `density S T` the element
+/// <S|H|T>), and `densities` are the densities over its orbitals, both from brute force where the
+/// states are small enough.
+pub struct DensityTestVector {
+    pub vector: TestVector,
+    pub densities: crate::numbers::density::Densities,
+}
+
+impl DensityTestVector {
+    /// The elements of γ (`one`) or Γ (`two`) that are not zero, each with its orbitals: what
+    /// generated tests list, the others being checked to be zero.
+    pub fn nonzero(values: &[f64], n: usize) -> Vec<(Vec<usize>, f64)> {
+        values
+            .iter()
+            .enumerate()
+            .filter(|(_, x)| x.abs() > 1e-14)
+            .map(|(at, &x)| {
+                let rank = if values.len() == n * n { 2 } else { 4 };
+                let orbitals = (0..rank).rev().map(|k| at / n.pow(k) % n).collect();
+                // + 0.0: a zero is written as 0.0, never -0.0
+                (orbitals, x + 0.0)
+            })
+            .collect()
+    }
+}
+
+/// Test vectors for a `density S` or `density S T` request, at every test binding where the
+/// state does not vanish: the densities of the brute-force state vectors (normalized for
+/// `density S`, as the derivation is) and the energy or element brute force gives; for states
+/// too large to check whole, the verified densities and the energy they give.
+pub fn density_test_vectors(
+    program: &Program,
+    request: &crate::language::program::Request,
+    derivation: &crate::engine::derive::Derivation,
+) -> Vec<DensityTestVector> {
+    use crate::check::brute_force;
+    use crate::language::program::RequestKind;
+    use crate::numbers::density::densities;
+    use crate::numbers::integrals::HashedIntegrals;
+    let mut out = vec![];
+    for (binding, n) in test_bindings(program, derivation) {
+        let ints = HashedIntegrals { seed: TEST_SEED, orbitals: n };
+        let (densities, energy, source) = if crate::check::verify::fits_whole_check(request) {
+            let bra = brute_force::state_vector(&request.bra, &binding);
+            let ket = brute_force::state_vector(&request.ket, &binding);
+            if derivation.kind == RequestKind::TransitionDensity {
+                (densities(&bra, &ket, n), brute_force::matrix_element(&bra, &ket, &ints), "brute force")
+            } else {
+                let norm = brute_force::dot(&ket, &ket);
+                let scale: f64 = request.ket.terms.iter().map(|(c, _)| c.to_f64().powi(2)).sum();
+                if norm.abs() < 1e-12 * scale {
+                    continue;
+                }
+                let mut d = densities(&ket, &ket, n);
+                d.one.iter_mut().chain(d.two.iter_mut()).for_each(|x| *x /= norm);
+                (d, brute_force::matrix_element(&ket, &ket, &ints) / norm, "brute force")
+            }
+        } else {
+            let d = crate::numbers::evaluate::density_elements(&derivation.value, &binding).dense(n);
+            let energy = d.energy(&ints);
+            (d, energy, "verified expression")
+        };
+        let vector = TestVector { binding, orbitals: n, expected: energy + 0.0, source };
+        out.push(DensityTestVector { vector, densities });
+    }
+    out
 }
 
 /// The overlap <f|g> of a pair as a request and derivation of its own (an `overlap` pair

@@ -10,7 +10,10 @@
 //! exactly those elements, never a sub-block of eri. Deltas become `if` statements.
 
 use super::text::request_meaning;
-use super::{Group, Identifiers, Namer, TEST_SEED, TestVector, groups, test_vectors};
+use super::{
+    DensityTestVector, Group, Identifiers, Namer, TEST_SEED, TestVector, density_test_vectors, groups,
+    test_vectors,
+};
 use crate::check::verify::Checked;
 use crate::engine::derive::Derivation;
 use crate::engine::exact::ExactDisplay;
@@ -18,6 +21,7 @@ use crate::engine::expression::{Expr, Factor, Term};
 use crate::error::{Error, ErrorKind, Result};
 use crate::language::orbital::{Orb, SpaceId, SpaceSet};
 use crate::language::program::{Program, Request, RequestKind};
+use crate::numbers::density::Densities;
 use crate::numbers::evaluate::evaluate;
 use crate::numbers::integrals::{HashedIntegrals, Integrals};
 use std::collections::{BTreeMap, BTreeSet};
@@ -42,7 +46,8 @@ const KEYWORDS: &[&str] = &[
 
 /// Names every generated function body uses besides its own parameters. Helpers and locals of
 /// the module all start with `_`, which `Identifiers` never produces.
-const RESERVED: &[&str] = &["np", "h", "eri"];
+const RESERVED: &[&str] =
+    &["np", "h", "eri", "n_orbitals", "density_energy", "generalized_fock_and_gradient"];
 
 /// Lines longer than this are broken, one term per line.
 const LINE_LIMIT: usize = 96;
@@ -136,6 +141,8 @@ struct Needs {
     count: bool,
     fock: bool,
     reference: bool,
+    /// The densities' energy, generalized Fock matrix and gradient, and their test helpers.
+    densities: bool,
 }
 
 /// Writes one function body: the names of its symbols and summation indices, and its lines.
@@ -283,6 +290,9 @@ impl<'a> BodyWriter<'a> {
             Factor::One => None,
             Factor::H(p, q) => Some(self.gather("h", &[p, q], summed, rank)),
             Factor::Eri(p, q, r, s) => Some(self.gather("eri", &[p, q, r, s], summed, rank)),
+            Factor::Gamma1(..) | Factor::Gamma2(..) => {
+                unreachable!("density functions are written by `density_body`, not read as numbers")
+            }
             Factor::Fock(p, q, c) => {
                 if matches!(p, Orb::Summed(_)) || matches!(q, Orb::Summed(_)) {
                     return Err(unsupported("f_pq with a summation index"));
@@ -439,8 +449,14 @@ impl<'a> BodyWriter<'a> {
 fn function_name(d: &Derivation, number: usize) -> String {
     let simple = |label: &str| label.chars().all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '.');
     let operands = match d.kind {
-        RequestKind::Energy | RequestKind::Spin | RequestKind::Roots => vec![d.bra.as_str()],
-        RequestKind::Element | RequestKind::Overlap => vec![d.bra.as_str(), d.ket.as_str()],
+        RequestKind::Energy
+        | RequestKind::Spin
+        | RequestKind::Roots
+        | RequestKind::Density
+        | RequestKind::Shells => vec![d.bra.as_str()],
+        RequestKind::Element | RequestKind::Overlap | RequestKind::TransitionDensity => {
+            vec![d.bra.as_str(), d.ket.as_str()]
+        }
     };
     if operands.iter().all(|o| simple(o)) {
         format!("{} {}", d.kind.keyword(), operands.join(" "))
@@ -631,30 +647,46 @@ fn function(
 ) -> Result<Function> {
     let d = &checked.0;
     let spin = d.kind == RequestKind::Spin;
+    let density = d.density_symmetry().is_some();
     let expressions: Vec<&Expr> = if spin { vec![&d.value, &d.s_z] } else { vec![&d.value] };
     let parameters = Parameters::of(&expressions);
     let names = parameter_names(symbols, &parameters);
     let mut code = String::new();
-    let signature: Vec<&str> = ["h", "eri"].into_iter().chain(names.iter().map(String::as_str)).collect();
+    let first: &[&str] = if density { &["n_orbitals"] } else { &["h", "eri"] };
+    let signature: Vec<&str> = first.iter().copied().chain(names.iter().map(String::as_str)).collect();
     let _ = writeln!(code, "def {name}({}):", signature.join(", "));
 
     // the docstring: what is computed, the parameters, the derivation as text
     let meaning = docstring_safe(&request_meaning(d));
     let request = docstring_safe(&d.text);
     let summary = match d.kind {
-        RequestKind::Energy => format!("The energy {meaning}, electronic part, for `{request}`."),
+        RequestKind::Energy | RequestKind::Shells => {
+            format!("The energy {meaning}, electronic part, for `{request}`.")
+        }
         RequestKind::Element | RequestKind::Roots => {
             format!("The Hamiltonian matrix element {meaning}, electronic part, for `{request}`.")
         }
         RequestKind::Overlap => format!("The overlap {meaning}, for `{request}`."),
         RequestKind::Spin => format!("{meaning} as the pair (<S^2>, <S_z>), for `{request}`."),
+        RequestKind::Density | RequestKind::TransitionDensity => {
+            format!("The {meaning}, for `{request}`.").replacen("The the ", "The ", 1)
+        }
     };
     let _ = writeln!(code, "    \"\"\"{summary}\n");
     match d.kind {
-        RequestKind::Energy => {
+        RequestKind::Energy | RequestKind::Shells => {
             let _ = writeln!(
                 code,
                 "    Add the constant energy (nuclear repulsion, frozen core) for the total.\n"
+            );
+        }
+        RequestKind::Density | RequestKind::TransitionDensity => {
+            let _ = writeln!(
+                code,
+                "    Returns (dm1, dm2) over n_orbitals orbitals, dm1[p, q] = g_pq = sum_s <a+_ps a_qs> and\n    \
+                 dm2[p, q, r, s] = G_pqrs = sum_st <a+_ps a+_rt a_st a_qs>, so that the energy is\n    \
+                 sum g_pq h_pq + 1/2 sum G_pqrs (pq|rs) (density_energy). Every element is filled; the\n    \
+                 listing below shows one of each set of elements related by symmetry.\n"
             );
         }
         RequestKind::Element if d.overlap.is_zero() => {
@@ -668,7 +700,11 @@ fn function(
         }
         _ => {}
     }
-    let _ = writeln!(code, "    h, eri: one- and two-electron integrals, eri[p, q, r, s] = (pq|rs).");
+    if density {
+        let _ = writeln!(code, "    n_orbitals: the number of orbitals of the densities (int).");
+    } else {
+        let _ = writeln!(code, "    h, eri: one- and two-electron integrals, eri[p, q, r, s] = (pq|rs).");
+    }
     for &o in &parameters.orbs {
         let line = match o {
             Orb::Named(k) => {
@@ -708,6 +744,11 @@ fn function(
     let _ = writeln!(code, "    \"\"\"");
 
     // the body
+    if density {
+        needs.densities = true;
+        code.push_str(&density_body(program, symbols, &d.value, &names)?);
+        return Ok(Function { name, parameters, code });
+    }
     if Parameters::uses_integrals(&expressions) {
         let _ = writeln!(code, "    h = np.asarray(h)\n    eri = np.asarray(eri)");
     }
@@ -742,6 +783,116 @@ fn function(
         let _ = writeln!(code, "{line}");
     }
     Ok(Function { name, parameters, code })
+}
+
+/// The body of a density function: zero arrays, then each term's coefficient added to its
+/// element, for every combination of its summation indices (index arrays, `np.ix_` for several;
+/// `np.add.at` adds once per combination), under `if` for its deltas.
+fn density_body(program: &Program, symbols: &Symbols, density: &Expr, names: &[String]) -> Result<String> {
+    let mut lines = vec!["    _dm1 = np.zeros((n_orbitals, n_orbitals))".to_string()];
+    lines.push("    _dm2 = np.zeros((n_orbitals, n_orbitals, n_orbitals, n_orbitals))".into());
+    let parameters = Parameters::of(&[density]);
+    for &s in &parameters.spaces {
+        let n = &symbols.spaces[s as usize];
+        lines.push(format!("    {n} = np.asarray({n}, dtype=np.intp).reshape(-1)"));
+    }
+    let namer = Namer::new(program, &[density]);
+    let reserved: Vec<&str> = RESERVED.iter().copied().chain(names.iter().map(String::as_str)).collect();
+    let mut ids = Identifiers::new(KEYWORDS, &reserved);
+    let mut locals: BTreeMap<String, String> = BTreeMap::new();
+    let orb = |o: Orb, summed: &[String], locals: &BTreeMap<String, String>| match o {
+        Orb::Named(k) => symbols.orbitals[k as usize].clone(),
+        Orb::Index(k) => symbols.indices[k as usize].clone(),
+        Orb::Summed(d) => locals[&summed[d as usize]].clone(),
+    };
+    let mut condition: Option<&[(Orb, Orb)]> = None;
+    // the last assignment of summation indices still in force
+    let mut bound_by: Option<String> = None;
+    for group in groups(density) {
+        if group.deltas.iter().any(|&(a, b)| matches!(a, Orb::Summed(_)) || matches!(b, Orb::Summed(_))) {
+            return Err(unsupported("a delta on a summation index"));
+        }
+        if condition != Some(group.deltas) {
+            // what an `if` block assigns is not known to hold after it
+            bound_by = None;
+        }
+        if condition != Some(group.deltas) && !group.deltas.is_empty() {
+            let tests: Vec<String> = group
+                .deltas
+                .iter()
+                .map(|&(a, b)| format!("{} == {}", orb(a, &[], &locals), orb(b, &[], &locals)))
+                .collect();
+            lines.push(format!("    if {}:", tests.join(" and ")));
+        }
+        condition = Some(group.deltas);
+        let indent = if group.deltas.is_empty() { "    " } else { "        " };
+        let summed = namer.summed_names(group.sums);
+        for n in &summed {
+            if !locals.contains_key(n) {
+                let local = ids.fresh(n);
+                locals.insert(n.clone(), local);
+            }
+        }
+        let spaces: Vec<&str> = group.sums.iter().map(|&s| symbols.spaces[s as usize].as_str()).collect();
+        let bound: Vec<&str> = summed.iter().map(|n| locals[n].as_str()).collect();
+        let assignment = match spaces.len() {
+            0 => None,
+            1 => Some(format!("{} = {}", bound[0], spaces[0])),
+            _ => Some(format!("{} = np.ix_({})", bound.join(", "), spaces.join(", "))),
+        };
+        if let Some(assignment) = assignment.filter(|a| bound_by.as_ref() != Some(a)) {
+            lines.push(format!("{indent}{assignment}"));
+            bound_by = Some(assignment);
+        }
+        let irrational: BTreeSet<String> = group
+            .terms
+            .iter()
+            .filter(|t| t.coeff.as_rational().is_none())
+            .map(|t| {
+                let magnitude = t.coeff.abs();
+                format!(
+                    "{} = {}",
+                    float_literal(magnitude.to_f64_rounded()),
+                    ExactDisplay { value: &magnitude, ascii: true }
+                )
+            })
+            .collect();
+        if !irrational.is_empty() {
+            lines.push(format!("{indent}# {}", irrational.into_iter().collect::<Vec<_>>().join(", ")));
+        }
+        for term in &group.terms {
+            let (array, slots) = match term.factor {
+                Factor::Gamma1(p, q) => ("_dm1", vec![p, q]),
+                Factor::Gamma2(p, q, r, s) => ("_dm2", vec![p, q, r, s]),
+                other => unreachable!("a density holds only density elements, not {other:?}"),
+            };
+            let index: Vec<String> = slots.iter().map(|&o| orb(o, &summed, &locals)).collect();
+            let value = term.coeff.to_f64_rounded();
+            if group.sums.is_empty() {
+                let op = if value < 0.0 { "-=" } else { "+=" };
+                lines.push(format!(
+                    "{indent}{array}[{}] {op} {}",
+                    index.join(", "),
+                    float_literal(value.abs())
+                ));
+                continue;
+            }
+            // a summation index the element does not use multiplies by its space's size
+            let mut factors = vec![float_literal(value)];
+            for (d, space) in spaces.iter().enumerate() {
+                if !slots.contains(&Orb::Summed(d as u8)) {
+                    factors.push(format!("{space}.size"));
+                }
+            }
+            lines.push(format!(
+                "{indent}np.add.at({array}, ({}), {})",
+                index.join(", "),
+                factors.join(" * ")
+            ));
+        }
+    }
+    lines.push("    return _dm1, _dm2".into());
+    Ok(lines.iter().map(|l| format!("{l}\n")).collect())
 }
 
 const MEMBERS_HELPER: &str = r#"def _members(space):
@@ -790,6 +941,69 @@ const REFERENCE_HELPER: &str = r#"def _reference_energy(h, eri, closed):
             k, l = _outer(space, other)
             total += 2.0 * np.einsum("iijj->ij", eri)[k, l].sum() - np.einsum("ijij->ij", eri)[k, l].sum()
     return total
+"#;
+
+const DENSITY_HELPER: &str = r#"def density_energy(h, eri, dm1, dm2):
+    """sum_pq g_pq h_pq + 1/2 sum_pqrs G_pqrs (pq|rs): the energy of densities from the density
+    functions (for transition densities <S|H|T>), electronic part, integrals over their orbitals."""
+    return float(np.einsum("pq,pq->", dm1, h) + 0.5 * np.einsum("pqrs,pqrs->", dm2, eri))
+
+
+def generalized_fock_and_gradient(h, eri, dm1, dm2):
+    """The generalized Fock matrix F and the orbital gradient of density_energy, both (n, n).
+
+    F_pq = sum_r g_pr h_qr + sum_rst G_prst (qr|st). The gradient is dE/dkappa_pq for the
+    rotation phi'_p = sum_q phi_q U_qp with U = exp(kappa), kappa antisymmetric: for the densities
+    of one state (symmetric) 2 (F_qp - F_pq); for transition densities F_qp + F'_qp - F_pq - F'_pq,
+    F' from g_qp and G_qpsr (the derivative of <S|H|T> with both states' orbitals rotated).
+    """
+    fock = dm1 @ h.T + np.einsum("prst,qrst->pq", dm2, eri, optimize=True)
+    swapped = dm1.T @ h.T + np.einsum("rpts,qrst->pq", dm2, eri, optimize=True)
+    total = fock + swapped
+    return fock, total.T - total
+"#;
+
+const DENSITY_TEST_HELPER: &str = r#"
+
+def _check_densities(dm1, dm2, one, two):
+    """The densities against the listed non-zero elements ({orbitals: value}), the rest zero."""
+    for dm, listed in ((dm1, one), (dm2, two)):
+        expected = np.zeros_like(dm)
+        for orbitals, value in listed.items():
+            expected[orbitals] = value
+        worst = np.unravel_index(np.argmax(np.abs(dm - expected)), dm.shape)
+        assert abs(dm[worst] - expected[worst]) <= 1e-10 * max(1.0, abs(expected[worst])), (
+            worst,
+            dm[worst],
+            expected[worst],
+        )
+
+
+def _rotated(h, eri, p, q, t):
+    """The integrals of the orbitals phi'_p = sum_q phi_q U_qp with U = exp(kappa), kappa_pq = t
+    and kappa_qp = -t: a rotation by t in the (p, q) plane."""
+    u = np.eye(h.shape[0])
+    u[p, p] = u[q, q] = np.cos(t)
+    u[p, q], u[q, p] = np.sin(t), -np.sin(t)
+    return u.T @ h @ u, np.einsum("abcd,ap,bq,cr,ds->pqrs", eri, u, u, u, u, optimize=True)
+
+
+def _check_gradient(h, eri, dm1, dm2):
+    """The gradient of generalized_fock_and_gradient against central differences of
+    density_energy under rotations by +-1e-4 in every plane (p, q), within 1e-6 relative."""
+    _, gradient = generalized_fock_and_gradient(h, eri, dm1, dm2)
+    step = 1e-4
+    for p in range(h.shape[0]):
+        for q in range(p):
+            plus = density_energy(*_rotated(h, eri, p, q, step), dm1, dm2)
+            minus = density_energy(*_rotated(h, eri, p, q, -step), dm1, dm2)
+            difference = (plus - minus) / (2 * step)
+            assert abs(gradient[p, q] - difference) <= 1e-6 * max(1.0, abs(difference)), (
+                p,
+                q,
+                gradient[p, q],
+                difference,
+            )
 "#;
 
 fn hashed_integrals_code() -> String {
@@ -909,9 +1123,17 @@ fn test_function(program: &Program, symbols: &Symbols, e: &Emitted) -> Result<St
         docstring_safe(&e.text)
     );
     for (request, (d, _), f) in &e.units {
-        let vectors = test_vectors(program, request, d)?;
-        let spin = (d.kind == RequestKind::Spin).then_some((request, d));
-        out.push_str(&test_calls(program, symbols, f, &vectors, "", spin)?);
+        if d.density_symmetry().is_some() {
+            let (vectors, densities): (Vec<TestVector>, Vec<Densities>) =
+                density_test_vectors(program, request, d)
+                    .into_iter()
+                    .map(|v| (v.vector, v.densities))
+                    .unzip();
+            out.push_str(&test_calls(program, symbols, f, &vectors, "", Checks::Densities(&densities))?);
+            continue;
+        }
+        let checks = if d.kind == RequestKind::Spin { Checks::Spin(request, d) } else { Checks::Value };
+        out.push_str(&test_calls(program, symbols, f, &test_vectors(program, request, d)?, "", checks)?);
     }
     if let Some(a) = &e.assembled {
         let values: String = a
@@ -925,20 +1147,30 @@ fn test_function(program: &Program, symbols: &Symbols, e: &Emitted) -> Result<St
                 )
             })
             .collect();
-        out.push_str(&test_calls(program, symbols, &a.function, &a.vectors, &values, None)?);
+        out.push_str(&test_calls(program, symbols, &a.function, &a.vectors, &values, Checks::Value)?);
     }
     Ok(out)
 }
 
-/// Calls of `f` at every vector (`extra`: arguments given before the vector's), checked; for
-/// a `spin` request (`spin`: it and its derivation) both <S²> and <S_z>.
+/// What the test calls of a function check.
+enum Checks<'a> {
+    /// The value.
+    Value,
+    /// Both <S²> and <S_z> of a `spin` request (it and its derivation).
+    Spin(&'a Request, &'a Derivation),
+    /// The densities, one for each vector in order; then the energy they give (the vector's
+    /// value) and the orbital gradient against finite differences.
+    Densities(&'a [Densities]),
+}
+
+/// Calls of `f` at every vector (`extra`: arguments given before the vector's), checked.
 fn test_calls(
     program: &Program,
     symbols: &Symbols,
     f: &Function,
     vectors: &[TestVector],
     extra: &str,
-    spin: Option<(&Request, &Derivation)>,
+    checks: Checks,
 ) -> Result<String> {
     let mut out = String::new();
     if vectors.is_empty() {
@@ -958,27 +1190,80 @@ fn test_calls(
         }
         None => "    ",
     };
-    for v in vectors {
+    for (k, v) in vectors.iter().enumerate() {
         let args = call_arguments(symbols, &f.parameters, v)?;
         let _ = writeln!(out, "{indent}# {}, {} orbitals", comment_safe(v.source), v.orbitals);
-        let call = format!("{}(*_hashed_integrals({}){extra}{args})", f.name, v.orbitals);
-        if let Some((request, d)) = spin {
-            let s_z = s_z_expected(program, request, d, v)?;
-            let _ = writeln!(out, "{indent}_s_squared, _s_z = {call}");
-            let _ = writeln!(out, "{indent}_check(_s_squared, {})", float_literal(v.expected));
-            let _ = writeln!(out, "{indent}_check(_s_z, {})", float_literal(s_z));
-        } else {
-            let _ = writeln!(out, "{indent}_check({call}, {})", float_literal(v.expected));
+        let ints = format!("*_hashed_integrals({})", v.orbitals);
+        let call = format!("{}({ints}{extra}{args})", f.name);
+        match checks {
+            Checks::Value => {
+                let _ = writeln!(out, "{indent}_check({call}, {})", float_literal(v.expected));
+            }
+            Checks::Spin(request, d) => {
+                let s_z = s_z_expected(program, request, d, v)?;
+                let _ = writeln!(out, "{indent}_s_squared, _s_z = {call}");
+                let _ = writeln!(out, "{indent}_check(_s_squared, {})", float_literal(v.expected));
+                let _ = writeln!(out, "{indent}_check(_s_z, {})", float_literal(s_z));
+            }
+            Checks::Densities(densities) => {
+                let _ = writeln!(out, "{indent}_dm1, _dm2 = {}(n_orbitals={}{args})", f.name, v.orbitals);
+                out.push_str(&densities_check(indent, &densities[k]));
+                let energy = float_literal(v.expected);
+                let _ = writeln!(out, "{indent}_check(density_energy({ints}, _dm1, _dm2), {energy})");
+                let _ = writeln!(out, "{indent}_check_gradient({ints}, _dm1, _dm2)");
+            }
         }
     }
     Ok(out)
 }
 
-fn module_docstring(program: &Program) -> String {
+/// `_check_densities(_dm1, _dm2, {...}, {...})` with the non-zero elements of `expected`,
+/// several to a line.
+fn densities_check(indent: &str, expected: &Densities) -> String {
+    let mut out = format!("{indent}_check_densities(\n{indent}    _dm1,\n{indent}    _dm2,\n");
+    for values in [&expected.one, &expected.two] {
+        let items: Vec<String> = DensityTestVector::nonzero(values, expected.n)
+            .into_iter()
+            .map(|(orbitals, x)| {
+                let orbitals: Vec<String> = orbitals.iter().map(|o| o.to_string()).collect();
+                format!("({}): {}", orbitals.join(", "), float_literal(x))
+            })
+            .collect();
+        let inline = format!("{indent}    {{{}}},", items.join(", "));
+        if inline.len() <= LINE_LIMIT {
+            let _ = writeln!(out, "{inline}");
+            continue;
+        }
+        let _ = writeln!(out, "{indent}    {{");
+        let mut line = String::new();
+        for item in items {
+            if !line.is_empty() && indent.len() + 8 + line.len() + item.len() + 2 > LINE_LIMIT {
+                let _ = writeln!(out, "{indent}        {}", line.trim_end());
+                line.clear();
+            }
+            line.push_str(&item);
+            line.push_str(", ");
+        }
+        let _ = writeln!(out, "{indent}        {}", line.trim_end());
+        let _ = writeln!(out, "{indent}    }},");
+    }
+    let _ = writeln!(out, "{indent})");
+    out
+}
+
+fn module_docstring(program: &Program, densities: bool) -> String {
     // the file name alone, so that the module does not depend on where it was generated
     let name = &program.source.name;
     let base = name.rsplit(['/', '\\']).next().filter(|b| !b.is_empty()).unwrap_or(name);
     let input = docstring_safe(base);
+    let densities = if densities {
+        "\n- A density function takes the number of orbitals n_orbitals and returns the densities\n  \
+         (dm1, dm2), both NumPy arrays over all n_orbitals orbitals. density_energy gives their energy\n  \
+         with h and eri, generalized_fock_and_gradient the generalized Fock matrix and the orbital\n  \
+         gradient, checked here against finite differences of the energy under rotations."
+    } else {
+        ""
+    };
     format!(
         r#""""Closed formulas derived by spinfold from {input}: one function per request, in input order.
 
@@ -995,7 +1280,7 @@ Conventions:
   frozen core) yourself, times the overlap for matrix elements.
 - No function loops over orbitals: a sum over a space indexes views of h and eri (diagonals
   taken by np.einsum without copying), by slices where the members increase in even steps
-  and by index arrays otherwise.
+  and by index arrays otherwise.{densities}
 
 The test_ functions check every function against values computed by spinfold (brute-force
 determinant algebra) on integrals defined by a hash, _hashed_integrals; run them with
@@ -1020,13 +1305,14 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
         .map(|(k, unit)| emitted(program, &symbols, unit, &mut names, k + 1, &mut needs))
         .collect::<Result<Vec<Emitted>>>()?;
 
-    let mut out = module_docstring(program);
+    let mut out = module_docstring(program, needs.densities);
     for (needed, helper) in [
         (needs.members, MEMBERS_HELPER),
         (needs.outer, OUTER_HELPER),
         (needs.count, COUNT_HELPER),
         (needs.fock, FOCK_HELPER),
         (needs.reference, REFERENCE_HELPER),
+        (needs.densities, DENSITY_HELPER),
     ] {
         if needed {
             out.push_str("\n\n");
@@ -1044,6 +1330,9 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
     out.push_str("\n\n# Self-test\n\n");
     out.push_str(&hashed_integrals_code());
     out.push_str(&hashed_samples());
+    if needs.densities {
+        out.push_str(DENSITY_TEST_HELPER);
+    }
     let mut tests = vec!["test_hashed_integrals".to_string()];
     for e in &emitted {
         out.push_str("\n\n");

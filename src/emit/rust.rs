@@ -1,12 +1,12 @@
 //! Rust source for derived expressions: a std-only module with an integral-access trait, one
 //! documented function per request with loops for the sums, and a self-checking test.
 
-use super::{Group, Identifiers, Namer, TEST_SEED, groups, test_vectors};
+use super::{DensityTestVector, Group, Identifiers, Namer, TEST_SEED, groups, test_vectors};
 use crate::check::verify::Checked;
 use crate::engine::block_derivation::BlockDerivation;
 use crate::engine::derive::Derivation;
 use crate::engine::exact::Exact;
-use crate::engine::expression::{Expr, Factor, IntegralKind};
+use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
 use crate::error::Result;
 use crate::language::orbital::{Orb, SpaceId, SpaceSet};
 use crate::language::program::{Program, Request, RequestKind};
@@ -21,8 +21,21 @@ const KEYWORDS: &[&str] = &[
 ];
 
 /// Names every generated function must leave alone.
-const RESERVED: &[&str] =
-    &["Integrals", "ints", "value", "fock", "reference_energy", "space", "other", "close", "Hashed"];
+const RESERVED: &[&str] = &[
+    "Integrals",
+    "ints",
+    "value",
+    "fock",
+    "reference_energy",
+    "space",
+    "other",
+    "close",
+    "Hashed",
+    "Densities",
+    "density",
+    "n_orbitals",
+    "generalized_fock_and_gradient",
+];
 
 /// What a function takes: the free orbitals and the spaces its expression sums over.
 struct Signature {
@@ -101,7 +114,15 @@ impl Signature {
 
 /// An f64 literal for an exact coefficient's magnitude, correctly rounded.
 fn literal(c: &Exact) -> String {
-    let v = c.abs().to_f64_rounded();
+    float(c.abs().to_f64_rounded())
+}
+
+/// An f64 literal that reads back to `v`, by its name where the standard library has one
+/// (clippy refuses the digits of those).
+fn float(v: f64) -> String {
+    if v < 0.0 {
+        return format!("-{}", float(-v));
+    }
     // the standard library's constants are the same correctly rounded values
     if v == std::f64::consts::SQRT_2 {
         return "std::f64::consts::SQRT_2".into();
@@ -113,17 +134,19 @@ fn literal(c: &Exact) -> String {
     if text.contains('.') || text.contains('e') { text } else { format!("{text}.0") }
 }
 
-/// `fn name<I: ...>(params) -> f64 {` in the layout rustfmt gives it.
-fn header(name: &str, parameters: &[String]) -> String {
-    let one_line = format!("pub fn {name}<I: Integrals + ?Sized>({}) -> f64 {{", parameters.join(", "));
+/// `fn name<I: ...>(params) -> f64 {` in the layout rustfmt gives it; a density function
+/// (`density`) takes no integrals and returns `Densities`.
+fn header(name: &str, parameters: &[String], density: bool) -> String {
+    let (generics, returns) = if density { ("", "Densities") } else { ("<I: Integrals + ?Sized>", "f64") };
+    let one_line = format!("pub fn {name}{generics}({}) -> {returns} {{", parameters.join(", "));
     if one_line.len() <= 100 {
         return one_line + "\n";
     }
-    let mut out = format!("pub fn {name}<I: Integrals + ?Sized>(\n");
+    let mut out = format!("pub fn {name}{generics}(\n");
     for p in parameters {
         out.push_str(&format!("    {p},\n"));
     }
-    out + ") -> f64 {\n"
+    out + ") -> " + returns + " {\n"
 }
 
 /// A call `f(a, b, ...)` at `indent`, vertical when rustfmt would make it so.
@@ -156,10 +179,46 @@ fn integral(factor: &Factor, sig: &Signature, summed: &[String]) -> String {
         Factor::Eri(p, q, r, s) => format!("ints.eri({}, {}, {}, {})", o(p), o(q), o(r), o(s)),
         Factor::Fock(p, q, c) => format!("fock(ints, {}, {}, {})", o(p), o(q), closed_argument(sig, c)),
         Factor::RefEnergy(c) => format!("reference_energy(ints, {})", closed_argument(sig, c)),
+        Factor::Gamma1(..) | Factor::Gamma2(..) => {
+            unreachable!("density elements are written by `density_statement`, not read as numbers")
+        }
     }
 }
 
-fn group_code(group: &Group, namer: &Namer, sig: &Signature, out: &mut String) {
+/// The statement of one term of an expression: `value += c * integral;`.
+fn value_statement(term: &Term, sig: &Signature, summed: &[String]) -> String {
+    let op = if term.coeff.is_negative() { "-=" } else { "+=" };
+    let body = integral(&term.factor, sig, summed);
+    let value = if term.coeff.abs() == Exact::one() {
+        body
+    } else if body == "1.0" {
+        literal(&term.coeff)
+    } else {
+        format!("{} * {body}", literal(&term.coeff))
+    };
+    format!("value {op} {value};")
+}
+
+/// The statement of one term of a density: its coefficient added to its element.
+fn density_statement(term: &Term, sig: &Signature, summed: &[String]) -> String {
+    let o = |x: Orb| match x {
+        Orb::Summed(d) => summed[d as usize].clone(),
+        other => sig.orbital(other).to_string(),
+    };
+    let sign = if term.coeff.is_negative() { "-" } else { "" };
+    let value = format!("{sign}{}", literal(&term.coeff));
+    match term.factor {
+        Factor::Gamma1(p, q) => format!("density.add_one({}, {}, {value});", o(p), o(q)),
+        Factor::Gamma2(p, q, r, s) => {
+            format!("density.add_two({}, {}, {}, {}, {value});", o(p), o(q), o(r), o(s))
+        }
+        other => unreachable!("a density holds only density elements, not {other:?}"),
+    }
+}
+
+type Statement = fn(&Term, &Signature, &[String]) -> String;
+
+fn group_code(group: &Group, namer: &Namer, sig: &Signature, statement: Statement, out: &mut String) {
     let mut local = Identifiers::new(KEYWORDS, RESERVED);
     for n in sig.orbitals.iter().map(|(_, n)| n).chain(sig.spaces.iter().map(|(_, n)| n)) {
         local.fresh(n);
@@ -178,16 +237,7 @@ fn group_code(group: &Group, namer: &Namer, sig: &Signature, out: &mut String) {
         depth += 1;
     }
     for term in &group.terms {
-        let op = if term.coeff.is_negative() { "-=" } else { "+=" };
-        let body = integral(&term.factor, sig, &summed);
-        let value = if term.coeff.abs() == Exact::one() {
-            body
-        } else if body == "1.0" {
-            literal(&term.coeff)
-        } else {
-            format!("{} * {body}", literal(&term.coeff))
-        };
-        writeln!(out, "{}value {op} {value};", pad(depth)).ok();
+        writeln!(out, "{}{}", pad(depth), statement(term, sig, &summed)).ok();
     }
     while depth > 1 {
         depth -= 1;
@@ -215,6 +265,242 @@ pub fn fock<I: Integrals + ?Sized>(ints: &I, p: usize, q: usize, closed: &[&[usi
     }
     value
 }
+"#;
+
+/// What a module with density requests holds: the densities' type and the generalized Fock
+/// matrix with the orbital gradient.
+const DENSITIES: &str = r#"
+/// Spin-summed density matrices over `n` orbitals, row-major: the one-particle density
+/// g_pq = sum_s <a+_ps a_qs> at `one[p * n + q]` and the two-particle density
+/// G_pqrs = sum_st <a+_ps a+_rt a_st a_qs> at `two[((p * n + q) * n + r) * n + s]`, so that
+/// E = sum_pq g_pq h_pq + 1/2 sum_pqrs G_pqrs (pq|rs).
+#[derive(Clone, Debug, PartialEq)]
+pub struct Densities {
+    pub n: usize,
+    pub one: Vec<f64>,
+    pub two: Vec<f64>,
+}
+
+impl Densities {
+    /// Zero densities over `n` orbitals.
+    pub fn zeros(n: usize) -> Densities {
+        Densities {
+            n,
+            one: vec![0.0; n * n],
+            two: vec![0.0; n * n * n * n],
+        }
+    }
+
+    /// g_pq.
+    pub fn one_at(&self, p: usize, q: usize) -> f64 {
+        self.one[p * self.n + q]
+    }
+
+    /// G_pqrs.
+    pub fn two_at(&self, p: usize, q: usize, r: usize, s: usize) -> f64 {
+        self.two[((p * self.n + q) * self.n + r) * self.n + s]
+    }
+
+    /// Adds `value` to g_pq.
+    pub fn add_one(&mut self, p: usize, q: usize, value: f64) {
+        self.one[p * self.n + q] += value;
+    }
+
+    /// Adds `value` to G_pqrs.
+    pub fn add_two(&mut self, p: usize, q: usize, r: usize, s: usize, value: f64) {
+        self.two[((p * self.n + q) * self.n + r) * self.n + s] += value;
+    }
+
+    /// sum_pq g_pq h_pq + 1/2 sum_pqrs G_pqrs (pq|rs): the energy the densities give (for
+    /// transition densities <S|H|T>), electronic part, with integrals over the same orbitals.
+    pub fn energy<I: Integrals + ?Sized>(&self, ints: &I) -> f64 {
+        let n = self.n;
+        let mut value = 0.0;
+        for p in 0..n {
+            for q in 0..n {
+                value += self.one_at(p, q) * ints.h(p, q);
+                for r in 0..n {
+                    for s in 0..n {
+                        let g = self.two_at(p, q, r, s);
+                        if g != 0.0 {
+                            value += 0.5 * g * ints.eri(p, q, r, s);
+                        }
+                    }
+                }
+            }
+        }
+        value
+    }
+
+    /// F_pq = sum_r g_pr h_qr + sum_rst G_prst (qr|st), row-major; with `transposed`, of the
+    /// densities g_qp and G_qpsr instead.
+    fn fock<I: Integrals + ?Sized>(&self, ints: &I, transposed: bool) -> Vec<f64> {
+        let n = self.n;
+        let mut fock = vec![0.0; n * n];
+        for p in 0..n {
+            for r in 0..n {
+                let g = if transposed {
+                    self.one_at(r, p)
+                } else {
+                    self.one_at(p, r)
+                };
+                if g != 0.0 {
+                    for q in 0..n {
+                        fock[p * n + q] += g * ints.h(q, r);
+                    }
+                }
+                for s in 0..n {
+                    for t in 0..n {
+                        let g = if transposed {
+                            self.two_at(r, p, t, s)
+                        } else {
+                            self.two_at(p, r, s, t)
+                        };
+                        if g != 0.0 {
+                            for q in 0..n {
+                                fock[p * n + q] += g * ints.eri(q, r, s, t);
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        fock
+    }
+}
+
+/// The generalized Fock matrix F_pq = sum_r g_pr h_qr + sum_rst G_prst (qr|st) and the orbital
+/// gradient dE/dkappa_pq of E = sum g_pq h_pq + 1/2 sum G_pqrs (pq|rs), both n x n row-major,
+/// for the rotation phi'_p = sum_q phi_q U_qp with U = exp(kappa), kappa antisymmetric:
+/// dE/dkappa_pq = 2 (F_qp - F_pq) for the densities of one state (which are symmetric). For
+/// transition densities it is F_qp + F'_qp - F_pq - F'_pq, F' from g_qp and G_qpsr: the
+/// derivative of <S|H|T> with the orbitals of both states rotated. The integrals are over the
+/// densities' n orbitals.
+pub fn generalized_fock_and_gradient<I: Integrals + ?Sized>(
+    ints: &I,
+    densities: &Densities,
+) -> (Vec<f64>, Vec<f64>) {
+    let n = densities.n;
+    let fock = densities.fock(ints, false);
+    let transposed = densities.fock(ints, true);
+    let mut gradient = vec![0.0; n * n];
+    for p in 0..n {
+        for q in 0..n {
+            gradient[p * n + q] =
+                fock[q * n + p] + transposed[q * n + p] - fock[p * n + q] - transposed[p * n + q];
+        }
+    }
+    (fock, gradient)
+}
+"#;
+
+/// The test helpers of density functions: test integrals as arrays that can be rotated, the
+/// comparison of densities, and the gradient against central finite differences.
+const DENSITY_TESTS: &str = r#"
+    /// The test integrals over n orbitals as arrays, to rotate.
+    struct Table {
+        n: usize,
+        h: Vec<f64>,
+        eri: Vec<f64>,
+    }
+
+    impl Integrals for Table {
+        fn h(&self, p: usize, q: usize) -> f64 {
+            self.h[p * self.n + q]
+        }
+        fn eri(&self, p: usize, q: usize, r: usize, s: usize) -> f64 {
+            self.eri[((p * self.n + q) * self.n + r) * self.n + s]
+        }
+    }
+
+    impl Table {
+        fn hashed(n: usize) -> Table {
+            let h = (0..n * n).map(|k| Hashed.h(k / n, k % n)).collect();
+            let eri = (0..n * n * n * n)
+                .map(|k| Hashed.eri(k / (n * n * n), k / (n * n) % n, k / n % n, k % n))
+                .collect();
+            Table { n, h, eri }
+        }
+
+        /// The integrals of the orbitals phi'_p = sum_q phi_q U_qp with U = exp(kappa), kappa_pq
+        /// = t and kappa_qp = -t (a rotation by t in the (p, q) plane), index by index.
+        fn rotated(&self, p: usize, q: usize, t: f64) -> Table {
+            let n = self.n;
+            let mut u: Vec<f64> = (0..n * n)
+                .map(|k| if k / n == k % n { 1.0 } else { 0.0 })
+                .collect();
+            u[p * n + p] = t.cos();
+            u[q * n + q] = t.cos();
+            u[p * n + q] = t.sin();
+            u[q * n + p] = -t.sin();
+            let transform = |x: &[f64], rank: u32| {
+                let mut x = x.to_vec();
+                for axis in 0..rank {
+                    let stride = n.pow(rank - 1 - axis);
+                    let y: Vec<f64> = (0..x.len())
+                        .map(|k| {
+                            let (a, base) = (k / stride % n, k - k / stride % n * stride);
+                            (0..n).map(|b| u[b * n + a] * x[base + b * stride]).sum()
+                        })
+                        .collect();
+                    x = y;
+                }
+                x
+            };
+            Table {
+                n,
+                h: transform(&self.h, 2),
+                eri: transform(&self.eri, 4),
+            }
+        }
+    }
+
+    /// Densities equal to the listed nonzero elements, every other element zero.
+    fn check_densities(
+        d: &Densities,
+        one: &[(usize, usize, f64)],
+        two: &[(usize, usize, usize, usize, f64)],
+    ) {
+        let mut expected = Densities::zeros(d.n);
+        for &(p, q, value) in one {
+            expected.add_one(p, q, value);
+        }
+        for &(p, q, r, s, value) in two {
+            expected.add_two(p, q, r, s, value);
+        }
+        for (k, (&got, &want)) in d.one.iter().zip(&expected.one).enumerate() {
+            assert!(
+                close(got, want),
+                "one-particle element {k}: {got} vs {want}"
+            );
+        }
+        for (k, (&got, &want)) in d.two.iter().zip(&expected.two).enumerate() {
+            assert!(
+                close(got, want),
+                "two-particle element {k}: {got} vs {want}"
+            );
+        }
+    }
+
+    /// The gradient of generalized_fock_and_gradient equals central differences of the energy of
+    /// the densities under rotations by +-1e-4 in every plane (p, q), within 1e-6 relative.
+    fn check_gradient(d: &Densities) {
+        let table = Table::hashed(d.n);
+        let (_, gradient) = generalized_fock_and_gradient(&table, d);
+        let step = 1e-4;
+        for p in 0..d.n {
+            for q in 0..p {
+                let plus = d.energy(&table.rotated(p, q, step));
+                let minus = d.energy(&table.rotated(p, q, -step));
+                let difference = (plus - minus) / (2.0 * step);
+                let g = gradient[p * d.n + q];
+                assert!(
+                    (g - difference).abs() <= 1e-6 * g.abs().max(1.0),
+                    "dE/dkappa_{p}{q}: {g} vs {difference}"
+                );
+            }
+        }
+    }
 "#;
 
 const REFERENCE: &str = r#"
@@ -302,10 +588,16 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
     if uses(IntegralKind::RefEnergy) {
         out.push_str(REFERENCE);
     }
+    if derivations.iter().any(|(d, _)| d.density_symmetry().is_some()) {
+        out.push_str(DENSITIES);
+    }
     let mut names = Identifiers::new(KEYWORDS, RESERVED);
-    let mut tests = String::new();
+    let mut tests = Tests::default();
     for (n, (request, (d, _))) in program.requests.iter().zip(derivations).enumerate() {
-        let operands: Vec<&str> = if matches!(d.kind, RequestKind::Energy | RequestKind::Spin) {
+        let operands: Vec<&str> = if matches!(
+            d.kind,
+            RequestKind::Energy | RequestKind::Spin | RequestKind::Density | RequestKind::Shells
+        ) {
             vec![&d.bra]
         } else {
             vec![&d.bra, &d.ket]
@@ -347,22 +639,34 @@ pub fn render(program: &Program, derivations: &[Checked]) -> Result<String> {
         }
     }
     out.push_str(TEST_PREAMBLE.replace("SEED", &format!("0x{TEST_SEED:x}")).as_str());
-    out.push_str(&tests);
+    if tests.densities {
+        out.push_str(DENSITY_TESTS);
+    }
+    out.push_str(&tests.code);
     out.push_str("}\n");
     Ok(out)
 }
 
-/// One function for one derivation (its value), with its tests; returns its signature.
+/// The tests of a module, and whether any checks densities (and needs their helpers).
+#[derive(Default)]
+struct Tests {
+    code: String,
+    densities: bool,
+}
+
+/// One function for one derivation, with its tests; returns its signature. The function
+/// computes the value, or for a density request fills the densities over `n_orbitals` orbitals.
 fn function(
     program: &Program,
     request: &Request,
     d: &Derivation,
     name: String,
     out: &mut String,
-    tests: &mut String,
+    tests: &mut Tests,
 ) -> Result<Signature> {
     let sig = Signature::new(program, &[&d.value], name, &mut Identifiers::new(KEYWORDS, RESERVED));
     let namer = Namer::new(program, &[&d.value]);
+    let density = d.density_symmetry().is_some();
     out.push('\n');
     writeln!(out, "/// `{}`: {}.", d.text.replace('`', "'"), meaning(d.kind)).ok();
     out.push_str("///\n/// ```text\n");
@@ -371,28 +675,91 @@ fn function(
         writeln!(out, "/// {}", line.trim_end()).ok();
     }
     out.push_str("/// ```\n");
-    let uses_integrals = d.value.terms.iter().any(|t| t.factor != Factor::One);
-    let parameters = sig.parameters(uses_integrals);
+    let parameters = if density {
+        let mut p = vec!["n_orbitals: usize".to_string()];
+        p.extend(sig.parameters(false).into_iter().skip(1));
+        p
+    } else {
+        sig.parameters(d.value.terms.iter().any(|t| t.factor != Factor::One))
+    };
     if parameters.len() > 7 {
         out.push_str("#[allow(clippy::too_many_arguments)]\n");
     }
-    out.push_str(&header(&sig.name, &parameters));
-    if d.value.is_zero() {
-        out.push_str("    0.0\n}\n");
+    out.push_str(&header(&sig.name, &parameters, density));
+    let (zero, local, statement): (&str, &str, Statement) = if density {
+        ("Densities::zeros(n_orbitals)", "density", density_statement)
     } else {
-        out.push_str("    let mut value = 0.0;\n");
+        ("0.0", "value", value_statement)
+    };
+    if d.value.is_zero() {
+        writeln!(out, "    {zero}\n}}").ok();
+    } else {
+        writeln!(out, "    let mut {local} = {zero};").ok();
         for group in groups(&d.value) {
-            group_code(&group, &namer, &sig, out);
+            group_code(&group, &namer, &sig, statement, out);
         }
-        out.push_str("    value\n}\n");
+        writeln!(out, "    {local}\n}}").ok();
     }
-    for (k, v) in test_vectors(program, request, d)?.iter().enumerate() {
-        test(tests, &sig.name, k + 1, v.source, &sig.test_arguments(&v.binding), v.expected);
+    if density {
+        for (k, v) in super::density_test_vectors(program, request, d).iter().enumerate() {
+            density_test(tests, &sig, k + 1, v);
+        }
+    } else {
+        for (k, v) in test_vectors(program, request, d)?.iter().enumerate() {
+            test(tests, &sig.name, k + 1, v.source, &sig.test_arguments(&v.binding), v.expected);
+        }
     }
     Ok(sig)
 }
 
-fn test(tests: &mut String, name: &str, number: usize, source: &str, arguments: &[String], expected: f64) {
+/// A test of a density function: its densities against the listed non-zero elements, the energy
+/// they give at the test integrals, and the orbital gradient against finite differences.
+fn density_test(tests: &mut Tests, sig: &Signature, number: usize, v: &DensityTestVector) {
+    tests.densities = true;
+    let mut arguments = sig.test_arguments(&v.vector.binding);
+    arguments[0] = v.vector.orbitals.to_string();
+    let out = &mut tests.code;
+    write!(out, "\n    #[test]\n    fn check_{}_{number}() {{\n", sig.name).ok();
+    writeln!(out, "        // expected densities and energy: {}", v.vector.source).ok();
+    writeln!(out, "        let d = {};", call(&sig.name, &arguments, 8)).ok();
+    let n = v.densities.n;
+    let list = |values: &[f64]| -> Vec<String> {
+        DensityTestVector::nonzero(values, n)
+            .into_iter()
+            .map(|(orbitals, x)| {
+                let orbitals: Vec<String> = orbitals.iter().map(|o| o.to_string()).collect();
+                format!("({}, {})", orbitals.join(", "), float(x))
+            })
+            .collect()
+    };
+    let arrays = [list(&v.densities.one), list(&v.densities.two)];
+    let one_line = format!("check_densities(&d, &[{}], &[{}]);", arrays[0].join(", "), arrays[1].join(", "));
+    if one_line.len() - "check_densities();".len() <= 60 {
+        writeln!(out, "        {one_line}").ok();
+    } else {
+        writeln!(out, "        check_densities(\n            &d,").ok();
+        for items in &arrays {
+            let inline = format!("&[{}],", items.join(", "));
+            if inline.len() <= 62 {
+                writeln!(out, "            {inline}").ok();
+            } else {
+                writeln!(out, "            &[").ok();
+                for item in items {
+                    writeln!(out, "                {item},").ok();
+                }
+                writeln!(out, "            ],").ok();
+            }
+        }
+        writeln!(out, "        );").ok();
+    }
+    writeln!(out, "        let energy = d.energy(&Hashed);").ok();
+    writeln!(out, "        assert!(close(energy, {}), \"{{energy}}\");", float(v.vector.expected)).ok();
+    writeln!(out, "        check_gradient(&d);").ok();
+    out.push_str("    }\n");
+}
+
+fn test(tests: &mut Tests, name: &str, number: usize, source: &str, arguments: &[String], expected: f64) {
+    let tests = &mut tests.code;
     write!(tests, "\n    #[test]\n    fn check_{name}_{number}() {{\n").ok();
     writeln!(tests, "        // expected value: {source}").ok();
     writeln!(tests, "        let derived = {};", call(name, arguments, 8)).ok();
@@ -412,7 +779,7 @@ fn assembled(
     callees: &[(Option<Signature>, Signature)],
     name: String,
     out: &mut String,
-    tests: &mut String,
+    tests: &mut Tests,
 ) -> Result<()> {
     let used = block.block.coefficients();
     let mut local = Identifiers::new(KEYWORDS, RESERVED);
@@ -444,7 +811,7 @@ fn assembled(
     if parameters.len() > 7 {
         out.push_str("#[allow(clippy::too_many_arguments)]\n");
     }
-    out.push_str(&header(&sig.name, &parameters));
+    out.push_str(&header(&sig.name, &parameters, false));
     let mut sums = [String::new(), String::new()];
     for ((pair, (h, s)), k) in block.block.pairs.iter().zip(callees).zip(1..) {
         let product: Vec<String> =
@@ -495,5 +862,14 @@ fn meaning(kind: RequestKind) -> &'static str {
         }
         RequestKind::Overlap => "the overlap <X|Y>",
         RequestKind::Spin => "the expectation value <S^2>",
+        RequestKind::Density => {
+            "the densities <X| ... |X>/<X|X> over `n_orbitals` orbitals (see `Densities`)"
+        }
+        RequestKind::TransitionDensity => {
+            "the transition densities <X| ... |Y> over `n_orbitals` orbitals (see `Densities`)"
+        }
+        RequestKind::Shells => {
+            "the energy <X|H|X>/<X|X> in open shells, electronic part (add the constant energy)"
+        }
     }
 }

@@ -7,9 +7,11 @@ use super::{
 };
 use crate::check::verify::Report;
 use crate::engine::block_derivation::BlockDerivation;
+use crate::engine::density::{Symmetry, representatives};
 use crate::engine::derive::Derivation;
 use crate::engine::exact::{Exact, ExactDisplay};
-use crate::engine::expression::{Expr, Factor, IntegralKind};
+use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
+use crate::engine::shells::{Shell, ShellForm};
 use crate::language::block::renaming_text;
 use crate::language::program::{Program, RequestKind};
 
@@ -41,9 +43,11 @@ fn subscript(names: &[String]) -> String {
     }
 }
 
-fn factor_text(factor: &Factor, namer: &Namer, summed: &[String]) -> String {
+fn factor_text(factor: &Factor, namer: &Namer, summed: &[String], style: &Style) -> String {
     let (kind, n) = integral_parts(factor, namer, summed);
     match kind {
+        IntegralKind::OneDensity => format!("{}_{}", if style.ascii { "g" } else { "γ" }, subscript(&n)),
+        IntegralKind::TwoDensity => format!("{}_{}", if style.ascii { "G" } else { "Γ" }, subscript(&n)),
         IntegralKind::Number => "1".into(),
         IntegralKind::RefEnergy => "E_ref".into(),
         IntegralKind::Fock => format!("f_{}", subscript(&n)),
@@ -133,7 +137,7 @@ fn group_text(group: &Group, namer: &Namer, style: &Style) -> (bool, String) {
         }
         prefix.push_str(&format!("{}_{{{}}} ", style.sigma(), bounds.join(",")));
     }
-    let body = |t: &crate::engine::expression::Term| factor_text(&t.factor, namer, &summed);
+    let body = |t: &Term| factor_text(&t.factor, namer, &summed, style);
     if group.terms.len() == 1 {
         let t = group.terms[0];
         let inner = body(t);
@@ -200,6 +204,9 @@ pub fn request_meaning(d: &Derivation) -> String {
         RequestKind::Element => format!("<{bra}|H|{ket}>"),
         RequestKind::Overlap => format!("<{bra}|{ket}>"),
         RequestKind::Spin => format!("<S^2> and <S_z> of {bra}"),
+        RequestKind::Density => format!("the densities <{bra}| ... |{bra}> / <{bra}|{bra}>"),
+        RequestKind::TransitionDensity => format!("the transition densities <{bra}| ... |{ket}>"),
+        RequestKind::Shells => format!("<{bra}|H|{bra}> / <{bra}|{bra}> in open shells"),
         RequestKind::Roots => {
             return format!("the elements of H and the overlaps among the members of {}", d.bra);
         }
@@ -211,6 +218,101 @@ pub fn request_meaning(d: &Derivation) -> String {
         out.push_str(&format!(", {ket} = {}", d.ket));
     }
     out
+}
+
+/// One term of an expression as text, e.g. `2 Σ_{k∈core} h_kk` (for messages).
+pub fn term_text(program: &Program, term: &Term) -> String {
+    let expr = Expr { terms: vec![term.clone()] };
+    let namer = Namer::new(program, &[&expr]);
+    expression_lines(&expr, &namer, &Style { ascii: false }).join(" ").trim_start_matches("= ").to_string()
+}
+
+/// `for k,l ∈ core: ` and `if i = j: ` in front of a density element.
+fn condition(term: &Term, namer: &Namer, summed: &[String], style: &Style) -> String {
+    let o = |x| namer.orb(x, summed);
+    let mut out = String::new();
+    if !term.deltas.is_empty() {
+        let equal: Vec<String> = term.deltas.iter().map(|&(a, b)| format!("{} = {}", o(a), o(b))).collect();
+        out.push_str(&format!("if {}: ", equal.join(", ")));
+    }
+    if !term.sums.is_empty() {
+        let mut bounds = vec![];
+        let mut k = 0;
+        while k < term.sums.len() {
+            let mut names = vec![summed[k].clone()];
+            while k + 1 < term.sums.len() && term.sums[k + 1] == term.sums[k] {
+                k += 1;
+                names.push(summed[k].clone());
+            }
+            bounds.push(format!("{}{}{}", names.join(","), style.member(), namer.space(term.sums[k])));
+            k += 1;
+        }
+        out.push_str(&format!("for {}: ", bounds.join(", ")));
+    }
+    out
+}
+
+/// A density as a listing: its symmetry, then one line per listed term, `element += value`.
+fn density_lines(d: &Derivation, symmetry: Symmetry, namer: &Namer, style: &Style) -> String {
+    let listed = representatives(&d.value, symmetry);
+    let stated = if style.ascii { symmetry.ascii() } else { symmetry.text() };
+    let mut out = format!("  symmetry {stated}: one element of each related set is listed\n");
+    if listed.is_zero() {
+        out.push_str("  every element is zero\n");
+    }
+    for t in &listed.terms {
+        let summed = namer.summed_names(&t.sums);
+        let value = ExactDisplay { value: &t.coeff, ascii: style.ascii }.to_string();
+        let value = if style.ascii { value } else { value.replacen('-', style.minus(), 1) };
+        out.push_str(&format!(
+            "  {}{} += {value}\n",
+            condition(t, namer, &summed, style),
+            factor_text(&t.factor, namer, &summed, style)
+        ));
+    }
+    out.push_str("  each line adds its value to the element for every value of its summation indices; elements no line reaches are zero\n");
+    out
+}
+
+/// The tables of an open-shell form: the shells, f per shell, a and b per ordered pair.
+fn shell_lines(form: &ShellForm, namer: &Namer, style: &Style) -> String {
+    let names: Vec<String> = form.shells.iter().map(|&s| shell_name(s, namer)).collect();
+    let number = |c: &Exact| {
+        let v = ExactDisplay { value: c, ascii: style.ascii }.to_string();
+        if style.ascii { v } else { v.replacen('-', style.minus(), 1) }
+    };
+    let (sum, member) = (style.sigma(), style.member());
+    let mut out = format!(
+        "  in open shells: E = {sum}_s f_s h_ss + {sum}_{{s,t}} (a_st J_st + b_st K_st), over ordered pairs of shells\n"
+    );
+    if form.shells.iter().any(|s| matches!(s, Shell::Space(_))) {
+        out.push_str(&format!(
+            "  a closed space S is one shell: h_SS = {sum}_{{k{member}S}} h_kk, J_St = {sum}_{{k{member}S}} J_kt, J_SS = {sum}_{{k,l{member}S}} J_kl (K alike)\n"
+        ));
+    }
+    let cells: Vec<String> =
+        form.f.iter().chain(form.a.iter().chain(&form.b).flatten()).map(number).collect();
+    let width = names.iter().chain(&cells).map(|n| n.chars().count()).max().unwrap_or(1) + 2;
+    let label = names.iter().map(|n| n.chars().count()).max().unwrap_or(1).max(5);
+    let row = |head: &str, name: &str, values: &mut dyn Iterator<Item = String>| {
+        format!("  {head:<5} {name:<label$}{}\n", values.map(|v| format!("{v:>width$}")).collect::<String>())
+    };
+    out.push_str(&row("", "", &mut names.iter().cloned()));
+    out.push_str(&row("f_s", "", &mut form.f.iter().map(number)));
+    for (head, table) in [("a_st", &form.a), ("b_st", &form.b)] {
+        for (k, (values, name)) in table.iter().zip(&names).enumerate() {
+            out.push_str(&row(if k == 0 { head } else { "" }, name, &mut values.iter().map(number)));
+        }
+    }
+    out
+}
+
+/// A shell as written: an orbital's name, or a closed space's.
+pub fn shell_name(shell: Shell, namer: &Namer) -> String {
+    match shell {
+        Shell::Orbital(o) => namer.orb(o, &[]),
+        Shell::Space(s) => namer.space(s).to_string(),
+    }
 }
 
 /// The text report of every derivation, in request order.
@@ -226,6 +328,13 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], a
         out.push_str(&format!("{}    {}\n", d.text, request_meaning(d)));
         if let Some(block) = &d.block {
             out.push_str(&block_lines(program, d, block, &style));
+        } else if let Some(symmetry) = d.density_symmetry() {
+            out.push_str(&density_lines(d, symmetry, &namer, &style));
+        } else if let Some(form) = &d.shells {
+            for line in expression_lines(&d.value, &namer, &style) {
+                out.push_str(&format!("  {line}\n"));
+            }
+            out.push_str(&shell_lines(form, &namer, &style));
         } else if d.kind == RequestKind::Spin {
             for (label, expr) in [("<S^2>", &d.value), ("<S_z>", &d.s_z)] {
                 for (k, line) in expression_lines(expr, &namer, &style).iter().enumerate() {

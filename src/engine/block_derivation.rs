@@ -113,5 +113,6 @@ pub fn derive_block(
         closed,
         distinct: pair_options.distinct,
         block: Some(Arc::new(BlockDerivation { block: block.clone(), pairs })),
+        shells: None,
     })
 }

@@ -3,10 +3,12 @@
 
 use crate::engine::block_derivation::BlockDerivation;
 use crate::engine::coincidence::{self, Case};
+use crate::engine::density::{Operator, Symmetry};
 use crate::engine::determinant::{CaseDet, Vanishing};
 use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, RestrictedSum};
 use crate::engine::fock::fock_form;
+use crate::engine::shells::{ShellForm, shell_form};
 use crate::engine::slater_condon::{self, BitState, Universe};
 use crate::engine::spin_operator::{SpinValues, spin_values};
 use crate::error::{Error, ErrorKind, Result};
@@ -85,6 +87,8 @@ pub struct Derivation {
     /// For a request on pairs of functions (free coefficients, `roots`): every pair derived;
     /// `value`, `overlap` and `s_z` are then empty, and the pairs hold the result.
     pub block: Option<Arc<BlockDerivation>>,
+    /// For `shells`: the energy (in `value`) in the open-shell form.
+    pub shells: Option<Arc<ShellForm>>,
 }
 
 impl Derivation {
@@ -92,7 +96,17 @@ impl Derivation {
     /// for energies and elements of H; nothing for an overlap or a spin expectation value,
     /// which are pure numbers.
     pub fn constant_factor(&self) -> Option<&Expr> {
-        matches!(self.kind, RequestKind::Energy | RequestKind::Element).then_some(&self.overlap)
+        matches!(self.kind, RequestKind::Energy | RequestKind::Element | RequestKind::Shells)
+            .then_some(&self.overlap)
+    }
+
+    /// For `density` requests: the symmetry the density has (see `density.rs`).
+    pub fn density_symmetry(&self) -> Option<Symmetry> {
+        match self.kind {
+            RequestKind::Density => Some(Symmetry::Expectation),
+            RequestKind::TransitionDensity => Some(Symmetry::Transition),
+            _ => None,
+        }
     }
 }
 
@@ -356,21 +370,38 @@ fn case_channels(
     Ok(match request.kind {
         RequestKind::Overlap => [Some(s.clone()), Some(s), None],
         // a `roots` request reaches here only through its pairs, which are elements
-        RequestKind::Element | RequestKind::Roots => {
-            [Some(slater_condon::hamiltonian(&bra_bits, ket_bits, &universe, &closed)), Some(s), None]
-        }
-        RequestKind::Energy => match slater_condon::overlap(&bra_bits, &bra_bits).inverse() {
-            Some(inverse) => [
-                Some(slater_condon::hamiltonian(&bra_bits, &bra_bits, &universe, &closed).scaled(&inverse)),
+        RequestKind::Element | RequestKind::Roots | RequestKind::TransitionDensity => {
+            let operator = operator(request.kind);
+            [
+                Some(slater_condon::hamiltonian(&bra_bits, ket_bits, &universe, &closed, operator)),
                 Some(s),
                 None,
-            ],
-            None if finest => return Err(zero_norm()),
-            None => {
-                vanishes();
-                [None, Some(s), None]
+            ]
+        }
+        // a `shells` request is derived as the energy it reads
+        RequestKind::Energy | RequestKind::Density | RequestKind::Shells => {
+            match slater_condon::overlap(&bra_bits, &bra_bits).inverse() {
+                Some(inverse) => [
+                    Some(
+                        slater_condon::hamiltonian(
+                            &bra_bits,
+                            &bra_bits,
+                            &universe,
+                            &closed,
+                            operator(request.kind),
+                        )
+                        .scaled(&inverse),
+                    ),
+                    Some(s),
+                    None,
+                ],
+                None if finest => return Err(zero_norm()),
+                None => {
+                    vanishes();
+                    [None, Some(s), None]
+                }
             }
-        },
+        }
         RequestKind::Spin => match spin_values(bra) {
             Some(v) => {
                 notes.extend(spin_warning(program, request, case, finest, &v));
@@ -383,6 +414,31 @@ fn case_channels(
             }
         },
     })
+}
+
+/// What a request's value is made of: densities for `density`, H for the others.
+fn operator(kind: RequestKind) -> Operator {
+    match kind {
+        RequestKind::Density | RequestKind::TransitionDensity => Operator::Densities,
+        _ => Operator::Hamiltonian,
+    }
+}
+
+/// A `shells` request: the energy, derived as `energy` would be, read in the open-shell form.
+fn derive_shells(program: &Program, request: &Request, options: &Options) -> Result<Derivation> {
+    let energy = Request { kind: RequestKind::Energy, ..request.clone() };
+    let mut d = derive(program, &energy, &Options { fock: false, ..options.clone() })?;
+    let form = shell_form(&d.value).map_err(|outside| {
+        let term = crate::emit::text::term_text(program, &outside.term);
+        Error::at(
+            ErrorKind::OutsideShellForm { request: request.text.clone(), term, why: outside.why.into() },
+            &request.span,
+        )
+    })?;
+    d.kind = RequestKind::Shells;
+    d.text = request.text.clone();
+    d.shells = Some(Arc::new(form));
+    Ok(d)
 }
 
 /// Möbius inversion over the coincidence lattice: each case keeps only what it adds to the
@@ -421,6 +477,9 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
     if let Some(block) = &request.block {
         return crate::engine::block_derivation::derive_block(program, request, block, options);
     }
+    if request.kind == RequestKind::Shells {
+        return derive_shells(program, request, options);
+    }
     if let Some(coupling) = wants_spin_algebra(request, options) {
         return by_spin_algebra(program, request, coupling, options);
     }
@@ -449,12 +508,12 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         mobius.add(case, channels);
     }
     let [mut value, mut overlap_expr, s_z] = mobius.assemble();
-    if options.fock {
+    if options.fock && operator(request.kind) == Operator::Hamiltonian {
         value = fock_form(&value, closed_set);
     }
     // the factor of the constant energy: 1 for an energy, none for a spin expectation value
     match request.kind {
-        RequestKind::Energy => overlap_expr = Expr::constant(Exact::one()),
+        RequestKind::Energy | RequestKind::Density => overlap_expr = Expr::constant(Exact::one()),
         RequestKind::Spin => overlap_expr = Expr::zero(),
         _ => {}
     }
@@ -472,5 +531,6 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
         closed: closed_set,
         distinct: options.distinct,
         block: None,
+        shells: None,
     })
 }

@@ -18,6 +18,11 @@ pub enum Factor {
     Fock(Orb, Orb, SpaceSet),
     /// The energy of the closed spaces alone: Σ_k 2 h_kk + Σ_kl (2 J_kl − K_kl).
     RefEnergy(SpaceSet),
+    /// The density element γ_pq = Σ_σ <a+_pσ a_qσ> (engine/density.rs); its orientation is
+    /// kept: a term of a density adds its coefficient to this element.
+    Gamma1(Orb, Orb),
+    /// The density element Γ_pqrs = Σ_στ <a+_pσ a+_rτ a_sτ a_qσ>, orientation kept.
+    Gamma2(Orb, Orb, Orb, Orb),
 }
 
 /// How a canonical integral reads: J_pq = (pp|qq), K_pq = (pq|qp), or neither.
@@ -30,6 +35,10 @@ pub enum IntegralKind {
     Coulomb,
     Exchange,
     General,
+    /// An element of the one-particle density.
+    OneDensity,
+    /// An element of the two-particle density.
+    TwoDensity,
 }
 
 impl IntegralKind {
@@ -38,7 +47,11 @@ impl IntegralKind {
     pub fn is_one_electron_like(self) -> bool {
         matches!(
             self,
-            IntegralKind::Number | IntegralKind::RefEnergy | IntegralKind::Fock | IntegralKind::OneElectron
+            IntegralKind::Number
+                | IntegralKind::RefEnergy
+                | IntegralKind::Fock
+                | IntegralKind::OneElectron
+                | IntegralKind::OneDensity
         )
     }
 }
@@ -51,23 +64,26 @@ impl Factor {
             Factor::Eri(p, q, r, s) => Factor::Eri(f(p), f(q), f(r), f(s)),
             Factor::Fock(p, q, c) => Factor::Fock(f(p), f(q), c),
             Factor::RefEnergy(c) => Factor::RefEnergy(c),
+            Factor::Gamma1(p, q) => Factor::Gamma1(f(p), f(q)),
+            Factor::Gamma2(p, q, r, s) => Factor::Gamma2(f(p), f(q), f(r), f(s)),
         }
     }
 
     pub fn orbs(&self) -> Vec<Orb> {
         match *self {
             Factor::One | Factor::RefEnergy(_) => vec![],
-            Factor::H(p, q) | Factor::Fock(p, q, _) => vec![p, q],
-            Factor::Eri(p, q, r, s) => vec![p, q, r, s],
+            Factor::H(p, q) | Factor::Fock(p, q, _) | Factor::Gamma1(p, q) => vec![p, q],
+            Factor::Eri(p, q, r, s) | Factor::Gamma2(p, q, r, s) => vec![p, q, r, s],
         }
     }
 
     /// The representative under the symmetries of real orbitals: h_pq = h_qp and the
-    /// 8-fold (pq|rs) = (qp|rs) = (pq|sr) = (rs|pq).
+    /// 8-fold (pq|rs) = (qp|rs) = (pq|sr) = (rs|pq). Density elements keep their orientation:
+    /// each is a separate element, whatever symmetry the density has.
     pub fn canonical(self) -> Factor {
         let pair = |a: Orb, b: Orb| if a <= b { (a, b) } else { (b, a) };
         match self {
-            Factor::One | Factor::RefEnergy(_) => self,
+            Factor::One | Factor::RefEnergy(_) | Factor::Gamma1(..) | Factor::Gamma2(..) => self,
             Factor::H(p, q) => {
                 let (p, q) = pair(p, q);
                 Factor::H(p, q)
@@ -94,6 +110,8 @@ impl Factor {
             Factor::Eri(p, q, r, s) if p == q && r == s => IntegralKind::Coulomb,
             Factor::Eri(p, q, r, s) if p == r && q == s => IntegralKind::Exchange,
             Factor::Eri(..) => IntegralKind::General,
+            Factor::Gamma1(..) => IntegralKind::OneDensity,
+            Factor::Gamma2(..) => IntegralKind::TwoDensity,
         }
     }
 }

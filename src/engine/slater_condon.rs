@@ -2,6 +2,7 @@
 //! spin orbitals are visited, their phases come from the bits, and contributions accumulate
 //! in exact integers per spin-orbital integral before spin integration.
 
+use crate::engine::density::Operator;
 use crate::engine::determinant::CaseDet;
 use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, Factor, RawTerm, RestrictedSum};
@@ -262,8 +263,16 @@ fn pair_weight(bra: &Entry, ket: &Entry) -> ([i128; 2], i128, u64) {
     ([bra.a, ket.a], g as i128, (bra.r / g) * (ket.r / g))
 }
 
-/// <bra|H|ket> (electronic part) for states over the same closed spaces `closed`.
-pub fn hamiltonian(bra: &BitState, ket: &BitState, universe: &Universe, closed: &[RestrictedSum]) -> Expr {
+/// <bra|H|ket> (electronic part) for states over the same closed spaces `closed`, or with
+/// `Operator::Densities` the transition densities <bra| … |ket>: the same contributions, each
+/// read as the density elements it multiplies (see `density.rs`).
+pub fn hamiltonian(
+    bra: &BitState,
+    ket: &BitState,
+    universe: &Universe,
+    closed: &[RestrictedSum],
+    operator: Operator,
+) -> Expr {
     let mut acc = Accumulator::new();
     bra.interacting(ket, |i, j| {
         let (b, k) = (&bra.entries[i], &ket.entries[j]);
@@ -308,7 +317,7 @@ pub fn hamiltonian(bra: &BitState, ket: &BitState, universe: &Universe, closed: 
         let root = Exact::sqrt_of_rational(&BigRational::from_integer(root.into()))
             .expect("square-free roots are small");
         let weight = &Exact::rational(BigRational::from_integer(total) * &scale) * &root;
-        for raw in contributions(key, universe, closed) {
+        for raw in contributions(key, universe, closed).into_iter().flat_map(|r| operator.terms(r)) {
             terms.extend(RawTerm { coeff: &raw.coeff * &weight, ..raw }.expand());
         }
     };

@@ -129,5 +129,6 @@ pub fn coupled_spin(program: &Program, request: &Request, options: &Options) -> 
         closed: SpaceSet::of(&closed),
         distinct: options.distinct,
         block: None,
+        shells: None,
     })
 }

@@ -423,25 +423,34 @@ impl Resolver {
         Ok(())
     }
 
-    /// `energy X`, `spin X`, `element X Y`, `overlap X Y`, `roots X Y ...`
+    /// `energy X`, `spin X`, `element X Y`, `overlap X Y`, `roots X Y ...`, `density X`,
+    /// `density X Y`, `shells X`
     fn request(&mut self, span: Span, mut inner: Pairs<Rule>) -> Result<()> {
         let keyword = inner.next().expect("grammar: request keyword");
+        let operands: Vec<Pair<Rule>> = inner.collect();
         let kind = match keyword.as_str() {
             "energy" => RequestKind::Energy,
             "element" => RequestKind::Element,
             "spin" => RequestKind::Spin,
             "roots" => RequestKind::Roots,
+            "shells" => RequestKind::Shells,
+            "density" if operands.len() == 2 => RequestKind::TransitionDensity,
+            "density" => RequestKind::Density,
             _ => RequestKind::Overlap,
         };
-        let wanted = match kind {
-            RequestKind::Energy | RequestKind::Spin => Some(1),
-            RequestKind::Element | RequestKind::Overlap => Some(2),
+        let wanted: Option<&[usize]> = match kind {
+            RequestKind::Energy | RequestKind::Spin | RequestKind::Shells => Some(&[1]),
+            RequestKind::Element | RequestKind::Overlap => Some(&[2]),
+            RequestKind::Density | RequestKind::TransitionDensity => Some(&[1, 2]),
             RequestKind::Roots => None,
         };
-        let operands: Vec<Pair<Rule>> = inner.collect();
-        if let Some(wanted) = wanted.filter(|&w| w != operands.len()) {
+        if let Some(wanted) = wanted.filter(|w| !w.contains(&operands.len())) {
             return Err(Error::at(
-                ErrorKind::RequestArity { kind: kind.keyword().into(), wanted, got: operands.len() },
+                ErrorKind::RequestArity {
+                    kind: kind.keyword().into(),
+                    wanted: wanted.iter().map(|n| n.to_string()).collect::<Vec<_>>().join(" or "),
+                    got: operands.len(),
+                },
                 &span,
             ));
         }
@@ -466,7 +475,9 @@ impl Resolver {
                     ));
                 }
             };
-            if matches!(kind, RequestKind::Spin | RequestKind::Roots) && !state.parts.is_empty() {
+            let fixed_only =
+                !matches!(kind, RequestKind::Energy | RequestKind::Element | RequestKind::Overlap);
+            if fixed_only && !state.parts.is_empty() {
                 return Err(Error::at(
                     ErrorKind::FreeNotAllowed {
                         request: kind.keyword().into(),

@@ -316,6 +316,13 @@ pub enum RequestKind {
     Spin,
     /// The roots of H in the space of its operands' members.
     Roots,
+    /// `density X`: the one- and two-particle reduced density matrices of X, normalized.
+    Density,
+    /// `density X Y`: the transition densities <X| … |Y>.
+    #[serde(rename = "transition_density")]
+    TransitionDensity,
+    /// `shells X`: X's energy in the open-shell form Σ f h + Σ (a J + b K).
+    Shells,
 }
 
 impl RequestKind {
@@ -326,12 +333,14 @@ impl RequestKind {
             RequestKind::Overlap => "overlap",
             RequestKind::Spin => "spin",
             RequestKind::Roots => "roots",
+            RequestKind::Density | RequestKind::TransitionDensity => "density",
+            RequestKind::Shells => "shells",
         }
     }
 }
 
-/// One request: `energy X` (<X|H|X>/<X|X>), `element X Y` (<X|H|Y>), `overlap X Y`, `spin X`
-/// or `roots X Y ...`.
+/// One request: `energy X` (<X|H|X>/<X|X>), `element X Y` (<X|H|Y>), `overlap X Y`, `spin X`,
+/// `roots X Y ...`, `density X`, `density X Y` or `shells X`.
 #[derive(Clone, Debug)]
 pub struct Request {
     pub kind: RequestKind,

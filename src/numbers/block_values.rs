@@ -268,6 +268,7 @@ fn roots(
             vanishing: space.vanishing,
             roots,
         }),
+        density: None,
         warnings: vec![],
     })
 }

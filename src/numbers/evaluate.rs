@@ -4,6 +4,7 @@
 use crate::engine::expression::{Expr, Factor, Term};
 use crate::engine::fock::{fock_definition, reference_definition};
 use crate::language::orbital::Orb;
+use crate::numbers::density::Densities;
 use crate::numbers::integrals::Integrals;
 use std::collections::BTreeMap;
 
@@ -39,31 +40,39 @@ fn factor_value(factor: &Factor, binding: &Binding, summed: &[usize], ints: &dyn
         // by their definitions, with the same binding (p and q are never summation indices)
         Factor::Fock(p, q, closed) => evaluate(&fock_definition(p, q, closed), binding, ints),
         Factor::RefEnergy(closed) => evaluate(&reference_definition(closed), binding, ints),
+        // a density element is not a number to multiply: see `density_values`
+        Factor::Gamma1(..) | Factor::Gamma2(..) => 0.0,
     }
 }
 
 pub(crate) fn term_value(term: &Term, binding: &Binding, ints: &dyn Integrals) -> f64 {
+    let mut total = 0.0;
+    for_each_summed(term, binding, |summed| total += factor_value(&term.factor, binding, summed, ints));
+    total * term.coeff.to_f64()
+}
+
+/// Calls `visit` with the members of the summed spaces, for every value of a term's summation
+/// indices (an odometer over the spaces), when its deltas hold under the binding.
+fn for_each_summed(term: &Term, binding: &Binding, mut visit: impl FnMut(&[usize])) {
     let none: [usize; 0] = [];
     if term.deltas.iter().any(|&(a, b)| binding.orbital(a, &none) != binding.orbital(b, &none)) {
-        return 0.0;
+        return;
     }
-    let mut summed = vec![0usize; term.sums.len()];
-    let mut total = 0.0;
-    // an odometer over the members of every summed space
     let spaces: Vec<&[usize]> = term.sums.iter().map(|&s| binding.spaces[s as usize].as_slice()).collect();
     if spaces.iter().any(|s| s.is_empty()) {
-        return 0.0;
+        return;
     }
+    let mut summed = vec![0usize; spaces.len()];
     let mut position = vec![0usize; spaces.len()];
     loop {
         for (d, space) in spaces.iter().enumerate() {
             summed[d] = space[position[d]];
         }
-        total += factor_value(&term.factor, binding, &summed, ints);
+        visit(&summed);
         let mut d = 0;
         loop {
             if d == position.len() {
-                return total * term.coeff.to_f64();
+                return;
             }
             position[d] += 1;
             if position[d] < spaces[d].len() {
@@ -72,6 +81,48 @@ pub(crate) fn term_value(term: &Term, binding: &Binding, ints: &dyn Integrals) -
             position[d] = 0;
             d += 1;
         }
+    }
+}
+
+/// The elements of a symbolic density (engine/density.rs) under a binding, 0-based, zeros left
+/// out: every term adds its coefficient to its element for each value of its summation indices.
+/// Terms of other factors are not density elements and are left out.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct DensityElements {
+    pub one: BTreeMap<[usize; 2], f64>,
+    pub two: BTreeMap<[usize; 4], f64>,
+}
+
+pub fn density_elements(density: &Expr, binding: &Binding) -> DensityElements {
+    let mut out = DensityElements::default();
+    let exact = specialized(density, binding);
+    for term in &exact.as_ref().unwrap_or(density).terms {
+        let c = term.coeff.to_f64();
+        for_each_summed(term, binding, |summed| {
+            let o = |x| binding.orbital(x, summed);
+            match term.factor {
+                Factor::Gamma1(p, q) => *out.one.entry([o(p), o(q)]).or_default() += c,
+                Factor::Gamma2(p, q, r, s) => *out.two.entry([o(p), o(q), o(r), o(s)]).or_default() += c,
+                _ => {}
+            }
+        });
+    }
+    out
+}
+
+impl DensityElements {
+    /// Dense over orbitals 0..n (every element must lie below n).
+    pub fn dense(&self, n: usize) -> Densities {
+        let mut out = Densities::zeros(n);
+        for (&[p, q], &v) in &self.one {
+            let at = out.pair(p, q);
+            out.one[at] = v;
+        }
+        for (&[p, q, r, s], &v) in &self.two {
+            let at = out.quadruple(p, q, r, s);
+            out.two[at] = v;
+        }
+        out
     }
 }
 

@@ -6,6 +6,7 @@ pub mod block_values;
 pub mod compiled;
 pub mod davidson;
 pub mod density;
+pub mod density_listing;
 pub mod eigen;
 pub mod evaluate;
 pub mod fcidump;

@@ -5,6 +5,7 @@ use crate::engine::derive::Derivation;
 use crate::error::{Error, ErrorKind, Result};
 use crate::language::program::{Program, Request, RequestKind};
 use crate::numbers::bind::{Bindings, electrons};
+use crate::numbers::density_listing::DensityValues;
 use crate::numbers::evaluate::{Binding, evaluate};
 use crate::numbers::integrals::Integrals;
 use itertools::Itertools;
@@ -51,6 +52,8 @@ pub struct Evaluated {
     /// For `roots`: the space and its lowest roots (`entries` then hold the root values, by
     /// their number as the index `root`).
     pub roots: Option<RootsOut>,
+    /// For `density`: the listed non-zero elements (`entries` is then empty).
+    pub density: Option<DensityValues>,
     /// What the user should know about these values, in words.
     pub warnings: Vec<String>,
 }
@@ -125,7 +128,7 @@ pub fn equal_blocks(indices: &[u32], binding: &Binding) -> Vec<Vec<u32>> {
     blocks
 }
 
-fn exclusion<'a>(d: &'a Derivation, equal: &[Vec<u32>]) -> Option<Exclusion<'a>> {
+pub(crate) fn exclusion<'a>(d: &'a Derivation, equal: &[Vec<u32>]) -> Option<Exclusion<'a>> {
     if equal.is_empty() {
         None
     } else if d.distinct {
@@ -160,9 +163,11 @@ pub fn tabulate(
     bindings: &Bindings,
     ints: &dyn Integrals,
 ) -> Result<Evaluated> {
+    // `shells`: the energy as its open-shell form gives it (verified equal to the energy)
+    let expr = d.shells.as_ref().map_or_else(|| d.value.clone(), |form| form.energy());
     let value = |b: &Binding| {
         let constant = d.constant_factor().map_or(0.0, |s| ints.constant() * evaluate(s, b, ints));
-        Ok((evaluate(&d.value, b, ints) + constant, vec![]))
+        Ok((evaluate(&expr, b, ints) + constant, vec![]))
     };
     table(program, request, d, bindings, &|equal, _| exclusion(d, equal), &value)
 }
@@ -248,6 +253,7 @@ pub fn table<'d>(
         electrons: electrons(request, &binding),
         free: None,
         roots: None,
+        density: None,
         warnings: vec![],
     })
 }

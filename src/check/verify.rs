@@ -544,6 +544,8 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
     if let Some(block) = &derivation.block {
         return verify_block(program, request, derivation, block, seed);
     }
+    // exact, whatever the size: an open-shell form read off an energy of spin algebra included
+    verify_exact(program, request, derivation)?;
     let mut report = Report::empty(derivation, seed);
     if request.bra.is_unexpanded() {
         report.not_checked = Some(format!(
@@ -552,7 +554,6 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
         ));
         return Ok(report);
     }
-    verify_exact(program, request, derivation)?;
     // S² is cheap to apply by brute force at any size; H is not
     if !fits_whole_check(request) && request.kind != RequestKind::Spin {
         return verify_pairs(program, request, derivation, seed);

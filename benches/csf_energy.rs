@@ -7,22 +7,13 @@
 //! million determinants (n = 40) the state is not expanded and its energy comes from
 //! spin-coupling algebra.
 
+#[path = "shared/singlet.rs"]
+mod singlet;
+
+use singlet::singlet_input;
 use spinfold::{DEFAULT_SEED, Limits, Options, derive_checked, parse_with};
 use std::process::Command;
 use std::time::Instant;
-
-/// The input: n open shells o1..on over the space `core`, coupled to a singlet.
-fn input(n: usize) -> String {
-    let names: Vec<String> = (1..=n).map(|k| format!("o{k}")).collect();
-    let half = |t: usize| if t.is_multiple_of(2) { (t / 2).to_string() } else { format!("{t}/2") };
-    let path: Vec<String> = (1..=n / 2).chain((0..n / 2).rev()).map(half).collect();
-    format!(
-        "space core\norbitals {}\ncsf X = | core^2 {} | S=0 path={}\nenergy X\n",
-        names.join(" "),
-        names.join(" "),
-        path.join(",")
-    )
-}
 
 fn peak_memory_kib() -> Option<u64> {
     let status = std::fs::read_to_string("/proc/self/status").ok()?;
@@ -33,9 +24,12 @@ fn peak_memory_kib() -> Option<u64> {
 /// In the child: derive and verify once, print "seconds peak_kib determinants terms".
 fn child(n: usize) {
     let start = Instant::now();
-    let program =
-        parse_with("bench.spinfold", &input(n), Limits { max_determinants: 1_000_000, ..Limits::default() })
-            .expect("the input parses");
+    let program = parse_with(
+        "bench.spinfold",
+        &singlet_input(n),
+        Limits { max_determinants: 1_000_000, ..Limits::default() },
+    )
+    .expect("the input parses");
     let options = Options { max_determinants: 1_000_000, ..Options::default() };
     let derived =
         derive_checked(&program, &options, Some(DEFAULT_SEED)).expect("derivation and verification pass");

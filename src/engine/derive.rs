@@ -443,7 +443,8 @@ fn derive_shells(program: &Program, request: &Request, options: &Options) -> Res
 
 /// Möbius inversion over the coincidence lattice: each case keeps only what it adds to the
 /// finer cases it contains, and the result is the sum of those parts, each under the deltas
-/// that select its case.
+/// that select its case. Only cases that add something are kept: in most cases the finer parts
+/// already give the whole value, and those cases leave no trace.
 #[derive(Default)]
 struct Mobius {
     parts: Vec<(Case, [Expr; 3])>,
@@ -452,22 +453,35 @@ struct Mobius {
 impl Mobius {
     /// Adds a case; cases come finest first, so every finer case is already here.
     fn add(&mut self, case: &Case, channels: [Option<Expr>; 3]) {
-        let own = std::array::from_fn(|c| {
-            let finer = self
-                .parts
-                .iter()
-                .filter(|(other, _)| other.refines(case))
-                .fold(Expr::zero(), |acc, (_, own)| acc.plus(&own[c].substitute(&|x| case.orb(x))));
-            channels[c].as_ref().map_or(Expr::zero(), |v| v.minus(&finer))
+        let finer: Vec<&[Expr; 3]> =
+            self.parts.iter().filter(|(other, _)| other.refines(case)).map(|(_, own)| own).collect();
+        let own: [Expr; 3] = std::array::from_fn(|c| match &channels[c] {
+            None => Expr::zero(),
+            Some(value) => {
+                let minus_one = Exact::integer(-1);
+                let finer_terms = finer.iter().flat_map(|own| own[c].terms.iter()).map(|t| {
+                    let mut t = t.substitute(&|x| case.orb(x));
+                    t.coeff = &t.coeff * &minus_one;
+                    t
+                });
+                Expr::from_terms(value.terms.iter().cloned().chain(finer_terms))
+            }
         });
-        self.parts.push((case.clone(), own));
+        if own.iter().any(|e| !e.is_zero()) {
+            self.parts.push((case.clone(), own));
+        }
     }
 
     fn assemble(&self) -> [Expr; 3] {
         std::array::from_fn(|c| {
-            self.parts
-                .iter()
-                .fold(Expr::zero(), |acc, (case, own)| acc.plus(&own[c].with_deltas(&case.deltas())))
+            Expr::from_terms(self.parts.iter().flat_map(|(case, own)| {
+                let deltas = case.deltas();
+                own[c].terms.iter().map(move |t| {
+                    let mut t = t.clone();
+                    t.deltas.extend_from_slice(&deltas);
+                    t
+                })
+            }))
         })
     }
 }

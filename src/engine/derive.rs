@@ -13,7 +13,8 @@ use crate::engine::slater_condon::{self, BitState, Universe};
 use crate::engine::spin_operator::{SpinValues, spin_values};
 use crate::error::{Error, ErrorKind, Result};
 use crate::language::orbital::{Orb, SpaceId, SpaceSet};
-use crate::language::program::{Coupling, Program, Request, RequestKind, State, Symbols};
+use crate::language::program::{Coupling, DetSpec, Program, Request, RequestKind, State, Symbols};
+use rayon::prelude::*;
 use std::collections::{BTreeMap, BTreeSet};
 use std::sync::Arc;
 
@@ -146,24 +147,38 @@ fn vanishing_error(program: &Program, request: &Request, why: Vanishing, label: 
     Error::at(kind, &request.span)
 }
 
+/// The fewest determinants a state has for its determinants to be built in parallel.
+const PARALLEL_FROM: usize = 4096;
+
+type BuiltDet = std::result::Result<(i32, CaseDet), Vanishing>;
+
 fn case_state(state: &State, case: &Case) -> std::result::Result<CaseState, Vanishing> {
-    let mut out = CaseState::new();
-    let mut first_vanishing = None;
-    for (coeff, det) in state.terms.iter() {
-        match CaseDet::build(det, case) {
-            Ok((sign, d)) => {
-                let c = if sign < 0 { -coeff.clone() } else { coeff.clone() };
-                match out.entry(d) {
-                    std::collections::btree_map::Entry::Vacant(v) => {
-                        v.insert(c);
-                    }
-                    std::collections::btree_map::Entry::Occupied(mut o) => *o.get_mut() += &c,
-                }
-            }
-            Err(why) => first_vanishing = first_vanishing.or(Some(why)),
+    // large states are built in parallel, in order; equal determinants then meet by a sort
+    fn build<'a>((coeff, det): &'a (Exact, DetSpec), case: &Case) -> (&'a Exact, BuiltDet) {
+        (coeff, CaseDet::build(det, case))
+    }
+    let built: Vec<_> = if state.terms.len() < PARALLEL_FROM {
+        state.terms.iter().map(|t| build(t, case)).collect()
+    } else {
+        state.terms.par_iter().map(|t| build(t, case)).collect()
+    };
+    let first_vanishing = built.iter().find_map(|(_, b)| b.as_ref().err().copied());
+    let mut signed: Vec<(CaseDet, Exact)> = built
+        .into_iter()
+        .filter_map(|(coeff, b)| {
+            b.ok().map(|(sign, d)| (d, if sign < 0 { -coeff.clone() } else { coeff.clone() }))
+        })
+        .collect();
+    signed.par_sort_by(|a, b| a.0.cmp(&b.0));
+    let mut out: Vec<(CaseDet, Exact)> = Vec::with_capacity(signed.len());
+    for (d, c) in signed {
+        match out.last_mut() {
+            Some((last, sum)) if *last == d => *sum += &c,
+            _ => out.push((d, c)),
         }
     }
-    out.retain(|_, c| !c.is_zero());
+    out.retain(|(_, c)| !c.is_zero());
+    let out: CaseState = out.into_iter().collect();
     match (out.is_empty(), first_vanishing) {
         (true, Some(why)) if state.terms.len() == 1 => Err(why),
         _ => Ok(out),

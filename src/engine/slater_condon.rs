@@ -121,14 +121,16 @@ impl BitState {
     }
 
     /// Every bra entry differing from ket entry `j` by at most two spin orbitals, each once:
-    /// found through the alpha and beta strings rather than by trying all pairs.
-    fn interacting(&self, ket: &BitState, j: usize, mut visit: impl FnMut(usize, usize)) {
+    /// found through the alpha and beta strings rather than by trying all pairs. With `half`
+    /// (bra and ket the same state) only the entries i that come before j in the order of
+    /// (alpha string, position), and j itself.
+    fn interacting(&self, ket: &BitState, j: usize, half: bool, mut visit: impl FnMut(usize, usize)) {
         let differ = |x: u128, y: u128| (x ^ y).count_ones() / 2;
         let e = &ket.entries[j];
         let (alpha, beta) = (e.bits & ALPHA, e.bits & !ALPHA);
         // same alpha string: beta may differ by up to two
         for &i in self.by_alpha.get(&alpha).into_iter().flatten() {
-            if differ(self.entries[i].bits & !ALPHA, beta) <= 2 {
+            if (!half || i <= j) && differ(self.entries[i].bits & !ALPHA, beta) <= 2 {
                 visit(i, j);
             }
         }
@@ -142,6 +144,9 @@ impl BitState {
                 let m = occupied.trailing_zeros();
                 occupied &= occupied - 1;
                 let moved = alpha ^ (1 << m) ^ (1 << p);
+                if half && moved > alpha {
+                    continue;
+                }
                 for &i in self.by_alpha.get(&moved).into_iter().flatten() {
                     if differ(self.entries[i].bits & !ALPHA, beta) <= 1 {
                         visit(i, j);
@@ -151,7 +156,8 @@ impl BitState {
         }
         // alpha strings two replacements away: beta must be the same
         for &i in self.by_beta.get(&beta).into_iter().flatten() {
-            if differ(self.entries[i].bits & ALPHA, alpha) == 2 {
+            let other = self.entries[i].bits & ALPHA;
+            if (!half || other < alpha) && differ(other, alpha) == 2 {
                 visit(i, j);
             }
         }
@@ -353,14 +359,8 @@ pub fn hamiltonian(
         .into_par_iter()
         .with_min_len(PAIRS_CHUNK)
         .fold(Accumulator::new, |mut acc, j| {
-            bra.interacting(ket, j, |i, j| {
-                let times = match i.cmp(&j) {
-                    _ if !half => 1,
-                    std::cmp::Ordering::Less => 2,
-                    std::cmp::Ordering::Equal => 1,
-                    std::cmp::Ordering::Greater => return,
-                };
-                acc.visit(&bra.entries[i], &ket.entries[j], times)
+            bra.interacting(ket, j, half, |i, j| {
+                acc.visit(&bra.entries[i], &ket.entries[j], if half && i != j { 2 } else { 1 })
             });
             acc
         })

@@ -18,8 +18,9 @@ use itertools::Itertools;
 use rand::seq::IndexedRandom;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
+use rustc_hash::FxHashMap;
 use serde::Serialize;
-use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
+use std::collections::{BTreeMap, BTreeSet, HashSet};
 
 /// Relative agreement demanded between the derived expression and brute force.
 pub const TOLERANCE: f64 = 1e-10;
@@ -359,10 +360,13 @@ fn verify_exact(program: &Program, request: &Request, derivation: &Derivation) -
 /// pairs.
 pub const FULL_CHECK_LIMIT: usize = 300;
 
+/// A state's distinct determinants with their coefficients (see `distinct_determinants`).
+type Distinct<'a> = Vec<(Exact, &'a DetSpec)>;
+
 /// A state's determinants with equal ones combined (coefficients summed, vanishing sums
 /// dropped), in the order they first appear: what the check counts and samples.
-fn distinct_determinants(state: &State) -> Vec<(Exact, &DetSpec)> {
-    let mut position: HashMap<&DetSpec, usize> = HashMap::new();
+fn distinct_determinants(state: &State) -> Distinct<'_> {
+    let mut position: FxHashMap<&DetSpec, usize> = FxHashMap::default();
     let mut out: Vec<(Exact, &DetSpec)> = vec![];
     for (coeff, det) in state.terms.iter() {
         match position.get(det) {
@@ -380,7 +384,23 @@ fn distinct_determinants(state: &State) -> Vec<(Exact, &DetSpec)> {
 /// True when bra and ket are small enough, counted in distinct determinants, to be checked
 /// whole by brute force at every index assignment.
 pub fn fits_whole_check(request: &Request) -> bool {
-    distinct_determinants(&request.bra).len() + distinct_determinants(&request.ket).len() <= FULL_CHECK_LIMIT
+    let (bras, kets) = distinct_bra_and_ket(request);
+    fits(&bras, &kets)
+}
+
+fn fits(bras: &[(Exact, &DetSpec)], kets: &[(Exact, &DetSpec)]) -> bool {
+    bras.len() + kets.len() <= FULL_CHECK_LIMIT
+}
+
+/// The distinct determinants of bra and ket; one pass when both are the same state.
+fn distinct_bra_and_ket(request: &Request) -> (Distinct<'_>, Distinct<'_>) {
+    let bras = distinct_determinants(&request.bra);
+    let kets = if std::sync::Arc::ptr_eq(&request.bra.terms, &request.ket.terms) {
+        bras.clone()
+    } else {
+        distinct_determinants(&request.ket)
+    };
+    (bras, kets)
 }
 
 /// How many determinant pairs a sampled check takes.
@@ -389,10 +409,15 @@ const SAMPLED_PAIRS: usize = 40;
 /// The check of a large request: a seeded sample of pairs of distinct determinants, half of
 /// them chosen to interact (a spin exchange between two open shells, or the same determinant),
 /// each derived alone by the engine and checked whole against brute force.
-fn verify_pairs(program: &Program, request: &Request, derivation: &Derivation, seed: u64) -> Result<Report> {
+fn verify_pairs(
+    program: &Program,
+    request: &Request,
+    derivation: &Derivation,
+    seed: u64,
+    (bras, kets): (Distinct<'_>, Distinct<'_>),
+) -> Result<Report> {
     let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0xda7a);
-    let (bras, kets) = (distinct_determinants(&request.bra), distinct_determinants(&request.ket));
-    let ket_index: HashMap<&DetSpec, usize> = kets.iter().enumerate().map(|(k, &(_, d))| (d, k)).collect();
+    let ket_index: FxHashMap<&DetSpec, usize> = kets.iter().enumerate().map(|(k, &(_, d))| (d, k)).collect();
     let mut pairs = vec![];
     for n in 0..SAMPLED_PAIRS {
         let i = rng.random_range(0..bras.len());
@@ -555,8 +580,9 @@ pub fn verify(program: &Program, request: &Request, derivation: &Derivation, see
         return Ok(report);
     }
     // S² is cheap to apply by brute force at any size; H is not
-    if !fits_whole_check(request) && request.kind != RequestKind::Spin {
-        return verify_pairs(program, request, derivation, seed);
+    let distinct = distinct_bra_and_ket(request);
+    if !fits(&distinct.0, &distinct.1) && request.kind != RequestKind::Spin {
+        return verify_pairs(program, request, derivation, seed, distinct);
     }
     verify_sized(program, request, derivation, seed, size_configurations(program, request, derivation))
 }

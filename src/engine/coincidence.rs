@@ -10,14 +10,20 @@ use std::collections::BTreeMap;
 /// of its block, and per closed space the representatives that must be written out.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct Case {
-    representative: BTreeMap<u32, u32>,
+    /// (index, representative), ascending by index.
+    representative: Vec<(u32, u32)>,
     extracted: BTreeMap<SpaceId, Vec<Orb>>,
 }
 
 impl Case {
+    /// The representative of index `k` (itself when the case does not know it).
+    fn representative_of(&self, k: u32) -> Option<u32> {
+        self.representative.binary_search_by_key(&k, |&(x, _)| x).ok().map(|at| self.representative[at].1)
+    }
+
     pub fn orb(&self, orb: Orb) -> Orb {
         match orb {
-            Orb::Index(k) => Orb::Index(*self.representative.get(&k).unwrap_or(&k)),
+            Orb::Index(k) => Orb::Index(self.representative_of(k).unwrap_or(k)),
             other => other,
         }
     }
@@ -42,10 +48,9 @@ impl Case {
 
     /// True when every block of `self` lies inside a block of `coarser`.
     pub fn refines(&self, coarser: &Case) -> bool {
-        self.representative.keys().all(|k| {
-            let mine = self.representative[k];
-            coarser.representative.get(&mine) == coarser.representative.get(k)
-        })
+        self.representative
+            .iter()
+            .all(|&(k, mine)| coarser.representative_of(mine) == coarser.representative_of(k))
     }
 
     pub fn block_count(&self) -> usize {
@@ -88,13 +93,14 @@ pub fn cases(used: &BTreeMap<SpaceId, Vec<u32>>, closed: &[SpaceId], distinct: b
             },
         )
         .collect();
-    let mut out: Vec<Case> = vec![Case { representative: BTreeMap::new(), extracted: BTreeMap::new() }];
+    let mut out: Vec<Case> = vec![Case { representative: vec![], extracted: BTreeMap::new() }];
     for (space_choices, (&space, _)) in per_space.iter().zip(used) {
         let mut next = vec![];
         for case in &out {
             for choice in space_choices {
                 let mut c = case.clone();
                 c.representative.extend(choice.iter().copied());
+                c.representative.sort_unstable();
                 if closed.contains(&space) {
                     let mut reps: Vec<Orb> = choice.iter().map(|&(_, r)| Orb::Index(r)).collect();
                     reps.sort();

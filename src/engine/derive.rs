@@ -13,7 +13,8 @@ use crate::engine::slater_condon::{self, BitState, Universe};
 use crate::engine::spin_operator::{SpinValues, spin_values};
 use crate::error::{Error, ErrorKind, Result};
 use crate::language::orbital::{Orb, SpaceId, SpaceSet};
-use crate::language::program::{Coupling, Program, Request, RequestKind, State, Symbols};
+use crate::language::program::{Coupling, DetSpec, Program, Request, RequestKind, State, Symbols};
+use rayon::prelude::*;
 use std::collections::{BTreeMap, BTreeSet};
 use std::sync::Arc;
 
@@ -146,24 +147,38 @@ fn vanishing_error(program: &Program, request: &Request, why: Vanishing, label: 
     Error::at(kind, &request.span)
 }
 
+/// The fewest determinants a state has for its determinants to be built in parallel.
+const PARALLEL_FROM: usize = 4096;
+
+type BuiltDet = std::result::Result<(i32, CaseDet), Vanishing>;
+
 fn case_state(state: &State, case: &Case) -> std::result::Result<CaseState, Vanishing> {
-    let mut out = CaseState::new();
-    let mut first_vanishing = None;
-    for (coeff, det) in state.terms.iter() {
-        match CaseDet::build(det, case) {
-            Ok((sign, d)) => {
-                let c = if sign < 0 { -coeff.clone() } else { coeff.clone() };
-                match out.entry(d) {
-                    std::collections::btree_map::Entry::Vacant(v) => {
-                        v.insert(c);
-                    }
-                    std::collections::btree_map::Entry::Occupied(mut o) => *o.get_mut() += &c,
-                }
-            }
-            Err(why) => first_vanishing = first_vanishing.or(Some(why)),
+    // large states are built in parallel, in order; equal determinants then meet by a sort
+    fn build<'a>((coeff, det): &'a (Exact, DetSpec), case: &Case) -> (&'a Exact, BuiltDet) {
+        (coeff, CaseDet::build(det, case))
+    }
+    let built: Vec<_> = if state.terms.len() < PARALLEL_FROM {
+        state.terms.iter().map(|t| build(t, case)).collect()
+    } else {
+        state.terms.par_iter().map(|t| build(t, case)).collect()
+    };
+    let first_vanishing = built.iter().find_map(|(_, b)| b.as_ref().err().copied());
+    let mut signed: Vec<(CaseDet, Exact)> = built
+        .into_iter()
+        .filter_map(|(coeff, b)| {
+            b.ok().map(|(sign, d)| (d, if sign < 0 { -coeff.clone() } else { coeff.clone() }))
+        })
+        .collect();
+    signed.par_sort_by(|a, b| a.0.cmp(&b.0));
+    let mut out: Vec<(CaseDet, Exact)> = Vec::with_capacity(signed.len());
+    for (d, c) in signed {
+        match out.last_mut() {
+            Some((last, sum)) if *last == d => *sum += &c,
+            _ => out.push((d, c)),
         }
     }
-    out.retain(|_, c| !c.is_zero());
+    out.retain(|(_, c)| !c.is_zero());
+    let out: CaseState = out.into_iter().collect();
     match (out.is_empty(), first_vanishing) {
         (true, Some(why)) if state.terms.len() == 1 => Err(why),
         _ => Ok(out),
@@ -443,7 +458,8 @@ fn derive_shells(program: &Program, request: &Request, options: &Options) -> Res
 
 /// Möbius inversion over the coincidence lattice: each case keeps only what it adds to the
 /// finer cases it contains, and the result is the sum of those parts, each under the deltas
-/// that select its case.
+/// that select its case. Only cases that add something are kept: in most cases the finer parts
+/// already give the whole value, and those cases leave no trace.
 #[derive(Default)]
 struct Mobius {
     parts: Vec<(Case, [Expr; 3])>,
@@ -452,22 +468,35 @@ struct Mobius {
 impl Mobius {
     /// Adds a case; cases come finest first, so every finer case is already here.
     fn add(&mut self, case: &Case, channels: [Option<Expr>; 3]) {
-        let own = std::array::from_fn(|c| {
-            let finer = self
-                .parts
-                .iter()
-                .filter(|(other, _)| other.refines(case))
-                .fold(Expr::zero(), |acc, (_, own)| acc.plus(&own[c].substitute(&|x| case.orb(x))));
-            channels[c].as_ref().map_or(Expr::zero(), |v| v.minus(&finer))
+        let finer: Vec<&[Expr; 3]> =
+            self.parts.iter().filter(|(other, _)| other.refines(case)).map(|(_, own)| own).collect();
+        let own: [Expr; 3] = std::array::from_fn(|c| match &channels[c] {
+            None => Expr::zero(),
+            Some(value) => {
+                let minus_one = Exact::integer(-1);
+                let finer_terms = finer.iter().flat_map(|own| own[c].terms.iter()).map(|t| {
+                    let mut t = t.substitute(&|x| case.orb(x));
+                    t.coeff = &t.coeff * &minus_one;
+                    t
+                });
+                Expr::from_terms(value.terms.iter().cloned().chain(finer_terms))
+            }
         });
-        self.parts.push((case.clone(), own));
+        if own.iter().any(|e| !e.is_zero()) {
+            self.parts.push((case.clone(), own));
+        }
     }
 
     fn assemble(&self) -> [Expr; 3] {
         std::array::from_fn(|c| {
-            self.parts
-                .iter()
-                .fold(Expr::zero(), |acc, (case, own)| acc.plus(&own[c].with_deltas(&case.deltas())))
+            Expr::from_terms(self.parts.iter().flat_map(|(case, own)| {
+                let deltas = case.deltas();
+                own[c].terms.iter().map(move |t| {
+                    let mut t = t.clone();
+                    t.deltas.extend_from_slice(&deltas);
+                    t
+                })
+            }))
         })
     }
 }

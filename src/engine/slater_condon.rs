@@ -13,8 +13,9 @@ use num_bigint::BigInt;
 use num_integer::Integer;
 use num_rational::BigRational;
 use num_traits::{ToPrimitive, Zero};
+use rayon::prelude::*;
 use rustc_hash::FxHashMap;
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet};
 
 /// The explicit spatial orbitals of a request in one case, in canonical order: bit 2k is the
 /// alpha and bit 2k+1 the beta spin orbital of the k-th, so ascending bits are the normal order.
@@ -26,9 +27,12 @@ const ALPHA: u128 = 0x5555_5555_5555_5555_5555_5555_5555_5555;
 
 impl Universe {
     pub fn new<'a>(dets: impl Iterator<Item = &'a CaseDet>) -> Result<Universe> {
-        let mut orbs: Vec<Orb> = dets.flat_map(|d| d.electrons.iter().map(|e| e.orb)).collect();
-        orbs.sort();
-        orbs.dedup();
+        // a set, not a sorted list of every electron: large states repeat few orbitals many times
+        let orbs: Vec<Orb> = dets
+            .flat_map(|d| d.electrons.iter().map(|e| e.orb))
+            .collect::<BTreeSet<Orb>>()
+            .into_iter()
+            .collect();
         if orbs.len() > 64 {
             return Err(Error::new(ErrorKind::TooLarge {
                 what: "this request occupies".into(),
@@ -116,40 +120,45 @@ impl BitState {
         Ok(BitState { entries, denominator, by_alpha, by_beta, alpha_union })
     }
 
-    /// Every (bra entry, ket entry) pair differing by at most two spin orbitals, each once:
-    /// found through the alpha and beta strings rather than by trying all pairs.
-    fn interacting(&self, ket: &BitState, mut visit: impl FnMut(usize, usize)) {
+    /// Every bra entry differing from ket entry `j` by at most two spin orbitals, each once:
+    /// found through the alpha and beta strings rather than by trying all pairs. With `half`
+    /// (bra and ket the same state) only the entries i that come before j in the order of
+    /// (alpha string, position), and j itself.
+    fn interacting(&self, ket: &BitState, j: usize, half: bool, mut visit: impl FnMut(usize, usize)) {
         let differ = |x: u128, y: u128| (x ^ y).count_ones() / 2;
-        for (j, e) in ket.entries.iter().enumerate() {
-            let (alpha, beta) = (e.bits & ALPHA, e.bits & !ALPHA);
-            // same alpha string: beta may differ by up to two
-            for &i in self.by_alpha.get(&alpha).into_iter().flatten() {
-                if differ(self.entries[i].bits & !ALPHA, beta) <= 2 {
-                    visit(i, j);
-                }
+        let e = &ket.entries[j];
+        let (alpha, beta) = (e.bits & ALPHA, e.bits & !ALPHA);
+        // same alpha string: beta may differ by up to two
+        for &i in self.by_alpha.get(&alpha).into_iter().flatten() {
+            if (!half || i <= j) && differ(self.entries[i].bits & !ALPHA, beta) <= 2 {
+                visit(i, j);
             }
-            // alpha strings one replacement away: beta may differ by up to one
-            let mut holes = self.alpha_union & !alpha;
-            while holes != 0 {
-                let p = holes.trailing_zeros();
-                holes &= holes - 1;
-                let mut occupied = alpha;
-                while occupied != 0 {
-                    let m = occupied.trailing_zeros();
-                    occupied &= occupied - 1;
-                    let moved = alpha ^ (1 << m) ^ (1 << p);
-                    for &i in self.by_alpha.get(&moved).into_iter().flatten() {
-                        if differ(self.entries[i].bits & !ALPHA, beta) <= 1 {
-                            visit(i, j);
-                        }
+        }
+        // alpha strings one replacement away: beta may differ by up to one
+        let mut holes = self.alpha_union & !alpha;
+        while holes != 0 {
+            let p = holes.trailing_zeros();
+            holes &= holes - 1;
+            let mut occupied = alpha;
+            while occupied != 0 {
+                let m = occupied.trailing_zeros();
+                occupied &= occupied - 1;
+                let moved = alpha ^ (1 << m) ^ (1 << p);
+                if half && moved > alpha {
+                    continue;
+                }
+                for &i in self.by_alpha.get(&moved).into_iter().flatten() {
+                    if differ(self.entries[i].bits & !ALPHA, beta) <= 1 {
+                        visit(i, j);
                     }
                 }
             }
-            // alpha strings two replacements away: beta must be the same
-            for &i in self.by_beta.get(&beta).into_iter().flatten() {
-                if differ(self.entries[i].bits & ALPHA, alpha) == 2 {
-                    visit(i, j);
-                }
+        }
+        // alpha strings two replacements away: beta must be the same
+        for &i in self.by_beta.get(&beta).into_iter().flatten() {
+            let other = self.entries[i].bits & ALPHA;
+            if (!half || other < alpha) && differ(other, alpha) == 2 {
+                visit(i, j);
             }
         }
     }
@@ -183,6 +192,11 @@ impl Sum {
             Some(v) => self.add(v),
             None => self.spill += factors.iter().map(|&f| BigInt::from(f)).product::<BigInt>(),
         }
+    }
+
+    fn merge(&mut self, other: Sum) {
+        self.add(other.fast);
+        self.spill += other.spill;
     }
 
     fn total(&self) -> BigInt {
@@ -220,12 +234,24 @@ struct Diagonal {
 
 const BITS: usize = 128;
 
+/// The fewest ket entries one thread takes at a time: enough to outweigh an accumulator's setup.
+const PAIRS_CHUNK: usize = 2048;
+
 impl Diagonal {
     fn new() -> Diagonal {
         Diagonal {
             core: Sum::default(),
             single: vec![Sum::default(); BITS],
             pair: vec![Sum::default(); BITS * BITS],
+        }
+    }
+
+    fn merge(&mut self, other: Diagonal) {
+        self.core.merge(other.core);
+        for (mine, theirs) in
+            self.single.iter_mut().zip(other.single).chain(self.pair.iter_mut().zip(other.pair))
+        {
+            mine.merge(theirs);
         }
     }
 
@@ -254,6 +280,58 @@ impl Accumulator {
     fn add(&mut self, key: Key, root: u64, weight: [i128; 3]) {
         self.keyed.entry((key, root)).or_default().add_product(weight);
     }
+
+    /// The sums of two accumulators: exact, so the order in which parts meet does not matter.
+    fn merge(mut self, other: Accumulator) -> Accumulator {
+        for (key, sum) in other.keyed {
+            self.keyed.entry(key).or_default().merge(sum);
+        }
+        for (root, d) in other.diagonal {
+            match self.diagonal.entry(root) {
+                std::collections::btree_map::Entry::Vacant(v) => {
+                    v.insert(d);
+                }
+                std::collections::btree_map::Entry::Occupied(mut o) => o.get_mut().merge(d),
+            }
+        }
+        self
+    }
+
+    /// The contributions of the pair of bra entry `b` and ket entry `k`, `times` times.
+    fn visit(&mut self, b: &Entry, k: &Entry, times: i128) {
+        let ([x, y], g, root) = pair_weight(b, k);
+        let g = g * times;
+        let (only_bra, only_ket) = (b.bits & !k.bits, k.bits & !b.bits);
+        match only_bra.count_ones() {
+            0 => self.diagonal.entry(root).or_insert_with(Diagonal::new).add(b.bits, [x, y, g]),
+            1 => {
+                let (m, p) = (only_bra.trailing_zeros(), only_ket.trailing_zeros());
+                // |bra> = s a+(m) a(p) |ket>
+                let s = parity_below(k.bits, p) * parity_below(k.bits & !(1 << p), m);
+                let w = [x * s, y, g];
+                self.add(Key::One(m, p), root, w);
+                self.add(Key::ClosedOne(m, p), root, w);
+                let mut common = b.bits & k.bits;
+                while common != 0 {
+                    let n = common.trailing_zeros();
+                    common &= common - 1;
+                    self.add(Key::Two(m, n, p, n), root, w);
+                }
+            }
+            2 => {
+                let (m, n) = (only_bra.trailing_zeros(), 127 - only_bra.leading_zeros());
+                let (p, q) = (only_ket.trailing_zeros(), 127 - only_ket.leading_zeros());
+                // |bra> = s a+(m) a+(n) a(q) a(p) |ket>: m replaces p and n replaces q in place
+                let k1 = k.bits & !(1 << p);
+                let k2 = k1 & !(1 << q);
+                let k3 = k2 | (1 << n);
+                let s =
+                    parity_below(k.bits, p) * parity_below(k1, q) * parity_below(k2, n) * parity_below(k3, m);
+                self.add(Key::Two(m, n, p, q), root, [x * s, y, g]);
+            }
+            _ => {}
+        }
+    }
 }
 
 /// The weight of a pair, c_i c_j = (a_i a_j g / (L_bra L_ket)) √(r_i r_j / g²), as its integer
@@ -273,41 +351,20 @@ pub fn hamiltonian(
     closed: &[RestrictedSum],
     operator: Operator,
 ) -> Expr {
-    let mut acc = Accumulator::new();
-    bra.interacting(ket, |i, j| {
-        let (b, k) = (&bra.entries[i], &ket.entries[j]);
-        let ([x, y], g, root) = pair_weight(b, k);
-        let (only_bra, only_ket) = (b.bits & !k.bits, k.bits & !b.bits);
-        match only_bra.count_ones() {
-            0 => acc.diagonal.entry(root).or_insert_with(Diagonal::new).add(b.bits, [x, y, g]),
-            1 => {
-                let (m, p) = (only_bra.trailing_zeros(), only_ket.trailing_zeros());
-                // |bra> = s a+(m) a(p) |ket>
-                let s = parity_below(k.bits, p) * parity_below(k.bits & !(1 << p), m);
-                let w = [x * s, y, g];
-                acc.add(Key::One(m, p), root, w);
-                acc.add(Key::ClosedOne(m, p), root, w);
-                let mut common = b.bits & k.bits;
-                while common != 0 {
-                    let n = common.trailing_zeros();
-                    common &= common - 1;
-                    acc.add(Key::Two(m, n, p, n), root, w);
-                }
-            }
-            2 => {
-                let (m, n) = (only_bra.trailing_zeros(), 127 - only_bra.leading_zeros());
-                let (p, q) = (only_ket.trailing_zeros(), 127 - only_ket.leading_zeros());
-                // |bra> = s a+(m) a+(n) a(q) a(p) |ket>: m replaces p and n replaces q in place
-                let k1 = k.bits & !(1 << p);
-                let k2 = k1 & !(1 << q);
-                let k3 = k2 | (1 << n);
-                let s =
-                    parity_below(k.bits, p) * parity_below(k1, q) * parity_below(k2, n) * parity_below(k3, m);
-                acc.add(Key::Two(m, n, p, q), root, [x * s, y, g]);
-            }
-            _ => {}
-        }
-    });
+    // <I|H|J> = <J|H|I> for real orbitals, and every integral stands in its canonical form: of
+    // an expectation value of H each pair of different entries is visited once and counted twice
+    let half = std::ptr::eq(bra, ket) && operator == Operator::Hamiltonian;
+    // the ket entries are shared among threads, each summing into an accumulator of its own
+    let acc = (0..ket.entries.len())
+        .into_par_iter()
+        .with_min_len(PAIRS_CHUNK)
+        .fold(Accumulator::new, |mut acc, j| {
+            bra.interacting(ket, j, half, |i, j| {
+                acc.visit(&bra.entries[i], &ket.entries[j], if half && i != j { 2 } else { 1 })
+            });
+            acc
+        })
+        .reduce(Accumulator::new, Accumulator::merge);
     let scale = BigRational::new(BigInt::from(1), &bra.denominator * &ket.denominator);
     let mut terms = vec![];
     let mut emit = |key: Key, root: u64, total: BigInt| {

@@ -139,23 +139,23 @@ fn the_spin_of_a_coupled_state_is_read_off_its_coupling() {
 
 #[test]
 fn coincidence_cases_are_counted_before_any_is_derived() {
-    // 5 occupied and 5 virtual generic indices: 52 x 52 = 2704 cases (Bell numbers)
-    let input = "space occ: i j k l m\nspace vir: a b c d e\ndet ref = | occ^2 |\n\
-                 element ref[i j k' -> a b c'] ref[l m' -> d e']\n";
+    // 7 occupied and 6 virtual generic indices: 877 x 203 = 178031 cases (Bell numbers)
+    let input = "space occ: i j k l m n o\nspace vir: a b c d e f\ndet ref = | occ^2 |\n\
+                 element ref[i j k' l -> a b c' d] ref[m n' o -> e f' a]\n";
     let program = parse("cases.spinfold", input).unwrap();
     let error = derive(&program, &program.requests[0], &Options::default()).unwrap_err();
     let report = error.render();
     assert!(report.contains("cases.spinfold:4:1"), "{report}");
-    assert!(report.contains("coincide in 2704 cases, which exceeds the limit of 1000 cases"), "{report}");
+    assert!(report.contains("coincide in 178031 cases, which exceeds the limit of 50000 cases"), "{report}");
     assert!(report.contains("--max-cases") && report.contains("--distinct"), "{report}");
     assert_eq!(error.exit_code(), 2);
     // under --distinct the indices are all different: one case
     let distinct = Options { distinct: true, ..Options::default() };
     assert!(derive(&program, &program.requests[0], &distinct).is_ok());
-    // 8 indices of one space: B(8) = 4140 cases; the limit is adjustable
-    let eight = parse("eight.spinfold", "space act: t u v w x y z q\nenergy | t u v w x y z q |\n").unwrap();
-    let report = derive(&eight, &eight.requests[0], &Options::default()).unwrap_err().render();
-    assert!(report.contains("4140 cases"), "{report}");
+    // 10 indices of one space: B(10) = 115975 cases; the limit is adjustable
+    let ten = parse("ten.spinfold", "space act: t u v w x y z q r s\nenergy | t u v w x y z q r s |\n").unwrap();
+    let report = derive(&ten, &ten.requests[0], &Options::default()).unwrap_err().render();
+    assert!(report.contains("115975 cases"), "{report}");
     let six = parse("six.spinfold", "space act: t u v w x y\nenergy | t u v w x y |\n").unwrap();
     assert!(derive(&six, &six.requests[0], &Options { max_cases: 202, ..Options::default() }).is_err());
     assert!(derive(&six, &six.requests[0], &Options { max_cases: 203, ..Options::default() }).is_ok());

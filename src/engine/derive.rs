@@ -33,8 +33,9 @@ pub struct Options {
     pub max_cases: usize,
 }
 
-/// The default of `Options::max_cases`.
-pub const MAX_CASES: usize = 1000;
+/// The default of `Options::max_cases`: 6 generic indices in each of two spaces (41209 cases)
+/// derive and verify in about 7 s, 9 in one space (21147) in about 10 s, on 2 cores.
+pub const MAX_CASES: usize = 50_000;
 
 /// The way to the energy of one configuration state function.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]

@@ -153,7 +153,8 @@ fn coincidence_cases_are_counted_before_any_is_derived() {
     let distinct = Options { distinct: true, ..Options::default() };
     assert!(derive(&program, &program.requests[0], &distinct).is_ok());
     // 10 indices of one space: B(10) = 115975 cases; the limit is adjustable
-    let ten = parse("ten.spinfold", "space act: t u v w x y z q r s\nenergy | t u v w x y z q r s |\n").unwrap();
+    let ten =
+        parse("ten.spinfold", "space act: t u v w x y z q r s\nenergy | t u v w x y z q r s |\n").unwrap();
     let report = derive(&ten, &ten.requests[0], &Options::default()).unwrap_err().render();
     assert!(report.contains("115975 cases"), "{report}");
     let six = parse("six.spinfold", "space act: t u v w x y\nenergy | t u v w x y |\n").unwrap();

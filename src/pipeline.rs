@@ -15,7 +15,7 @@ use crate::numbers::integrals::Integrals;
 use crate::numbers::optimize::Controls;
 use crate::numbers::optimize_request::{Optimized, optimize_request};
 use crate::numbers::settings::Settings;
-use crate::numbers::tabulate::{Evaluated, FreeValue, RootsOut, equal_text, tabulate};
+use crate::numbers::tabulate::{Evaluated, FreeValue, Omitted, RootsOut, equal_text, tabulate};
 use crate::numbers::transform::rotate_all;
 use itertools::Itertools;
 
@@ -333,17 +333,20 @@ pub fn results_text(results: &[Evaluated]) -> String {
                 coefficients(e)
             ));
         }
-        for o in &r.omitted {
-            let rows = if o.count == 1 { "row" } else { "rows" };
-            out.push_str(&format!(
-                "  left out: {} {rows} where {}: {}\n",
-                o.count,
-                equal_text(&o.equal),
-                o.reason
-            ));
-        }
+        out.push_str(&omitted_text(&r.omitted));
     }
     out
+}
+
+/// The `left out:` lines under a table: each group of rows without a value, and why.
+fn omitted_text(omitted: &[Omitted]) -> String {
+    omitted
+        .iter()
+        .map(|o| {
+            let rows = if o.count == 1 { "row" } else { "rows" };
+            format!("  left out: {} {rows} where {}: {}\n", o.count, equal_text(&o.equal), o.reason)
+        })
+        .collect()
 }
 
 /// The listed elements of a density: its symmetry, then `γ p q value` and `Γ p q r s value`
@@ -374,15 +377,7 @@ fn density_text(r: &Evaluated, density: &DensityValues) -> String {
             out.push_str(&format!("{indent}every element is zero\n"));
         }
     }
-    for o in &r.omitted {
-        let rows = if o.count == 1 { "row" } else { "rows" };
-        out.push_str(&format!(
-            "  left out: {} {rows} where {}: {}\n",
-            o.count,
-            equal_text(&o.equal),
-            o.reason
-        ));
-    }
+    out.push_str(&omitted_text(&r.omitted));
     out
 }
 

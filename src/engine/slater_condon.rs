@@ -14,8 +14,8 @@ use num_integer::Integer;
 use num_rational::BigRational;
 use num_traits::{ToPrimitive, Zero};
 use rayon::prelude::*;
-use rustc_hash::FxHashMap;
-use std::collections::{BTreeMap, BTreeSet};
+use rustc_hash::{FxHashMap, FxHashSet};
+use std::collections::BTreeMap;
 
 /// The explicit spatial orbitals of a request in one case, in canonical order: bit 2k is the
 /// alpha and bit 2k+1 the beta spin orbital of the k-th, so ascending bits are the normal order.
@@ -27,12 +27,13 @@ const ALPHA: u128 = 0x5555_5555_5555_5555_5555_5555_5555_5555;
 
 impl Universe {
     pub fn new<'a>(dets: impl Iterator<Item = &'a CaseDet>) -> Result<Universe> {
-        // a set, not a sorted list of every electron: large states repeat few orbitals many times
-        let orbs: Vec<Orb> = dets
+        // a hash set, not a sorted list of every electron: large states repeat few orbitals
+        let mut orbs: Vec<Orb> = dets
             .flat_map(|d| d.electrons.iter().map(|e| e.orb))
-            .collect::<BTreeSet<Orb>>()
+            .collect::<FxHashSet<Orb>>()
             .into_iter()
             .collect();
+        orbs.sort();
         if orbs.len() > 64 {
             return Err(Error::new(ErrorKind::TooLarge {
                 what: "this request occupies".into(),
@@ -74,9 +75,61 @@ struct Entry {
 pub struct BitState {
     entries: Vec<Entry>,
     denominator: BigInt,
-    by_alpha: FxHashMap<u128, Vec<usize>>,
-    by_beta: FxHashMap<u128, Vec<usize>>,
-    alpha_union: u128,
+    by_alpha: Groups,
+    by_beta: Groups,
+    /// Entries by their alpha string less one electron: two alpha strings one replacement apart
+    /// share exactly one such string, so a ket entry finds them in one lookup per alpha electron.
+    by_alpha_less_one: Groups,
+}
+
+/// Entries grouped by a key (a string of bits), each group's members stored together with their
+/// bits: the pair search reads a group as one run of memory instead of one entry at a time.
+struct Groups {
+    group_of: FxHashMap<u128, u32>,
+    /// group g holds members[start[g]..start[g + 1]]
+    start: Vec<usize>,
+    /// (bits, entry), entries ascending within a group
+    members: Vec<(u128, usize)>,
+}
+
+impl Groups {
+    /// `keys` gives the keys of an entry's bits (an entry may be in several groups).
+    fn new<K: Iterator<Item = u128>>(entries: &[Entry], keys: impl Fn(u128) -> K) -> Groups {
+        let mut group_of = FxHashMap::default();
+        let mut count: Vec<usize> = vec![];
+        let mut keyed: Vec<(u32, usize)> = Vec::with_capacity(entries.len());
+        for (k, e) in entries.iter().enumerate() {
+            for key in keys(e.bits) {
+                let next = count.len() as u32;
+                let g = *group_of.entry(key).or_insert(next);
+                if g == next {
+                    count.push(0);
+                }
+                count[g as usize] += 1;
+                keyed.push((g, k));
+            }
+        }
+        let start: Vec<usize> = std::iter::once(0)
+            .chain(count.iter().scan(0, |total, c| {
+                *total += c;
+                Some(*total)
+            }))
+            .collect();
+        let mut fill = start.clone();
+        let mut members = vec![(0, 0); keyed.len()];
+        for (g, k) in keyed {
+            members[fill[g as usize]] = (entries[k].bits, k);
+            fill[g as usize] += 1;
+        }
+        Groups { group_of, start, members }
+    }
+
+    fn get(&self, key: u128) -> &[(u128, usize)] {
+        match self.group_of.get(&key) {
+            Some(&g) => &self.members[self.start[g as usize]..self.start[g as usize + 1]],
+            None => &[],
+        }
+    }
 }
 
 impl BitState {
@@ -109,15 +162,11 @@ impl BitState {
                 entries.push(Entry { bits, a, r });
             }
         }
-        let (mut by_alpha, mut by_beta) =
-            (FxHashMap::<u128, Vec<usize>>::default(), FxHashMap::<u128, Vec<usize>>::default());
-        let mut alpha_union = 0;
-        for (k, e) in entries.iter().enumerate() {
-            by_alpha.entry(e.bits & ALPHA).or_default().push(k);
-            by_beta.entry(e.bits & !ALPHA).or_default().push(k);
-            alpha_union |= e.bits & ALPHA;
-        }
-        Ok(BitState { entries, denominator, by_alpha, by_beta, alpha_union })
+        let by_alpha = Groups::new(&entries, |bits| std::iter::once(bits & ALPHA));
+        let by_beta = Groups::new(&entries, |bits| std::iter::once(bits & !ALPHA));
+        let by_alpha_less_one =
+            Groups::new(&entries, |bits| ones(bits & ALPHA).map(move |m| bits & ALPHA & !(1 << m)));
+        Ok(BitState { entries, denominator, by_alpha, by_beta, by_alpha_less_one })
     }
 
     /// Every bra entry differing from ket entry `j` by at most two spin orbitals, each once:
@@ -129,39 +178,39 @@ impl BitState {
         let e = &ket.entries[j];
         let (alpha, beta) = (e.bits & ALPHA, e.bits & !ALPHA);
         // same alpha string: beta may differ by up to two
-        for &i in self.by_alpha.get(&alpha).into_iter().flatten() {
-            if (!half || i <= j) && differ(self.entries[i].bits & !ALPHA, beta) <= 2 {
+        for &(bits, i) in self.by_alpha.get(alpha) {
+            if (!half || i <= j) && differ(bits & !ALPHA, beta) <= 2 {
                 visit(i, j);
             }
         }
         // alpha strings one replacement away: beta may differ by up to one
-        let mut holes = self.alpha_union & !alpha;
-        while holes != 0 {
-            let p = holes.trailing_zeros();
-            holes &= holes - 1;
-            let mut occupied = alpha;
-            while occupied != 0 {
-                let m = occupied.trailing_zeros();
-                occupied &= occupied - 1;
-                let moved = alpha ^ (1 << m) ^ (1 << p);
-                if half && moved > alpha {
-                    continue;
-                }
-                for &i in self.by_alpha.get(&moved).into_iter().flatten() {
-                    if differ(self.entries[i].bits & !ALPHA, beta) <= 1 {
-                        visit(i, j);
-                    }
+        for m in ones(alpha) {
+            for &(bits, i) in self.by_alpha_less_one.get(alpha & !(1 << m)) {
+                let other = bits & ALPHA;
+                if other != alpha && (!half || other < alpha) && differ(bits & !ALPHA, beta) <= 1 {
+                    visit(i, j);
                 }
             }
         }
         // alpha strings two replacements away: beta must be the same
-        for &i in self.by_beta.get(&beta).into_iter().flatten() {
-            let other = self.entries[i].bits & ALPHA;
+        for &(bits, i) in self.by_beta.get(beta) {
+            let other = bits & ALPHA;
             if (!half || other < alpha) && differ(other, alpha) == 2 {
                 visit(i, j);
             }
         }
     }
+}
+
+/// The positions of the set bits, ascending.
+fn ones(mut bits: u128) -> impl Iterator<Item = u32> {
+    std::iter::from_fn(move || {
+        (bits != 0).then(|| {
+            let b = bits.trailing_zeros();
+            bits &= bits - 1;
+            b
+        })
+    })
 }
 
 /// (−1)^(number of occupied bits below `bit`).
@@ -401,9 +450,9 @@ pub fn hamiltonian(
 pub fn overlap(bra: &BitState, ket: &BitState) -> Exact {
     let mut sums: BTreeMap<u64, Sum> = BTreeMap::new();
     for (j, k) in ket.entries.iter().enumerate() {
-        for &i in bra.by_alpha.get(&(k.bits & ALPHA)).into_iter().flatten() {
+        for &(bits, i) in bra.by_alpha.get(k.bits & ALPHA) {
             let b = &bra.entries[i];
-            if b.bits == k.bits {
+            if bits == k.bits {
                 let ([x, y], g, root) = pair_weight(b, &ket.entries[j]);
                 sums.entry(root).or_default().add_product([x, y, g]);
             }

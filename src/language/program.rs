@@ -260,31 +260,46 @@ pub struct Symbols {
 
 impl Symbols {
     pub fn of<'a>(states: impl IntoIterator<Item = &'a State>) -> Symbols {
-        let mut out = Symbols::default();
+        // bit sets as it goes: a large state names few symbols millions of times
+        let (mut orbitals, mut indices, mut closed) = (IdSet::default(), IdSet::default(), IdSet::default());
         for state in states {
             for (_, det) in state.terms.iter() {
-                let mentioned = det.occupants.iter().filter_map(|o| match o {
+                let excited = det.excitations.iter().flat_map(|e| e.from.iter().chain(&e.to));
+                let electrons = det.occupants.iter().filter_map(|o| match o {
                     Occupant::Closed(s) => {
-                        out.closed.insert(*s);
+                        closed.insert(*s);
                         None
                     }
-                    Occupant::Electron(so) => Some(*so),
+                    Occupant::Electron(so) => Some(so),
                 });
-                let excited = det.excitations.iter().flat_map(|e| e.from.iter().chain(&e.to).copied());
-                for so in mentioned.collect::<Vec<_>>().into_iter().chain(excited) {
+                for so in electrons.chain(excited) {
                     match so.orb {
-                        Orb::Named(k) => {
-                            out.orbitals.insert(k);
-                        }
-                        Orb::Index(k) => {
-                            out.indices.insert(k);
-                        }
+                        Orb::Named(k) => orbitals.insert(k),
+                        Orb::Index(k) => indices.insert(k),
                         Orb::Summed(_) => {}
                     }
                 }
             }
         }
-        out
+        Symbols { orbitals: orbitals.members(), closed: closed.members(), indices: indices.members() }
+    }
+}
+
+/// A growable bit set of small ids.
+#[derive(Default)]
+struct IdSet(Vec<u64>);
+
+impl IdSet {
+    fn insert(&mut self, id: u32) {
+        let (word, bit) = (id as usize / 64, id % 64);
+        if word >= self.0.len() {
+            self.0.resize(word + 1, 0);
+        }
+        self.0[word] |= 1 << bit;
+    }
+
+    fn members(&self) -> BTreeSet<u32> {
+        (0..self.0.len() as u32 * 64).filter(|&k| self.0[k as usize / 64] >> (k % 64) & 1 == 1).collect()
     }
 }
 

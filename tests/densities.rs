@@ -243,3 +243,17 @@ fn eval_lists_one_density_per_assignment_of_unbound_indices() {
         }
     }
 }
+
+#[test]
+fn a_state_of_no_electrons_has_zero_densities_and_is_still_checked() {
+    // no orbital declared at all: the check compares the (zero) elements of one spare orbital
+    for input in ["density | |\n", "space occ: i\ndensity | |\n"] {
+        let program = parse("empty.spinfold", input).unwrap();
+        let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED)).unwrap();
+        let report = derived[0].1.as_ref().expect("checked");
+        assert!(report.checks > 0, "{input}: {} checks", report.checks);
+        let binding = Binding { orbitals: vec![], spaces: vec![vec![0]], indices: vec![None] };
+        let d = density_elements(&derived[0].0.value, &binding);
+        assert!(d.one.is_empty() && d.two.is_empty(), "{input}: no element is non-zero");
+    }
+}

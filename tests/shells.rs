@@ -93,3 +93,16 @@ fn eval_of_the_form_gives_the_energy() {
     assert!((value(3) - value(2)).abs() < 1e-10);
     assert!((value(2) - -74.548868456380).abs() < 1e-9);
 }
+
+#[test]
+fn a_state_of_no_electrons_has_no_shells_in_text_and_latex() {
+    let program = parse("empty.spinfold", "shells | |\n").unwrap();
+    let derived = derive_checked(&program, &Options::default(), Some(DEFAULT_SEED)).unwrap();
+    let form = derived[0].0.shells.as_deref().expect("a shells request has a form");
+    assert!(form.shells.is_empty() && form.f.is_empty());
+    let text = spinfold::render(&program, &derived, spinfold::Format::Text { ascii: true }).unwrap();
+    assert!(text.contains("in open shells: none; the state has no electrons"), "{text}");
+    // an array of no columns would not compile: the LaTeX says so in words instead
+    let latex = spinfold::render(&program, &derived, spinfold::Format::Latex { standalone: false }).unwrap();
+    assert!(latex.contains("In open shells: none") && !latex.contains("\\begin{array}"), "{latex}");
+}

@@ -296,7 +296,8 @@ fn density_comparisons(
         .chain(binding.spaces.iter().flatten())
         .chain(binding.indices.iter().flatten())
         .max()
-        .map_or(0, |m| m + 1);
+        // one orbital at least: a state of no electrons still has elements to compare (zeros)
+        .map_or(1, |m| m + 1);
     let (norm_bra, norm_ket) = (brute_force::dot(bra, bra), brute_force::dot(ket, ket));
     let (expected, scale) = match symmetry {
         // `density S` is normalized; a transition density is not

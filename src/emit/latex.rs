@@ -1010,6 +1010,9 @@ fn density_environment(d: &Derivation, symmetry: Symmetry, namer: &Namer) -> Str
 
 /// The tables of an open-shell form: f_s, a_st and b_st over the shells, under the energy.
 fn shell_tables(form: &ShellForm, namer: &Namer) -> String {
+    if form.shells.is_empty() {
+        return "\\noindent In open shells: none; the state has no electrons.\n".into();
+    }
     let names: Vec<String> = form
         .shells
         .iter()

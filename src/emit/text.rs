@@ -281,6 +281,9 @@ fn shell_lines(form: &ShellForm, namer: &Namer, style: &Style) -> String {
         let v = ExactDisplay { value: c, ascii: style.ascii }.to_string();
         if style.ascii { v } else { v.replacen('-', style.minus(), 1) }
     };
+    if form.shells.is_empty() {
+        return "  in open shells: none; the state has no electrons\n".into();
+    }
     let (sum, member) = (style.sigma(), style.member());
     let mut out = format!(
         "  in open shells: E = {sum}_s f_s h_ss + {sum}_{{s,t}} (a_st J_st + b_st K_st), over ordered pairs of shells\n"

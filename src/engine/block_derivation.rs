@@ -7,6 +7,7 @@ use crate::engine::expression::Expr;
 use crate::error::Result;
 use crate::language::block::Block;
 use crate::language::program::{Program, Request, RequestKind, Symbols};
+use rayon::prelude::*;
 use std::collections::BTreeMap;
 use std::sync::Arc;
 
@@ -89,8 +90,30 @@ pub fn derive_block(
 ) -> Result<Derivation> {
     let roots = request.kind == RequestKind::Roots;
     let pair_options = Options { distinct: options.distinct && !roots, ..options.clone() };
-    let pairs =
-        block.pairs.iter().map(|p| derive(program, &p.request, &pair_options)).collect::<Result<Vec<_>>>()?;
+    // each distinct pair once, in parallel; the first error in pair order is the one reported
+    let first = block.first_equal();
+    let derived: Vec<Option<Result<Derivation>>> = block
+        .pairs
+        .par_iter()
+        .enumerate()
+        .map(|(k, p)| (first[k] == k).then(|| derive(program, &p.request, &pair_options)))
+        .collect();
+    let mut pairs: Vec<Derivation> = Vec::with_capacity(derived.len());
+    for (k, d) in derived.into_iter().enumerate() {
+        let d = match d {
+            Some(d) => d?,
+            None => {
+                let r = &block.pairs[k].request;
+                Derivation {
+                    text: r.text.clone(),
+                    bra: r.bra_text.clone(),
+                    ket: r.ket_text.clone(),
+                    ..pairs[first[k]].clone()
+                }
+            }
+        };
+        pairs.push(d);
+    }
     let mut notes = vec![];
     if roots && options.distinct {
         notes.push(

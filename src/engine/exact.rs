@@ -250,13 +250,26 @@ impl Neg for Exact {
 impl Mul for &Exact {
     type Output = Exact;
     fn mul(self, other: &Exact) -> Exact {
+        // ±1, the weight of most terms of the rules, costs no big-number arithmetic
+        for (unit, x) in [(self, other), (other, self)] {
+            if let [(1, q)] = unit.parts.as_slice()
+                && q.is_integer()
+                && q.numer().magnitude().is_one()
+            {
+                return if q.is_positive() { x.clone() } else { -x.clone() };
+            }
+        }
         let mut out = Exact::zero();
         for (a, p) in &self.parts {
             for (b, q) in &other.parts {
                 // √a √b = g √(ab/g²) for square-free a, b with g = gcd(a, b)
                 let g = a.gcd(b);
                 let radicand = (a / g) * (b / g);
-                out.add_part(radicand, p * q * BigRational::from_integer(BigInt::from(g)));
+                let pq = p * q;
+                out.add_part(
+                    radicand,
+                    if g == 1 { pq } else { pq * BigRational::from_integer(BigInt::from(g)) },
+                );
             }
         }
         out

@@ -4,6 +4,8 @@
 use crate::engine::exact::Exact;
 use crate::language::orbital::{Orb, SpaceId, SpaceSet};
 use itertools::Itertools;
+use num_bigint::BigInt;
+use num_rational::BigRational;
 use std::cmp::Reverse;
 use std::collections::BTreeMap;
 
@@ -226,6 +228,12 @@ impl Expr {
         Expr { terms }
     }
 
+    /// Terms whose coefficients are small rationals (the rules' own) times an integer weight
+    /// times √root, collected with integer arithmetic: see `WeightedTerms`.
+    pub fn weighted() -> WeightedTerms {
+        WeightedTerms::default()
+    }
+
     pub fn constant(value: Exact) -> Expr {
         Expr::from_terms([Term::new(value, Factor::One)])
     }
@@ -269,6 +277,36 @@ impl Expr {
         out.sort();
         out.dedup();
         out
+    }
+}
+
+/// Terms being collected as (rational) × integer weight × √root: per term and root, one integer
+/// sum per denominator met, so that adding costs no gcd; exact numbers are formed once, by
+/// `finish`. The Slater–Condon sums add many weights into few terms this way.
+#[derive(Default)]
+pub struct WeightedTerms {
+    sums: BTreeMap<(Shape, u64), Vec<(BigInt, BigInt)>>,
+}
+
+impl WeightedTerms {
+    /// Adds `term` (a rational coefficient) × `weight` × √`root`, `root` square-free.
+    pub fn add(&mut self, term: &Term, weight: &BigInt, root: u64) {
+        let q = term.coeff.as_rational().expect("the rules' coefficients are rational");
+        let by_denominator = self.sums.entry((term.shape(), root)).or_default();
+        let numerator = q.numer() * weight;
+        match by_denominator.iter_mut().find(|(d, _)| d == q.denom()) {
+            Some((_, sum)) => *sum += numerator,
+            None => by_denominator.push((q.denom().clone(), numerator)),
+        }
+    }
+
+    /// The collected terms, every coefficient multiplied by `scale`.
+    pub fn finish(self, scale: &BigRational) -> Expr {
+        Expr::from_terms(self.sums.into_iter().map(|(((deltas, sums, factor), root), by_denominator)| {
+            let total: BigRational =
+                by_denominator.into_iter().map(|(d, n)| BigRational::new(n, d)).sum::<BigRational>() * scale;
+            Term { coeff: Exact::monomial(total, root), deltas, sums, factor }
+        }))
     }
 }
 

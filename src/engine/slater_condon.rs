@@ -415,16 +415,15 @@ pub fn hamiltonian(
         })
         .reduce(Accumulator::new, Accumulator::merge);
     let scale = BigRational::new(BigInt::from(1), &bra.denominator * &ket.denominator);
-    let mut terms = vec![];
+    let mut terms = Expr::weighted();
     let mut emit = |key: Key, root: u64, total: BigInt| {
         if total.is_zero() {
             return;
         }
-        let root = Exact::sqrt_of_rational(&BigRational::from_integer(root.into()))
-            .expect("square-free roots are small");
-        let weight = &Exact::rational(BigRational::from_integer(total) * &scale) * &root;
         for raw in contributions(key, universe, closed).into_iter().flat_map(|r| operator.terms(r)) {
-            terms.extend(RawTerm { coeff: &raw.coeff * &weight, ..raw }.expand());
+            for term in raw.expand() {
+                terms.add(&term, &total, root);
+            }
         }
     };
     for (&root, d) in &acc.diagonal {
@@ -443,7 +442,7 @@ pub fn hamiltonian(
     for ((key, root), sum) in keyed {
         emit(key, root, sum.total());
     }
-    Expr::from_terms(terms)
+    terms.finish(&scale)
 }
 
 /// <bra|ket>.

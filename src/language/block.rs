@@ -98,6 +98,21 @@ impl Block {
         used
     }
 
+    /// For each pair, the first pair asking the same (an operand listed twice gives equal
+    /// pairs): that pair's own position when it is the first.
+    pub fn first_equal(&self) -> Vec<usize> {
+        let mut first: Vec<usize> = Vec::with_capacity(self.pairs.len());
+        for (k, p) in self.pairs.iter().enumerate() {
+            let r = &p.request;
+            let equal = self.pairs[..k]
+                .iter()
+                .map(|o| &o.request)
+                .position(|o| o.kind == r.kind && o.bra == r.bra && o.ket == r.ket);
+            first.push(equal.map_or(k, |e| first[e]));
+        }
+        first
+    }
+
     /// The fixed bra and ket that the functions sum to with the free coefficients set to
     /// `values` (a fixed part keeps its weight 1).
     pub fn states_at(&self, values: &BTreeMap<u32, Exact>) -> (State, State) {

@@ -13,6 +13,9 @@ pub struct Case {
     /// (index, representative), ascending by index.
     representative: Vec<(u32, u32)>,
     extracted: BTreeMap<SpaceId, Vec<Orb>>,
+    /// Which pairs of its indices share a block, as bits: pair (i, j), i < j positions in
+    /// `representative`, at bit j(j − 1)/2 + i. Set by `cases`.
+    together: Vec<u64>,
 }
 
 impl Case {
@@ -46,11 +49,25 @@ impl Case {
             .collect()
     }
 
-    /// True when every block of `self` lies inside a block of `coarser`.
+    /// True when every block of `self` lies inside a block of `coarser` (two cases of one
+    /// `cases` call): its pairs of equal indices are among those of `coarser`. A bit test, since
+    /// the assembly asks it of every pair of cases.
     pub fn refines(&self, coarser: &Case) -> bool {
-        self.representative
-            .iter()
-            .all(|&(k, mine)| coarser.representative_of(mine) == coarser.representative_of(k))
+        self.together.iter().zip(&coarser.together).all(|(mine, theirs)| mine & !theirs == 0)
+    }
+
+    fn with_pairs_together(mut self) -> Case {
+        let n = self.representative.len();
+        self.together = vec![0; (n * n.saturating_sub(1) / 2).div_ceil(64)];
+        for j in 0..n {
+            for i in 0..j {
+                if self.representative[i].1 == self.representative[j].1 {
+                    let bit = j * (j - 1) / 2 + i;
+                    self.together[bit / 64] |= 1 << (bit % 64);
+                }
+            }
+        }
+        self
     }
 
     pub fn block_count(&self) -> usize {
@@ -93,7 +110,8 @@ pub fn cases(used: &BTreeMap<SpaceId, Vec<u32>>, closed: &[SpaceId], distinct: b
             },
         )
         .collect();
-    let mut out: Vec<Case> = vec![Case { representative: vec![], extracted: BTreeMap::new() }];
+    let mut out: Vec<Case> =
+        vec![Case { representative: vec![], extracted: BTreeMap::new(), together: vec![] }];
     for (space_choices, (&space, _)) in per_space.iter().zip(used) {
         let mut next = vec![];
         for case in &out {
@@ -113,7 +131,7 @@ pub fn cases(used: &BTreeMap<SpaceId, Vec<u32>>, closed: &[SpaceId], distinct: b
         out = next;
     }
     out.sort_by_key(|c| std::cmp::Reverse(c.block_count()));
-    out
+    out.into_iter().map(Case::with_pairs_together).collect()
 }
 
 /// How many cases `cases` makes, without making them: the product over spaces of the Bell
@@ -162,6 +180,28 @@ mod tests {
         assert_eq!(count(&used, false), BigUint::from(cases(&used, &[0], false).len()));
         assert_eq!(count(&used, false), BigUint::from(5u32 * 2 * 15));
         assert_eq!(count(&used, true), BigUint::from(cases(&used, &[], true).len()));
+    }
+
+    #[test]
+    fn refinement_is_blocks_inside_blocks() {
+        // the definition, read off the representatives, against the bit test, for every pair
+        // of cases of two spaces (one of four indices, one of three)
+        let used = BTreeMap::from([(0, vec![0, 1, 2, 3]), (1, vec![4, 5, 6])]);
+        let all = cases(&used, &[], false);
+        let by_definition = |fine: &Case, coarse: &Case| {
+            fine.representative
+                .iter()
+                .all(|&(k, mine)| coarse.representative_of(mine) == coarse.representative_of(k))
+        };
+        let mut refining = 0;
+        for fine in &all {
+            for coarse in &all {
+                assert_eq!(fine.refines(coarse), by_definition(fine, coarse), "{fine:?} {coarse:?}");
+                refining += usize::from(fine.refines(coarse));
+            }
+        }
+        // pairs (finer, coarser) of partitions: 60 for four items, 12 for three (from memory)
+        assert_eq!(refining, 60 * 12);
     }
 
     #[test]

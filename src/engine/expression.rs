@@ -300,11 +300,17 @@ impl WeightedTerms {
         }
     }
 
-    /// The collected terms, every coefficient multiplied by `scale`.
-    pub fn finish(self, scale: &BigRational) -> Expr {
+    /// The collected terms, every coefficient divided by `divisor`.
+    pub fn finish(self, divisor: &BigInt) -> Expr {
         Expr::from_terms(self.sums.into_iter().map(|(((deltas, sums, factor), root), by_denominator)| {
-            let total: BigRational =
-                by_denominator.into_iter().map(|(d, n)| BigRational::new(n, d)).sum::<BigRational>() * scale;
+            // one reduction for the usual single denominator
+            let total = match <[_; 1]>::try_from(by_denominator) {
+                Ok([(d, n)]) => BigRational::new(n, d * divisor),
+                Err(many) => {
+                    many.into_iter().map(|(d, n)| BigRational::new(n, d)).sum::<BigRational>()
+                        / BigRational::from_integer(divisor.clone())
+                }
+            };
             Term { coeff: Exact::monomial(total, root), deltas, sums, factor }
         }))
     }

@@ -271,6 +271,8 @@ enum Key {
 struct Accumulator {
     keyed: FxHashMap<(Key, u64), Sum>,
     diagonal: BTreeMap<u64, Diagonal>,
+    /// The spin orbitals of the universe: the diagonal arrays' size.
+    width: usize,
 }
 
 /// The diagonal contributions of one square root: the closed spaces' own energy, each occupied
@@ -281,17 +283,15 @@ struct Diagonal {
     pair: Vec<Sum>,
 }
 
-const BITS: usize = 128;
-
 /// The fewest ket entries one thread takes at a time: enough to outweigh an accumulator's setup.
 const PAIRS_CHUNK: usize = 2048;
 
 impl Diagonal {
-    fn new() -> Diagonal {
+    fn new(width: usize) -> Diagonal {
         Diagonal {
             core: Sum::default(),
-            single: vec![Sum::default(); BITS],
-            pair: vec![Sum::default(); BITS * BITS],
+            single: vec![Sum::default(); width],
+            pair: vec![Sum::default(); width * width],
         }
     }
 
@@ -315,15 +315,16 @@ impl Diagonal {
             while n_bits != 0 {
                 let n = n_bits.trailing_zeros();
                 n_bits &= n_bits - 1;
-                self.pair[m as usize * BITS + n as usize].add_product(w);
+                self.pair[m as usize * self.single.len() + n as usize].add_product(w);
             }
         }
     }
 }
 
 impl Accumulator {
-    fn new() -> Accumulator {
-        Accumulator { keyed: FxHashMap::default(), diagonal: BTreeMap::new() }
+    /// Sized to the universe: a case of a few orbitals sets up and reads a few sums only.
+    fn new(universe: &Universe) -> Accumulator {
+        Accumulator { keyed: FxHashMap::default(), diagonal: BTreeMap::new(), width: 2 * universe.orbs.len() }
     }
 
     fn add(&mut self, key: Key, root: u64, weight: [i128; 3]) {
@@ -352,7 +353,9 @@ impl Accumulator {
         let g = g * times;
         let (only_bra, only_ket) = (b.bits & !k.bits, k.bits & !b.bits);
         match only_bra.count_ones() {
-            0 => self.diagonal.entry(root).or_insert_with(Diagonal::new).add(b.bits, [x, y, g]),
+            0 => {
+                self.diagonal.entry(root).or_insert_with(|| Diagonal::new(self.width)).add(b.bits, [x, y, g])
+            }
             1 => {
                 let (m, p) = (only_bra.trailing_zeros(), only_ket.trailing_zeros());
                 // |bra> = s a+(m) a(p) |ket>
@@ -407,14 +410,16 @@ pub fn hamiltonian(
     let acc = (0..ket.entries.len())
         .into_par_iter()
         .with_min_len(PAIRS_CHUNK)
-        .fold(Accumulator::new, |mut acc, j| {
-            bra.interacting(ket, j, half, |i, j| {
-                acc.visit(&bra.entries[i], &ket.entries[j], if half && i != j { 2 } else { 1 })
-            });
-            acc
-        })
-        .reduce(Accumulator::new, Accumulator::merge);
-    let scale = BigRational::new(BigInt::from(1), &bra.denominator * &ket.denominator);
+        .fold(
+            || Accumulator::new(universe),
+            |mut acc, j| {
+                bra.interacting(ket, j, half, |i, j| {
+                    acc.visit(&bra.entries[i], &ket.entries[j], if half && i != j { 2 } else { 1 })
+                });
+                acc
+            },
+        )
+        .reduce(|| Accumulator::new(universe), Accumulator::merge);
     let mut terms = Expr::weighted();
     let mut emit = |key: Key, root: u64, total: BigInt| {
         if total.is_zero() {
@@ -428,12 +433,13 @@ pub fn hamiltonian(
     };
     for (&root, d) in &acc.diagonal {
         emit(Key::Core, root, d.core.total());
-        for m in 0..BITS as u32 {
-            let total = d.single[m as usize].total();
-            emit(Key::One(m, m), root, total.clone());
-            emit(Key::ClosedOne(m, m), root, total);
-            for n in m + 1..BITS as u32 {
-                emit(Key::Two(m, n, m, n), root, d.pair[m as usize * BITS + n as usize].total());
+        let width = d.single.len();
+        for m in 0..width {
+            let total = d.single[m].total();
+            emit(Key::One(m as u32, m as u32), root, total.clone());
+            emit(Key::ClosedOne(m as u32, m as u32), root, total);
+            for n in m + 1..width {
+                emit(Key::Two(m as u32, n as u32, m as u32, n as u32), root, d.pair[m * width + n].total());
             }
         }
     }
@@ -442,7 +448,7 @@ pub fn hamiltonian(
     for ((key, root), sum) in keyed {
         emit(key, root, sum.total());
     }
-    terms.finish(&scale)
+    terms.finish(&(&bra.denominator * &ket.denominator))
 }
 
 /// <bra|ket>.

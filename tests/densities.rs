@@ -12,13 +12,7 @@ use spinfold::{
 };
 use std::process::Command;
 
-const STATES: &str = "\
-orbitals a b
-space core
-det closed = | core^2 a^2 |
-det triplet = | core^2 a b |
-state singlet = (| core^2 a b' | - | core^2 a' b |)/sqrt(2)
-";
+use common::TWO_SHELL_STATES as STATES;
 
 /// The densities of each request of `requests` over STATES, numbered under a = 0, b = 1 and
 /// the core {2, 3}.

@@ -2,16 +2,12 @@
 //! b_st K_st) over ordered pairs of shells, a closed space counting as one shell; energies
 //! outside the form are refused with the first term that does not fit.
 
+mod common;
+
 use spinfold::{DEFAULT_SEED, ErrorKind, Exact, Options, Shell, ShellForm, derive_checked, parse};
 use std::process::Command;
 
-const STATES: &str = "\
-orbitals a b
-space core
-det closed = | core^2 a^2 |
-det triplet = | core^2 a b |
-state singlet = (| core^2 a b' | - | core^2 a' b |)/sqrt(2)
-";
+use common::TWO_SHELL_STATES as STATES;
 
 fn form(request: &str) -> ShellForm {
     let program = parse("shells.spinfold", &format!("{STATES}{request}\n")).unwrap();

@@ -11,7 +11,6 @@ use crate::language::program::{Program, Request, RequestKind};
 use itertools::Itertools;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
-use rayon::prelude::*;
 use std::collections::BTreeMap;
 
 /// How many random sets of values the free coefficients are checked at.
@@ -94,25 +93,7 @@ pub fn verify_block(
             verify(program, request, d, seed)
         }
     };
-    // each distinct pair once (equal pairs have equal reports), in parallel; the first failure
-    // in pair order is the one reported
-    let first = block.block.first_equal();
-    let checked: Vec<Option<Result<Report>>> = block
-        .block
-        .pairs
-        .par_iter()
-        .zip(&block.pairs)
-        .enumerate()
-        .map(|(k, (pair, d))| (first[k] == k).then(|| check(&pair.request, d, seed)))
-        .collect();
-    let mut pairs: Vec<Report> = Vec::with_capacity(checked.len());
-    for (k, r) in checked.into_iter().enumerate() {
-        let r = match r {
-            Some(r) => r?,
-            None => pairs[first[k]].clone(),
-        };
-        pairs.push(r);
-    }
+    let pairs = block.block.each_pair(|k, pair| check(&pair.request, &block.pairs[k], seed))?;
     let mut assembled = vec![];
     let kind = if request.kind == RequestKind::Overlap { RequestKind::Overlap } else { RequestKind::Element };
     if request.kind != RequestKind::Roots {

@@ -3,7 +3,8 @@
 //! radicals, and every piece of the input rendered so that it cannot inject TeX.
 
 use super::{
-    Definitions, Group, Namer, Summand, groups, integral_parts, monomial_text, summands, verification_line,
+    Definitions, Group, Namer, Summand, groups, integral_parts, monomial_text, sum_runs, summands,
+    verification_line,
 };
 use crate::check::verify::Report;
 use crate::engine::block_derivation::BlockDerivation;
@@ -12,6 +13,7 @@ use crate::engine::derive::Derivation;
 use crate::engine::exact::Exact;
 use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
 use crate::engine::shells::{Shell, ShellForm};
+use crate::language::orbital::SpaceId;
 use crate::language::program::{Program, RequestKind};
 use num_traits::{One, Signed};
 
@@ -140,6 +142,17 @@ struct Piece {
     inside: bool,
 }
 
+/// `k,l \in \mathrm{occ}` for each run of summation indices over one space.
+fn bounds(sums: &[SpaceId], summed: &[String], namer: &Namer) -> Vec<String> {
+    sum_runs(sums, summed)
+        .into_iter()
+        .map(|(names, space)| {
+            let names: Vec<String> = names.into_iter().map(name).collect();
+            format!(r"{} \in {}", names.join(","), upright(namer.space(space)))
+        })
+        .collect()
+}
+
 /// The deltas and sums in front of a group: `\delta_{ij}\sum_{k,l \in \mathrm{occ}}`.
 fn prefix(g: &Group, namer: &Namer, summed: &[String]) -> String {
     let o = |x| namer.orb(x, summed);
@@ -147,18 +160,11 @@ fn prefix(g: &Group, namer: &Namer, summed: &[String]) -> String {
     for &(a, b) in g.deltas {
         prefix.push_str(&format!(r"\delta{}", subscript(&[o(a), o(b)])));
     }
-    let mut k = 0;
-    while k < g.sums.len() {
-        let mut names = vec![name(&summed[k])];
-        while k + 1 < g.sums.len() && g.sums[k + 1] == g.sums[k] {
-            k += 1;
-            names.push(name(&summed[k]));
-        }
+    for bound in bounds(g.sums, summed, namer) {
         if !prefix.is_empty() {
             prefix.push(' ');
         }
-        prefix.push_str(&format!(r"\sum_{{{} \in {}}}", names.join(","), upright(namer.space(g.sums[k]))));
-        k += 1;
+        prefix.push_str(&format!(r"\sum_{{{bound}}}"));
     }
     prefix
 }
@@ -978,16 +984,7 @@ fn density_environment(d: &Derivation, symmetry: Symmetry, namer: &Namer) -> Str
             let o = |x| name(&namer.orb(x, &summed));
             let mut conditions: Vec<String> =
                 t.deltas.iter().map(|&(a, b)| format!("{} = {}", o(a), o(b))).collect();
-            let mut j = 0;
-            while j < t.sums.len() {
-                let mut names = vec![name(&summed[j])];
-                while j + 1 < t.sums.len() && t.sums[j + 1] == t.sums[j] {
-                    j += 1;
-                    names.push(name(&summed[j]));
-                }
-                conditions.push(format!(r"{} \in {}", names.join(","), upright(namer.space(t.sums[j]))));
-                j += 1;
-            }
+            conditions.extend(bounds(&t.sums, &summed, namer));
             let condition = if conditions.is_empty() {
                 String::new()
             } else {

@@ -83,6 +83,20 @@ pub fn monomial_text(coefficients: &[String], square: &dyn Fn(&str) -> String, j
     out.join(joint)
 }
 
+/// The summation indices of a term in runs over one space, each run with the names its indices
+/// have: sums over (occ, occ, vir) named k, l, a give ([k, l], occ) and ([a], vir), written
+/// Σ_{k,l∈occ} Σ_{a∈vir} or `for k,l ∈ occ, a ∈ vir`.
+pub fn sum_runs<'a>(sums: &[SpaceId], summed: &'a [String]) -> Vec<(Vec<&'a str>, SpaceId)> {
+    let mut runs: Vec<(Vec<&str>, SpaceId)> = vec![];
+    for (&space, name) in sums.iter().zip(summed) {
+        match runs.last_mut() {
+            Some((names, last)) if *last == space => names.push(name),
+            _ => runs.push((vec![name], space)),
+        }
+    }
+    runs
+}
+
 /// The letters summation indices take when a space's own letters do not serve: k, l, m, n,
 /// then k1, l1, m1, n1, k2, …
 fn letters() -> impl Iterator<Item = String> {

@@ -2,8 +2,8 @@
 //! terms per line, in Unicode or plain ASCII.
 
 use super::{
-    Definitions, Group, Namer, Summand, groups, integral_parts, join_signed, monomial_text, summands,
-    verification_line,
+    Definitions, Group, Namer, Summand, groups, integral_parts, join_signed, monomial_text, sum_runs,
+    summands, verification_line,
 };
 use crate::check::verify::Report;
 use crate::engine::block_derivation::BlockDerivation;
@@ -13,6 +13,7 @@ use crate::engine::exact::{Exact, ExactDisplay};
 use crate::engine::expression::{Expr, Factor, IntegralKind, Term};
 use crate::engine::shells::{Shell, ShellForm};
 use crate::language::block::renaming_text;
+use crate::language::orbital::SpaceId;
 use crate::language::program::{Program, RequestKind};
 
 struct Style {
@@ -124,18 +125,11 @@ fn group_text(group: &Group, namer: &Namer, style: &Style) -> (bool, String) {
         prefix.push_str(&format!("{}_{} ", style.delta(), subscript(&[o(a), o(b)])));
     }
     if !group.sums.is_empty() {
-        let mut bounds = vec![];
-        let mut k = 0;
-        while k < group.sums.len() {
-            let mut names = vec![summed[k].clone()];
-            while k + 1 < group.sums.len() && group.sums[k + 1] == group.sums[k] {
-                k += 1;
-                names.push(summed[k].clone());
-            }
-            bounds.push(format!("{}{}{}", names.join(","), style.member(), namer.space(group.sums[k])));
-            k += 1;
-        }
-        prefix.push_str(&format!("{}_{{{}}} ", style.sigma(), bounds.join(",")));
+        prefix.push_str(&format!(
+            "{}_{{{}}} ",
+            style.sigma(),
+            bounds(group.sums, &summed, namer, style).join(",")
+        ));
     }
     let body = |t: &Term| factor_text(&t.factor, namer, &summed, style);
     if group.terms.len() == 1 {
@@ -227,6 +221,14 @@ pub fn term_text(program: &Program, term: &Term) -> String {
     expression_lines(&expr, &namer, &Style { ascii: false }).join(" ").trim_start_matches("= ").to_string()
 }
 
+/// `k,l∈occ` for each run of summation indices over one space.
+fn bounds(sums: &[SpaceId], summed: &[String], namer: &Namer, style: &Style) -> Vec<String> {
+    sum_runs(sums, summed)
+        .into_iter()
+        .map(|(names, space)| format!("{}{}{}", names.join(","), style.member(), namer.space(space)))
+        .collect()
+}
+
 /// `for k,l ∈ core: ` and `if i = j: ` in front of a density element.
 fn condition(term: &Term, namer: &Namer, summed: &[String], style: &Style) -> String {
     let o = |x| namer.orb(x, summed);
@@ -236,18 +238,7 @@ fn condition(term: &Term, namer: &Namer, summed: &[String], style: &Style) -> St
         out.push_str(&format!("if {}: ", equal.join(", ")));
     }
     if !term.sums.is_empty() {
-        let mut bounds = vec![];
-        let mut k = 0;
-        while k < term.sums.len() {
-            let mut names = vec![summed[k].clone()];
-            while k + 1 < term.sums.len() && term.sums[k + 1] == term.sums[k] {
-                k += 1;
-                names.push(summed[k].clone());
-            }
-            bounds.push(format!("{}{}{}", names.join(","), style.member(), namer.space(term.sums[k])));
-            k += 1;
-        }
-        out.push_str(&format!("for {}: ", bounds.join(", ")));
+        out.push_str(&format!("for {}: ", bounds(&term.sums, summed, namer, style).join(", ")));
     }
     out
 }

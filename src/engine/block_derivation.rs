@@ -7,7 +7,6 @@ use crate::engine::expression::Expr;
 use crate::error::Result;
 use crate::language::block::Block;
 use crate::language::program::{Program, Request, RequestKind, Symbols};
-use rayon::prelude::*;
 use std::collections::BTreeMap;
 use std::sync::Arc;
 
@@ -90,29 +89,11 @@ pub fn derive_block(
 ) -> Result<Derivation> {
     let roots = request.kind == RequestKind::Roots;
     let pair_options = Options { distinct: options.distinct && !roots, ..options.clone() };
-    // each distinct pair once, in parallel; the first error in pair order is the one reported
-    let first = block.first_equal();
-    let derived: Vec<Option<Result<Derivation>>> = block
-        .pairs
-        .par_iter()
-        .enumerate()
-        .map(|(k, p)| (first[k] == k).then(|| derive(program, &p.request, &pair_options)))
-        .collect();
-    let mut pairs: Vec<Derivation> = Vec::with_capacity(derived.len());
-    for (k, d) in derived.into_iter().enumerate() {
-        let d = match d {
-            Some(d) => d?,
-            None => {
-                let r = &block.pairs[k].request;
-                Derivation {
-                    text: r.text.clone(),
-                    bra: r.bra_text.clone(),
-                    ket: r.ket_text.clone(),
-                    ..pairs[first[k]].clone()
-                }
-            }
-        };
-        pairs.push(d);
+    let mut pairs = block.each_pair(|_, p| derive(program, &p.request, &pair_options))?;
+    // a copy made for an equal pair still names the pair it was derived for
+    for (d, p) in pairs.iter_mut().zip(&block.pairs) {
+        (d.text, d.bra, d.ket) =
+            (p.request.text.clone(), p.request.bra_text.clone(), p.request.ket_text.clone());
     }
     let mut notes = vec![];
     if roots && options.distinct {

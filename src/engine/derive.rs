@@ -301,12 +301,13 @@ fn case_states(
     request: &Request,
     case: &Case,
     finest: bool,
+    expectation: bool,
 ) -> Result<(CaseState, Option<CaseState>)> {
     let build = |state: &State, label: &str| {
         case_state(state, case).map_err(|why| vanishing_error(program, request, why, label))
     };
     // an expectation value builds its state once; None stands for a ket equal to the bra
-    let ket = (request.ket != request.bra).then(|| build(&request.ket, &request.ket_text));
+    let ket = (!expectation).then(|| build(&request.ket, &request.ket_text));
     match (build(&request.bra, &request.bra_text), ket.transpose()) {
         (Ok(b), Ok(k)) => Ok((b, k)),
         (Err(e), _) | (_, Err(e)) if finest => Err(e),
@@ -354,12 +355,11 @@ fn case_channels(
     request: &Request,
     case: &Case,
     finest: bool,
-    (bra, ket): (&CaseState, &CaseState),
+    (bra, ket): (&CaseState, Option<&CaseState>),
     notes: &mut Vec<String>,
 ) -> Result<[Option<Expr>; 3]> {
-    let closed: Vec<RestrictedSum> = bra
-        .keys()
-        .chain(ket.keys())
+    let all_dets = || bra.keys().chain(ket.into_iter().flat_map(|k| k.keys()));
+    let closed: Vec<RestrictedSum> = all_dets()
         .next()
         .map(|d| {
             d.closed
@@ -369,15 +369,12 @@ fn case_channels(
         })
         .unwrap_or_default();
     let with_span = |e: Error| Error { span: Some(request.span.clone()), ..e };
-    let universe = Universe::new(bra.keys().chain(ket.keys())).map_err(with_span)?;
+    let universe = Universe::new(all_dets()).map_err(with_span)?;
     let bra_bits = BitState::new(bra, &universe).map_err(with_span)?;
-    let ket_bits = if request.bra == request.ket {
-        None
-    } else {
-        Some(BitState::new(ket, &universe).map_err(with_span)?)
-    };
+    let ket_bits = ket.map(|k| BitState::new(k, &universe)).transpose().map_err(with_span)?;
     let ket_bits = ket_bits.as_ref().unwrap_or(&bra_bits);
-    let s = Expr::constant(slater_condon::overlap(&bra_bits, ket_bits));
+    let overlap = slater_condon::overlap(&bra_bits, ket_bits);
+    let s = Expr::constant(overlap.clone());
     let mut vanishes = || {
         notes.push(format!(
             "the state vanishes when {}; the expression does not apply there",
@@ -396,30 +393,29 @@ fn case_channels(
                 None,
             ]
         }
-        // a `shells` request is derived as the energy it reads
-        RequestKind::Energy | RequestKind::Density | RequestKind::Shells => {
-            match slater_condon::overlap(&bra_bits, &bra_bits).inverse() {
-                Some(inverse) => [
-                    Some(
-                        slater_condon::hamiltonian(
-                            &bra_bits,
-                            &bra_bits,
-                            &universe,
-                            &closed,
-                            operator(request.kind),
-                        )
-                        .scaled(&inverse),
-                    ),
-                    Some(s),
-                    None,
-                ],
-                None if finest => return Err(zero_norm()),
-                None => {
-                    vanishes();
-                    [None, Some(s), None]
-                }
+        // a `shells` request is derived as the energy it reads; these take one state, so the
+        // overlap is its norm
+        RequestKind::Energy | RequestKind::Density | RequestKind::Shells => match overlap.inverse() {
+            Some(inverse) => [
+                Some(
+                    slater_condon::hamiltonian(
+                        &bra_bits,
+                        &bra_bits,
+                        &universe,
+                        &closed,
+                        operator(request.kind),
+                    )
+                    .scaled(&inverse),
+                ),
+                Some(s),
+                None,
+            ],
+            None if finest => return Err(zero_norm()),
+            None => {
+                vanishes();
+                [None, Some(s), None]
             }
-        }
+        },
         RequestKind::Spin => match spin_values(bra) {
             Some(v) => {
                 notes.extend(spin_warning(program, request, case, finest, &v));
@@ -525,19 +521,21 @@ pub fn derive(program: &Program, request: &Request, options: &Options) -> Result
     let mut vanishing = vec![];
     let mut mobius = Mobius::default();
     let mut closed_set = SpaceSet::default();
+    let expectation = request.ket == request.bra;
     for (n, case) in cases.iter().enumerate() {
         let finest = n == 0;
-        let (bra, ket) = case_states(program, request, case, finest)?;
-        let ket = ket.as_ref().unwrap_or(&bra);
+        let (bra, ket) = case_states(program, request, case, finest, expectation)?;
+        let ket_or_bra = ket.as_ref().unwrap_or(&bra);
         if finest {
-            closed_set = check_finest(program, request, &bra, ket)?;
+            closed_set = check_finest(program, request, &bra, ket_or_bra)?;
         }
-        let empty =
-            [(&bra, &request.bra_text), (ket, &request.ket_text)].into_iter().find(|(s, _)| s.is_empty());
+        let empty = [(&bra, &request.bra_text), (ket_or_bra, &request.ket_text)]
+            .into_iter()
+            .find(|(s, _)| s.is_empty());
         if let Some((_, label)) = empty.filter(|_| !finest) {
             vanishing.push(VanishingCase { equal: equal_blocks(case), state: label.clone() });
         }
-        let channels = case_channels(program, request, case, finest, (&bra, ket), &mut notes)?;
+        let channels = case_channels(program, request, case, finest, (&bra, ket.as_ref()), &mut notes)?;
         mobius.add(case, channels);
     }
     let [mut value, mut overlap_expr, s_z] = mobius.assemble();

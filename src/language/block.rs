@@ -2,9 +2,10 @@
 //! coefficients (pairs of their parts), and the matrix elements of a `roots` space (pairs of its operands).
 
 use crate::engine::exact::Exact;
-use crate::error::{Change, Error, ErrorKind, Limit, Span};
+use crate::error::{Change, Error, ErrorKind, Limit, Result, Span};
 use crate::language::orbital::Orb;
 use crate::language::program::{Index, Linear, Program, Request, RequestKind, State, Symbols};
+use rayon::prelude::*;
 use std::collections::{BTreeMap, BTreeSet};
 
 /// The most functions one block may have: operands of a `roots` request, or parts of a state
@@ -98,9 +99,10 @@ impl Block {
         used
     }
 
-    /// For each pair, the first pair asking the same (an operand listed twice gives equal
-    /// pairs): that pair's own position when it is the first.
-    pub fn first_equal(&self) -> Vec<usize> {
+    /// `f` of every pair (with its position), in pair order. Equal pairs (an operand listed
+    /// twice) ask the same, so `f` runs once for each set of them, in parallel, and the others
+    /// get a copy; the first error in pair order is the one returned.
+    pub fn each_pair<T: Clone + Send>(&self, f: impl Fn(usize, &Pair) -> Result<T> + Sync) -> Result<Vec<T>> {
         let mut first: Vec<usize> = Vec::with_capacity(self.pairs.len());
         for (k, p) in self.pairs.iter().enumerate() {
             let r = &p.request;
@@ -110,7 +112,17 @@ impl Block {
                 .position(|o| o.kind == r.kind && o.bra == r.bra && o.ket == r.ket);
             first.push(equal.map_or(k, |e| first[e]));
         }
-        first
+        let once: Vec<Option<Result<T>>> =
+            self.pairs.par_iter().enumerate().map(|(k, p)| (first[k] == k).then(|| f(k, p))).collect();
+        let mut out: Vec<T> = Vec::with_capacity(once.len());
+        for (k, value) in once.into_iter().enumerate() {
+            let value = match value {
+                Some(value) => value?,
+                None => out[first[k]].clone(),
+            };
+            out.push(value);
+        }
+        Ok(out)
     }
 
     /// The fixed bra and ket that the functions sum to with the free coefficients set to

@@ -6,6 +6,7 @@ use crate::engine::exact::Exact;
 use crate::error::{Source, Span};
 use crate::language::block::Block;
 use crate::language::orbital::{Orb, SpaceId, Spin, SpinOrbital};
+use bit_set::BitSet;
 use num_bigint::BigUint;
 use std::collections::BTreeSet;
 use std::sync::Arc;
@@ -261,45 +262,28 @@ pub struct Symbols {
 impl Symbols {
     pub fn of<'a>(states: impl IntoIterator<Item = &'a State>) -> Symbols {
         // bit sets as it goes: a large state names few symbols millions of times
-        let (mut orbitals, mut indices, mut closed) = (IdSet::default(), IdSet::default(), IdSet::default());
+        let (mut orbitals, mut indices, mut closed) = (BitSet::new(), BitSet::new(), BitSet::new());
         for state in states {
             for (_, det) in state.terms.iter() {
                 let excited = det.excitations.iter().flat_map(|e| e.from.iter().chain(&e.to));
                 let electrons = det.occupants.iter().filter_map(|o| match o {
                     Occupant::Closed(s) => {
-                        closed.insert(*s);
+                        closed.insert(*s as usize);
                         None
                     }
                     Occupant::Electron(so) => Some(so),
                 });
                 for so in electrons.chain(excited) {
                     match so.orb {
-                        Orb::Named(k) => orbitals.insert(k),
-                        Orb::Index(k) => indices.insert(k),
-                        Orb::Summed(_) => {}
-                    }
+                        Orb::Named(k) => orbitals.insert(k as usize),
+                        Orb::Index(k) => indices.insert(k as usize),
+                        Orb::Summed(_) => continue,
+                    };
                 }
             }
         }
-        Symbols { orbitals: orbitals.members(), closed: closed.members(), indices: indices.members() }
-    }
-}
-
-/// A growable bit set of small ids.
-#[derive(Default)]
-struct IdSet(Vec<u64>);
-
-impl IdSet {
-    fn insert(&mut self, id: u32) {
-        let (word, bit) = (id as usize / 64, id % 64);
-        if word >= self.0.len() {
-            self.0.resize(word + 1, 0);
-        }
-        self.0[word] |= 1 << bit;
-    }
-
-    fn members(&self) -> BTreeSet<u32> {
-        (0..self.0.len() as u32 * 64).filter(|&k| self.0[k as usize / 64] >> (k % 64) & 1 == 1).collect()
+        let members = |set: BitSet| set.into_iter().map(|k| k as u32).collect();
+        Symbols { orbitals: members(orbitals), closed: members(closed), indices: members(indices) }
     }
 }
 

@@ -9,6 +9,16 @@ pub mod space;
 use spinfold::{Format, Options, Program, derive_checked, render};
 use std::path::Path;
 
+/// Two open shells a, b over a closed core: the closed shell a², the high-spin triplet and the
+/// open-shell singlet, as the density and open-shell-form tests use them.
+pub const TWO_SHELL_STATES: &str = "\
+orbitals a b
+space core
+det closed = | core^2 a^2 |
+det triplet = | core^2 a b |
+state singlet = (| core^2 a b' | - | core^2 a' b |)/sqrt(2)
+";
+
 /// Every `examples/*.spinfold` as (stem, text), sorted by name.
 pub fn examples() -> Vec<(String, String)> {
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");

@@ -4,9 +4,9 @@
 
 use clap::{Parser, Subcommand, ValueEnum};
 use spinfold::{
-    Bindings, Checked, Controls, DEFAULT_SEED, Error, ErrorKind, Format, Limits, MAX_CASES, Options, Program,
-    Result, Route, Settings, Source, Span, derive_checked, eval_warnings, evaluate_with, optimize_all,
-    optimized_dump, optimized_json, optimized_text, orbitals_text, parse_with, read_dump,
+    Bindings, Checked, Controls, DEFAULT_SEED, Error, ErrorKind, Format, IntegralDump, Limits, MAX_CASES,
+    Options, Program, Result, Route, Settings, Source, Span, derive_checked, eval_warnings, evaluate_with,
+    optimize_all, optimized_dump, optimized_json, optimized_text, orbitals_text, parse_with, read_dump,
     remove_temporaries_on_signal, render, render_each, render_states, results_json, results_text,
     write_files, write_output,
 };
@@ -31,6 +31,30 @@ enum To {
     Json,
     Rust,
     Python,
+}
+
+/// The integrals `eval` and `optimize` work with, and where the input's names sit among them.
+#[derive(clap::Args)]
+struct Molecule {
+    /// Integral file in the common integral-dump text format (chemists' notation, 1-based).
+    #[arg(long)]
+    integrals: String,
+    /// Bind an orbital, space or generic index to 1-based orbitals: a=6, core=1-5, core=1,2,4,
+    /// core=none (no orbitals), i=3. `eval` tabulates an unbound generic index over its space;
+    /// `optimize` needs every generic index of an optimized state bound.
+    #[arg(long = "bind", value_name = "NAME=SPEC")]
+    bind: Vec<String>,
+}
+
+impl Molecule {
+    /// The integral file, the input derived and checked, and its names bound to the file's
+    /// orbitals.
+    fn load(&self, common: &Derivation) -> Result<(IntegralDump, Program, Vec<Checked>, Bindings)> {
+        let dump = read_dump(&self.integrals)?;
+        let (program, checked) = derived(common)?;
+        let bindings = Bindings::parse(&program, &self.bind, dump.header.norb)?;
+        Ok((dump, program, checked, bindings))
+    }
 }
 
 #[derive(clap::Args)]
@@ -121,13 +145,8 @@ enum Command {
     Eval {
         #[command(flatten)]
         common: Derivation,
-        /// Integral file in the common integral-dump text format (chemists' notation, 1-based).
-        #[arg(long)]
-        integrals: String,
-        /// Bind an orbital, space or generic index to 1-based orbitals: a=6, core=1-5, core=1,2,4,
-        /// core=none (no orbitals), i=3. An unbound generic index is tabulated over its space.
-        #[arg(long = "bind", value_name = "NAME=SPEC")]
-        bind: Vec<String>,
+        #[command(flatten)]
+        molecule: Molecule,
         /// Give a free coefficient a value: cg=0.98. Requests with free coefficients are evaluated
         /// at the values set; an energy with none set is given where it is stationary.
         #[arg(long = "set", value_name = "NAME=VALUE")]
@@ -148,13 +167,8 @@ enum Command {
     Optimize {
         #[command(flatten)]
         common: Derivation,
-        /// Integral file in the common integral-dump text format (chemists' notation, 1-based).
-        #[arg(long)]
-        integrals: String,
-        /// Bind an orbital, space or generic index to 1-based orbitals: a=6, core=1-5, i=3. Every
-        /// generic index of an optimized state must be bound.
-        #[arg(long = "bind", value_name = "NAME=SPEC")]
-        bind: Vec<String>,
+        #[command(flatten)]
+        molecule: Molecule,
         /// Print {"results": [...], "warnings": [...]} as JSON.
         #[arg(long)]
         json: bool,
@@ -263,10 +277,8 @@ fn run(cli: Cli) -> Result<()> {
             let program = parse_with(&name, &text, limits)?;
             write_output(output.as_deref(), &render_states(&program, json))
         }
-        Command::Eval { common, integrals, bind, set, roots, json, output } => {
-            let dump = read_dump(&integrals)?;
-            let (program, checked) = derived(&common)?;
-            let bindings = Bindings::parse(&program, &bind, dump.header.norb)?;
+        Command::Eval { common, molecule, set, roots, json, output } => {
+            let (dump, program, checked, bindings) = molecule.load(&common)?;
             let roots = roots.map(|n| usize::try_from(n).unwrap_or(usize::MAX));
             let settings = Settings::parse(&program, &set, roots)?;
             let progress = Progress::new();
@@ -282,8 +294,7 @@ fn run(cli: Cli) -> Result<()> {
         }
         Command::Optimize {
             common,
-            integrals,
-            bind,
+            molecule,
             json,
             gradient_tol,
             max_iter,
@@ -291,9 +302,7 @@ fn run(cli: Cli) -> Result<()> {
             write_orbitals,
             output,
         } => {
-            let dump = read_dump(&integrals)?;
-            let (program, checked) = derived(&common)?;
-            let bindings = Bindings::parse(&program, &bind, dump.header.norb)?;
+            let (dump, program, checked, bindings) = molecule.load(&common)?;
             let energies: Vec<&str> = program
                 .requests
                 .iter()

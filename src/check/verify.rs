@@ -12,7 +12,7 @@ use crate::language::orbital::{Orb, SpaceId, Spin};
 use crate::language::program::{DetSpec, Occupant, Program, Request, RequestKind, State};
 use crate::numbers::bind::symbols_of;
 use crate::numbers::density;
-use crate::numbers::evaluate::{Binding, density_elements, evaluate};
+use crate::numbers::evaluate::{Binding, Evaluations, density_elements};
 use crate::numbers::integrals::{IntegralTable, Integrals};
 use itertools::Itertools;
 use rand::seq::IndexedRandom;
@@ -205,6 +205,19 @@ pub fn compare(
     binding: &Binding,
     ints: &dyn Integrals,
 ) -> Result<Option<Vec<Comparison>>> {
+    compare_with(program, request, derivation, binding, ints, &Evaluations::default())
+}
+
+/// `compare`, with the derived expressions evaluated through `evaluations`, which keeps their
+/// specializations from one binding to the next.
+fn compare_with<'e>(
+    program: &Program,
+    request: &Request,
+    derivation: &'e Derivation,
+    binding: &Binding,
+    ints: &dyn Integrals,
+    evaluations: &Evaluations<'e>,
+) -> Result<Option<Vec<Comparison>>> {
     let (orbitals, spaces, indices) = symbols_of(program, request);
     let bound = orbitals
         .iter()
@@ -267,7 +280,7 @@ pub fn compare(
     let mut out = vec![Comparison {
         what: "value".into(),
         brute_force: expected,
-        derived: evaluate(&derivation.value, binding, ints),
+        derived: evaluations.evaluate(&derivation.value, binding, ints),
         scale,
     }];
     if let Some((what, brute_force, expr)) = second {
@@ -275,7 +288,7 @@ pub fn compare(
         out.push(Comparison {
             what: what.into(),
             brute_force,
-            derived: evaluate(expr, binding, ints),
+            derived: evaluations.evaluate(expr, binding, ints),
             scale,
         });
     }
@@ -621,6 +634,7 @@ pub(super) fn verify_sized(
     let cap = (WORK_BUDGET / (configurations.len() * pairs).max(1)).clamp(1, MAX_ASSIGNMENTS);
     let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0x5eed);
     let mut sample = Sample { drawn: 0, of: 0 };
+    let evaluations = Evaluations::default();
     for (c, sizes) in configurations.into_iter().enumerate() {
         let mut next = program.orbitals.len();
         let spaces: Vec<Vec<usize>> = sizes
@@ -652,7 +666,8 @@ pub(super) fn verify_sized(
             for &(k, m) in &assignment {
                 binding.indices[k as usize] = Some(m);
             }
-            let Some(pairs) = compare(program, request, derivation, &binding, &ints)? else {
+            let Some(pairs) = compare_with(program, request, derivation, &binding, &ints, &evaluations)?
+            else {
                 continue; // the state vanishes for this assignment; the notes say so
             };
             for comparison in pairs {

@@ -6,7 +6,11 @@ use crate::engine::fock::{fock_definition, reference_definition};
 use crate::language::orbital::Orb;
 use crate::numbers::density::Densities;
 use crate::numbers::integrals::Integrals;
+use rustc_hash::{FxHashMap, FxHashSet};
+use std::cell::{Cell, RefCell};
 use std::collections::BTreeMap;
+use std::marker::PhantomData;
+use std::rc::Rc;
 
 /// Concrete orbital numbers (0-based) for the symbols of a program.
 #[derive(Clone, Debug, Default, PartialEq)]
@@ -130,46 +134,101 @@ impl DensityElements {
 /// orbital, its terms are first combined exactly for that coincidence: the delta terms there
 /// cancel parts of the others, which floating point would do only to its precision.
 pub fn evaluate(expr: &Expr, binding: &Binding, ints: &dyn Integrals) -> f64 {
-    let terms = |e: &Expr| e.terms.iter().map(|t| term_value(t, binding, ints)).sum();
-    match specialized(expr, binding) {
-        Some(exact) => terms(&exact),
-        None => terms(expr),
+    Evaluations::default().evaluate(expr, binding, ints)
+}
+
+/// Expressions evaluated at many bindings, as the check evaluates them: each expression's
+/// generic indices are listed once, and its exact specialization is kept per pattern of
+/// coinciding indices, which is all it depends on, so that a pattern met again (in another
+/// configuration of the spaces, or by another draw) is not specialized again.
+#[derive(Default)]
+pub struct Evaluations<'e> {
+    /// Per expression (by address, for the lifetime 'e): its generic indices, ascending.
+    indices: RefCell<FxHashMap<usize, Rc<Vec<u32>>>>,
+    /// Per expression and pattern: the specialized expression, while they hold fewer than
+    /// `KEPT_TERMS` terms in all.
+    forms: RefCell<FxHashMap<FormKey, Rc<Expr>>>,
+    kept_terms: Cell<usize>,
+    exprs: PhantomData<&'e Expr>,
+}
+
+/// An expression (by address) and a pattern of coinciding indices.
+type FormKey = (usize, Vec<u32>);
+
+/// The most terms `Evaluations` keeps (about 200 bytes each with their numbers); past it, new patterns are
+/// specialized for the binding at hand only.
+const KEPT_TERMS: usize = 1 << 18;
+
+impl<'e> Evaluations<'e> {
+    pub fn evaluate(&self, expr: &'e Expr, binding: &Binding, ints: &dyn Integrals) -> f64 {
+        let terms = |e: &Expr| e.terms.iter().map(|t| term_value(t, binding, ints)).sum();
+        let at = expr as *const Expr as usize;
+        let indices =
+            self.indices.borrow_mut().entry(at).or_insert_with(|| Rc::new(generic_indices(expr))).clone();
+        let Some(pattern) = pattern(&indices, binding) else {
+            return terms(expr);
+        };
+        let found = self.forms.borrow().get(&(at, pattern.clone())).cloned();
+        let form = found.unwrap_or_else(|| {
+            let form = Rc::new(specialize(expr, &indices, &pattern));
+            if self.kept_terms.get() + form.terms.len() <= KEPT_TERMS {
+                self.kept_terms.set(self.kept_terms.get() + form.terms.len());
+                self.forms.borrow_mut().insert((at, pattern), form.clone());
+            }
+            form
+        });
+        terms(&form)
     }
 }
 
-/// The expression with every generic index replaced by the smallest index bound to the same
-/// orbital, terms whose deltas then join different orbitals dropped, and like terms collected
-/// exactly; None when the binding puts no two of its generic indices on one orbital.
-pub(crate) fn specialized(expr: &Expr, binding: &Binding) -> Option<Expr> {
-    // marked in place rather than collected and sorted: this runs once per checked assignment
-    let mut used = vec![false; binding.indices.len()];
-    for t in &expr.terms {
-        for o in t.factor.orbs().into_iter().chain(t.deltas.iter().flat_map(|&(a, b)| [a, b])) {
-            if let Orb::Index(k) = o {
-                used[k as usize] = true;
-            }
-        }
-    }
-    let indices = (0..used.len() as u32).filter(|&k| used[k as usize]);
-    let mut first_on: BTreeMap<usize, u32> = BTreeMap::new();
-    let mut representative: BTreeMap<u32, u32> = BTreeMap::new();
-    for k in indices {
-        let orbital = binding.indices[k as usize]?;
-        representative.insert(k, *first_on.entry(orbital).or_insert(k));
-    }
-    if first_on.len() == representative.len() {
-        return None;
-    }
+/// The generic indices an expression names, ascending.
+fn generic_indices(expr: &Expr) -> Vec<u32> {
+    let mut out: Vec<u32> = expr
+        .terms
+        .iter()
+        .flat_map(|t| t.factor.orbs().into_iter().chain(t.deltas.iter().flat_map(|&(a, b)| [a, b])))
+        .filter_map(|o| if let Orb::Index(k) = o { Some(k) } else { None })
+        .collect::<FxHashSet<u32>>()
+        .into_iter()
+        .collect();
+    out.sort();
+    out
+}
+
+/// For each of `indices`, the first of them bound to the same orbital; None when one is unbound
+/// or when no two share an orbital.
+fn pattern(indices: &[u32], binding: &Binding) -> Option<Vec<u32>> {
+    let orbitals: Vec<usize> = indices.iter().map(|&k| binding.indices[k as usize]).collect::<Option<_>>()?;
+    let pattern: Vec<u32> = (0..indices.len())
+        .map(|t| indices[orbitals.iter().position(|&o| o == orbitals[t]).expect("t itself")])
+        .collect();
+    (pattern.iter().zip(indices).any(|(r, k)| r != k)).then_some(pattern)
+}
+
+/// The expression with every generic index replaced by its representative in `pattern`, terms
+/// whose deltas then join different indices dropped, and like terms collected exactly.
+fn specialize(expr: &Expr, indices: &[u32], pattern: &[u32]) -> Expr {
+    let representative = |k: u32| indices.binary_search(&k).map_or(k, |at| pattern[at]);
     let same = |o: Orb| match o {
-        Orb::Index(k) => Orb::Index(representative.get(&k).copied().unwrap_or(k)),
+        Orb::Index(k) => Orb::Index(representative(k)),
         other => other,
     };
-    // a delta the binding breaks drops its term before any substitution: most terms carry one
-    let on = |o: &Orb| if let Orb::Index(k) = o { binding.indices[*k as usize] } else { None };
-    let broken =
-        |t: &&Term| t.deltas.iter().any(|(a, b)| matches!((on(a), on(b)), (Some(x), Some(y)) if x != y));
-    Some(Expr::from_terms(expr.terms.iter().filter(|t| !broken(t)).filter_map(|t| {
+    // a delta the pattern breaks drops its term before any substitution: most terms carry one
+    let broken = |t: &&Term| {
+        t.deltas.iter().any(|(a, b)| match (a, b) {
+            (Orb::Index(a), Orb::Index(b)) => representative(*a) != representative(*b),
+            _ => false,
+        })
+    };
+    Expr::from_terms(expr.terms.iter().filter(|t| !broken(t)).filter_map(|t| {
         let t = t.substitute(&same);
         t.deltas.iter().all(|(a, b)| a == b).then(|| Term { deltas: vec![], ..t })
-    })))
+    }))
+}
+
+/// The expression specialized for the coincidences of `binding` (see `Evaluations`); None when
+/// the binding puts no two of its generic indices on one orbital.
+pub(crate) fn specialized(expr: &Expr, binding: &Binding) -> Option<Expr> {
+    let indices = generic_indices(expr);
+    pattern(&indices, binding).map(|p| specialize(expr, &indices, &p))
 }
